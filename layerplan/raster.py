@@ -1,0 +1,181 @@
+"""The rendering rule, in one place.
+
+The raster pixel at row i, column j stands for the wall point
+((j + 0.5)·mm_per_px, (i + 0.5)·mm_per_px). A stroke covers it when that point
+lies within width_mm / 2 of the stroke's polyline (round ends and joins). The
+ground covers every pixel; strokes are opaque and applied in file order, layer
+after layer. The placer uses :func:`stroke_pixels` too, so what it optimises is
+exactly what is rendered.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+from numba import njit
+
+from .plan import Plan
+
+
+@njit(cache=True, nogil=True)
+def stroke_bbox(pts, n, half_w, s, h, w):
+    """Pixel rows/cols [i0, i1) x [j0, j1) that may be covered by a stroke."""
+    xmin = pts[0, 0]
+    xmax = pts[0, 0]
+    ymin = pts[0, 1]
+    ymax = pts[0, 1]
+    for p in range(1, n):
+        xmin = min(xmin, pts[p, 0])
+        xmax = max(xmax, pts[p, 0])
+        ymin = min(ymin, pts[p, 1])
+        ymax = max(ymax, pts[p, 1])
+    j0 = max(0, int(math.floor((xmin - half_w) / s - 0.5)))
+    j1 = min(w, int(math.ceil((xmax + half_w) / s - 0.5)) + 1)
+    i0 = max(0, int(math.floor((ymin - half_w) / s - 0.5)))
+    i1 = min(h, int(math.ceil((ymax + half_w) / s - 0.5)) + 1)
+    return i0, i1, j0, j1
+
+
+@njit(cache=True, nogil=True)
+def covers(pts, n, half_w2, cx, cy):
+    """True when the point (cx, cy) lies within the stroke (squared half width)."""
+    if n == 1:
+        dx = cx - pts[0, 0]
+        dy = cy - pts[0, 1]
+        return dx * dx + dy * dy <= half_w2
+    for p in range(n - 1):
+        ax = pts[p, 0]
+        ay = pts[p, 1]
+        bx = pts[p + 1, 0]
+        by = pts[p + 1, 1]
+        vx = bx - ax
+        vy = by - ay
+        wx = cx - ax
+        wy = cy - ay
+        vv = vx * vx + vy * vy
+        t = 0.0
+        if vv > 0.0:
+            t = (wx * vx + wy * vy) / vv
+            if t < 0.0:
+                t = 0.0
+            elif t > 1.0:
+                t = 1.0
+        dx = wx - t * vx
+        dy = wy - t * vy
+        if dx * dx + dy * dy <= half_w2:
+            return True
+    return False
+
+
+@njit(cache=True, nogil=True)
+def stroke_pixels(pts, n, width_mm, s, h, w, out_i, out_j):
+    """Write the covered pixels of a stroke into out_i/out_j; return their count.
+
+    ``pts`` holds at least ``n`` (x, y) points in wall mm; ``s`` is mm per pixel.
+    ``out_i``/``out_j`` must be large enough for the stroke's bounding box.
+    """
+    half_w = 0.5 * width_mm
+    half_w2 = half_w * half_w
+    i0, i1, j0, j1 = stroke_bbox(pts, n, half_w, s, h, w)
+    c = 0
+    for i in range(i0, i1):
+        cy = (i + 0.5) * s
+        for j in range(j0, j1):
+            cx = (j + 0.5) * s
+            if covers(pts, n, half_w2, cx, cy):
+                out_i[c] = i
+                out_j[c] = j
+                c += 1
+    return c
+
+
+@njit(cache=True, nogil=True)
+def paint_strokes(canvas, all_pts, starts, counts, widths, paints, s):
+    """Apply strokes in order to an (H, W) index canvas, in place."""
+    h, w = canvas.shape
+    for k in range(len(starts)):
+        pts = all_pts[starts[k] : starts[k] + counts[k]]
+        half_w = 0.5 * widths[k]
+        half_w2 = half_w * half_w
+        i0, i1, j0, j1 = stroke_bbox(pts, counts[k], half_w, s, h, w)
+        for i in range(i0, i1):
+            cy = (i + 0.5) * s
+            for j in range(j0, j1):
+                cx = (j + 0.5) * s
+                if covers(pts, counts[k], half_w2, cx, cy):
+                    canvas[i, j] = paints[k]
+
+
+def pack_strokes(strokes, paint_index):
+    """Flatten a list of `Stroke` into the arrays `paint_strokes` takes."""
+    n = len(strokes)
+    counts = np.array([len(s.path_mm) for s in strokes], dtype=np.int64)
+    starts = np.zeros(n, dtype=np.int64)
+    if n:
+        starts[1:] = np.cumsum(counts)[:-1]
+    pts = (
+        np.concatenate([np.asarray(s.path_mm, float).reshape(-1, 2) for s in strokes])
+        if n
+        else np.zeros((0, 2))
+    )
+    widths = np.array([s.width_mm for s in strokes], dtype=np.float64)
+    paints = np.array([paint_index[s.paint] for s in strokes], dtype=np.int16)
+    return pts, starts, counts, widths, paints
+
+
+def render_indices(plan: Plan, *, upto_layer: int | None = None) -> np.ndarray:
+    """Paint index of every raster pixel after the ground and the first layers.
+
+    Parameters
+    ----------
+    plan : Plan
+    upto_layer : int, optional
+        Number of layers to apply (default: all).
+
+    Returns
+    -------
+    canvas : (H, W) int16 array of palette positions
+    """
+    idx = plan.paint_index()
+    canvas = np.full((plan.height_px, plan.width_px), idx[plan.ground], dtype=np.int16)
+    layers = plan.layers if upto_layer is None else plan.layers[:upto_layer]
+    for layer in layers:
+        if layer.strokes:
+            pts, starts, counts, widths, paints = pack_strokes(layer.strokes, idx)
+            paint_strokes(canvas, pts, starts, counts, widths, paints, float(plan.mm_per_px))
+    return canvas
+
+
+def render(plan: Plan, *, upto_layer: int | None = None) -> np.ndarray:
+    """The plan rendered by the rendering rule.
+
+    Returns
+    -------
+    image : (H, W, 3) uint8 array, each pixel the ``srgb`` of its paint
+    """
+    return plan.palette_rgb()[render_indices(plan, upto_layer=upto_layer)]
+
+
+def render_steps(plan: Plan) -> list[np.ndarray]:
+    """Cumulative (H, W) index canvases: ground only, then after each layer."""
+    idx = plan.paint_index()
+    canvas = np.full((plan.height_px, plan.width_px), idx[plan.ground], dtype=np.int16)
+    out = [canvas.copy()]
+    for layer in plan.layers:
+        if layer.strokes:
+            pts, starts, counts, widths, paints = pack_strokes(layer.strokes, idx)
+            paint_strokes(canvas, pts, starts, counts, widths, paints, float(plan.mm_per_px))
+        out.append(canvas.copy())
+    return out
+
+
+def stroke_mask(stroke_path_mm, width_mm: float, mm_per_px: float, shape) -> np.ndarray:
+    """(H, W) bool mask of the pixels one stroke covers."""
+    pts = np.ascontiguousarray(np.asarray(stroke_path_mm, float).reshape(-1, 2))
+    canvas = np.zeros(shape, dtype=np.int16)
+    paint_strokes(
+        canvas, pts, np.zeros(1, np.int64), np.array([len(pts)], np.int64),
+        np.array([float(width_mm)]), np.ones(1, np.int16), float(mm_per_px),
+    )
+    return canvas.astype(bool)

@@ -1,0 +1,128 @@
+"""Planning settings, validated once at the edge (CLI, web, library callers)."""
+
+from __future__ import annotations
+
+import math
+from dataclasses import asdict, dataclass, field, replace
+from typing import Any
+
+#: default brush kit, mm: a 100 mm block-in brush down to a 12 mm detail brush (common practice
+#: for wall work: 4", 2", 1", 1/2" flats)
+DEFAULT_BRUSHES_MM: tuple[float, ...] = (100.0, 50.0, 25.0, 12.0)
+#: default wall width when none is given
+DEFAULT_WALL_WIDTH_MM = 3000.0
+#: the narrowest brush should span at least this many working pixels
+MIN_PX_PER_BRUSH = 3.0
+#: default cap on the working raster, pixels (keeps planning within memory and minutes)
+MAX_RASTER_PX = 2_000_000
+#: hard limit for an explicit --pixel-mm
+HARD_MAX_RASTER_PX = 8_000_000
+MIN_PAINTS, MAX_PAINTS = 2, 32
+MAX_BRUSHES = 8
+#: largest wall side we accept, mm (100 m: bigger than any mural wall we expect)
+MAX_WALL_MM = 100_000.0
+FITS = ("cover", "contain")
+
+
+@dataclass(frozen=True)
+class Settings:
+    """Everything that decides a plan besides the photo.
+
+    Parameters
+    ----------
+    wall_width_mm : float
+        Width of the painted surface.
+    wall_height_mm : float or None
+        Height; ``None`` takes it from the photo's aspect ratio.
+    wall_unit : str
+        Unit the painter gave the size in (``m``, ``cm``, ``mm``, ``ft``, ``in``); display only.
+    fit : {"cover", "contain"}
+        ``cover`` scales the photo to cover the wall and centre-crops; ``contain``
+        fits it inside and pads with the ground paint.
+    paints : int
+        Size of the finite paint set, 2–32.
+    brushes_mm : tuple of float
+        Brush widths; one layer per brush, widest first.
+    mm_per_px : float or None
+        Wall size of one working pixel; ``None`` picks one (see :func:`choose_mm_per_px`).
+    seed : int
+        Seed for every random choice: same inputs and seed give the same plan.
+    stroke_cost : float
+        What a stroke must earn: the ΔE00 it removes, summed over its pixels, must exceed
+        ``stroke_cost`` × (brush width in pixels)².
+    """
+
+    wall_width_mm: float = DEFAULT_WALL_WIDTH_MM
+    wall_height_mm: float | None = None
+    wall_unit: str = "m"
+    fit: str = "cover"
+    paints: int = 8
+    brushes_mm: tuple[float, ...] = DEFAULT_BRUSHES_MM
+    mm_per_px: float | None = None
+    seed: int = 0
+    stroke_cost: float = 1.0
+    extra: dict[str, Any] = field(default_factory=dict, compare=False)
+
+    def validated(self) -> "Settings":
+        """Return a checked, normalised copy (brushes sorted widest first).
+
+        Raises
+        ------
+        ValueError
+            Naming the setting and the bad value.
+        """
+        for name in ("wall_width_mm", "wall_height_mm"):
+            v = getattr(self, name)
+            if v is None and name == "wall_height_mm":
+                continue
+            if not isinstance(v, (int, float)) or not math.isfinite(v) or v <= 0:
+                raise ValueError(f"wall {name[5:-3]} must be > 0 mm, got {v}")
+            if v > MAX_WALL_MM:
+                raise ValueError(f"wall {name[5:-3]} must be at most {MAX_WALL_MM / 1000:g} m, got {v / 1000:g} m")
+        if self.fit not in FITS:
+            raise ValueError(f"fit must be one of {', '.join(FITS)}, got {self.fit!r}")
+        if not isinstance(self.paints, int) or not MIN_PAINTS <= self.paints <= MAX_PAINTS:
+            raise ValueError(f"paints must be a whole number from {MIN_PAINTS} to {MAX_PAINTS}, got {self.paints}")
+        brushes = tuple(sorted((float(b) for b in self.brushes_mm), reverse=True))
+        if not brushes:
+            raise ValueError("give at least one brush width")
+        if len(brushes) > MAX_BRUSHES:
+            raise ValueError(f"at most {MAX_BRUSHES} brushes, got {len(brushes)}")
+        for b in brushes:
+            if not math.isfinite(b) or b <= 0:
+                raise ValueError(f"brush width must be > 0 mm, got {b:g}")
+            if b > 1000:
+                raise ValueError(f"brush width must be at most 1000 mm, got {b:g}")
+        if len(set(brushes)) != len(brushes):
+            raise ValueError(f"brush widths must differ, got {', '.join(f'{b:g}' for b in self.brushes_mm)}")
+        if self.mm_per_px is not None and (not math.isfinite(self.mm_per_px) or self.mm_per_px <= 0):
+            raise ValueError(f"pixel size must be > 0 mm, got {self.mm_per_px}")
+        if not isinstance(self.seed, int) or self.seed < 0:
+            raise ValueError(f"seed must be a whole number >= 0, got {self.seed}")
+        if not math.isfinite(self.stroke_cost) or self.stroke_cost < 0:
+            raise ValueError(f"stroke cost must be >= 0, got {self.stroke_cost}")
+        return replace(self, brushes_mm=brushes)
+
+    def to_dict(self) -> dict[str, Any]:
+        d = asdict(self)
+        d["brushes_mm"] = list(self.brushes_mm)
+        extra = d.pop("extra")
+        d.update(extra)
+        return d
+
+
+def choose_mm_per_px(wall_width_mm: float, wall_height_mm: float, narrowest_brush_mm: float,
+                     *, max_px: int = MAX_RASTER_PX) -> float:
+    """Default working-pixel size.
+
+    Fine enough that the narrowest brush spans ``MIN_PX_PER_BRUSH`` pixels, but no finer
+    than keeps the raster within ``max_px`` pixels. Rounded up to 0.01 mm.
+    """
+    s = narrowest_brush_mm / MIN_PX_PER_BRUSH
+    s = max(s, math.sqrt(wall_width_mm * wall_height_mm / max_px))
+    return math.ceil(s * 100.0 - 1e-9) / 100.0
+
+
+def raster_size(wall_width_mm: float, wall_height_mm: float, mm_per_px: float) -> tuple[int, int]:
+    """(width_px, height_px) of the working raster: the wall divided into whole pixels."""
+    return max(1, int(round(wall_width_mm / mm_per_px))), max(1, int(round(wall_height_mm / mm_per_px)))
