@@ -1,0 +1,137 @@
+"""make_plan: photo + settings -> Plan. The one entry point for CLI, web and tests."""
+
+from __future__ import annotations
+
+import numpy as np
+
+from . import __version__
+from .colour import delta_e00, error_planes, srgb_to_lab
+from .fit import fit_to_wall
+from .ground import choose_ground
+from .layers import layer_specs
+from .order import painting_order
+from .palette import palette_from_image
+from .placer import orientation_field, place_layer
+from .plan import Layer, Paint, Plan, Stroke, rgb_to_hex
+from .settings import Settings, choose_mm_per_px, raster_size
+
+#: share of the progress bar given to each phase (planning strokes dominates)
+_P_PREP, _P_LAYERS = 0.12, 0.84
+
+
+def _noop(fraction: float, message: str) -> None:
+    pass
+
+
+def wall_size(settings: Settings, image_shape) -> tuple[float, float]:
+    """Wall width and height in mm; a missing height follows the photo's aspect."""
+    h, w = image_shape[:2]
+    height = settings.wall_height_mm
+    if height is None:
+        height = settings.wall_width_mm * h / w
+    return float(settings.wall_width_mm), float(height)
+
+
+def make_plan(image: np.ndarray, settings: Settings, *, progress=None) -> Plan:
+    """Plan a layered painting of a photo at wall scale.
+
+    Parameters
+    ----------
+    image : (h, w, 3) uint8 array, sRGB
+    settings : Settings
+    progress : callable(fraction, message), optional
+        Called with non-decreasing fractions in [0, 1].
+
+    Returns
+    -------
+    Plan
+
+    Raises
+    ------
+    ValueError
+        If a setting is out of range (the message names it).
+
+    References
+    ----------
+    Hertzmann, "Paint by Relaxation", 2001 (energy); Sharma et al. 2005 (CIEDE2000).
+    """
+    report = progress or _noop
+    settings = settings.validated()
+    image = np.asarray(image)
+    if image.ndim != 3 or image.shape[2] != 3 or image.dtype != np.uint8:
+        raise ValueError(f"image must be an (H, W, 3) uint8 array, got {image.dtype} {image.shape}")
+    wall_w, wall_h = wall_size(settings, image.shape)
+    settings = settings.validated() if settings.wall_height_mm else settings
+    if wall_h > 100_000.0:
+        raise ValueError(f"wall height must be at most 100 m, got {wall_h / 1000:g} m")
+    s = settings.mm_per_px or choose_mm_per_px(wall_w, wall_h, min(settings.brushes_mm))
+    width_px, height_px = raster_size(wall_w, wall_h, s)
+    if width_px * height_px > 8_000_000:
+        raise ValueError(
+            f"working raster of {width_px}x{height_px} px is too large (at most 8 megapixels); "
+            f"use a coarser pixel size than {s:g} mm"
+        )
+    if width_px < 8 or height_px < 8:
+        raise ValueError(f"working raster of {width_px}x{height_px} px is too small; use a finer pixel size than {s:g} mm")
+    report(0.0, "fitting the photo to the wall")
+    target, inside = fit_to_wall(image, width_px, height_px, fit=settings.fit)
+
+    report(0.03, "choosing paints")
+    pal_rgb, pal_lab = palette_from_image(target, inside, settings.paints, seed=settings.seed)
+    target_lab = srgb_to_lab(target)
+
+    report(0.06, "measuring colour error")
+    planes = error_planes(target_lab, pal_lab)
+    ground = choose_ground(planes, inside)
+    if not inside.all():
+        # contain bands are meant to stay ground: measure them against the ground paint
+        planes[~inside] = delta_e00(pal_lab, pal_lab[ground][None, :]).astype(np.float32)
+        target_lab[~inside] = pal_lab[ground]
+    canvas = np.full((height_px, width_px), ground, dtype=np.int16)
+    err = np.ascontiguousarray(planes[:, :, ground])
+    stats = {"mean_delta_e_ground": round(float(err.mean()), 4),
+             "mean_delta_e_floor": round(float(planes.min(axis=2).mean()), 4)}
+
+    ids = [f"P{i + 1}" for i in range(len(pal_rgb))]
+    palette = [
+        Paint(id=ids[i], srgb=rgb_to_hex(pal_rgb[i]), lab=tuple(round(float(v), 3) for v in pal_lab[i]))
+        for i in range(len(pal_rgb))
+    ]
+    specs = layer_specs(settings.brushes_mm, s, settings.stroke_cost)
+    layers = []
+    layer_stats = []
+    span = _P_LAYERS / len(specs)
+    for n, spec in enumerate(specs):
+        base = _P_PREP + n * span
+        label = f"layer {spec.number} of {len(specs)} ({spec.limits.width_mm:g} mm brush)"
+        report(base, label)
+        theta = orientation_field(target_lab, spec.direction_sigma_px)
+
+        def sub(fraction, message, base=base, label=label):
+            report(base + span * min(1.0, fraction), f"{label}: {message}")
+
+        result = place_layer(
+            planes, canvas, err, theta, spec.limits, mm_per_px=s, wall_mm=(wall_w, wall_h),
+            cost=spec.cost, seed=settings.seed * 7919 + spec.number, progress=sub,
+        )
+        order = painting_order(result.points, result.paints, spec.limits.width_mm, s, (height_px, width_px))
+        strokes = [
+            Stroke(paint=ids[int(result.paints[i])], width_mm=spec.limits.width_mm, path_mm=result.points[i])
+            for i in order
+        ]
+        layers.append(Layer(brush_width_mm=spec.limits.width_mm, strokes=strokes))
+        layer_stats.append({
+            "strokes": len(strokes),
+            "mean_delta_e_before": round(result.error_before / err.size, 4),
+            "mean_delta_e_after": round(result.error_after / err.size, 4),
+        })
+    report(0.97, "finishing the plan")
+    stats["mean_delta_e_final"] = round(float(err.mean()), 4)
+    stats["layers"] = layer_stats
+    plan = Plan(
+        wall_width_mm=wall_w, wall_height_mm=wall_h, width_px=width_px, height_px=height_px, mm_per_px=s,
+        palette=palette, ground=ids[ground], layers=layers,
+        extra={"generator": f"layerplan {__version__}", "settings": settings.to_dict(), "stats": stats},
+    )
+    report(1.0, "plan ready")
+    return plan

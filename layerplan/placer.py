@@ -1,0 +1,470 @@
+"""Stroke placement: stochastic hill climbing per layer, the hot loop of the planner.
+
+Energy (after Hertzmann 2001): the summed CIEDE2000 between the canvas and the
+target over every pixel, plus ``cost`` per stroke. A stroke is born where the
+remaining error is largest, grown along the image's isophotes and then refined by
+random local moves (shift, turn, lengthen, shorten, bend); each candidate takes the
+paint that lowers the error most over its footprint (recolour), and a move is kept
+only when it lowers the energy. The stroke is painted only if it lowers the energy,
+i.e. removes more error than it costs.
+
+Data layout, chosen for speed: ``planes`` is (H, W, K) float32 so the K paint errors
+of a pixel are contiguous; a candidate's gain for every paint is one pass over its
+footprint. Footprints are found segment by segment with a stamp array, using the same
+coverage test as :mod:`layerplan.raster`, so what is optimised is exactly what is
+rendered.
+
+References
+----------
+A. Hertzmann, "Paint by Relaxation", Proc. Computer Graphics International, 2001.
+A. Hertzmann, "Painterly Rendering with Curved Brush Strokes of Multiple Sizes",
+Proc. SIGGRAPH 1998.
+J. Bigun, G. Granlund, "Optimal orientation detection of linear symmetry", ICCV 1987
+(structure tensor for stroke directions).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+from numba import njit
+
+from .raster import covers
+
+#: stroke points are kept on a 0.1 mm grid so plan.json holds them exactly
+POINT_GRID_MM = 0.1
+#: most vertices in one stroke's polyline
+MAX_POINTS = 10
+
+
+@dataclass(frozen=True)
+class BrushLimits:
+    """What one brush can paint in one stroke.
+
+    Lengths are tip to tail, round ends included, so a single dab is one brush width long.
+
+    Attributes
+    ----------
+    width_mm : float
+    min_length_mm, max_length_mm : float
+        Stroke length limits (default 1 and 9 brush widths).
+    min_segment_mm, max_segment_mm : float
+        Spacing of polyline vertices (0.5 to 1.5 brush widths).
+    max_turn_deg : float
+        Largest change of direction at one vertex (bounded curvature).
+    """
+
+    width_mm: float
+    min_length_mm: float
+    max_length_mm: float
+    min_segment_mm: float
+    max_segment_mm: float
+    max_turn_deg: float
+
+    @classmethod
+    def for_brush(cls, width_mm: float) -> "BrushLimits":
+        """Default limits for a round-ended brush of this width (our own rule of thumb)."""
+        return cls(
+            width_mm=width_mm,
+            min_length_mm=width_mm,
+            max_length_mm=9.0 * width_mm,
+            min_segment_mm=0.5 * width_mm,
+            max_segment_mm=1.5 * width_mm,
+            max_turn_deg=40.0,
+        )
+
+
+@njit(cache=True, nogil=True)
+def _round_grid(v):
+    return np.round(v * 10.0) / 10.0
+
+
+@njit(cache=True, nogil=True)
+def _footprint_gain(pts, n, width_mm, s, planes, err, stamp, stamp_id, sums, buf_i, buf_j):
+    """Gain of painting the stroke with each paint; returns (best gain, best paint, pixel count)."""
+    h, w, k = planes.shape
+    half_w = 0.5 * width_mm
+    half_w2 = half_w * half_w
+    base = 0.0
+    for q in range(k):
+        sums[q] = 0.0
+    c = 0
+    nseg = max(1, n - 1)
+    for sidx in range(nseg):
+        seg = pts[sidx : sidx + 2] if n > 1 else pts[0:1]
+        m = 2 if n > 1 else 1
+        xmin = min(seg[0, 0], seg[m - 1, 0])
+        xmax = max(seg[0, 0], seg[m - 1, 0])
+        ymin = min(seg[0, 1], seg[m - 1, 1])
+        ymax = max(seg[0, 1], seg[m - 1, 1])
+        j0 = max(0, int(math.floor((xmin - half_w) / s - 0.5)))
+        j1 = min(w, int(math.ceil((xmax + half_w) / s - 0.5)) + 1)
+        i0 = max(0, int(math.floor((ymin - half_w) / s - 0.5)))
+        i1 = min(h, int(math.ceil((ymax + half_w) / s - 0.5)) + 1)
+        for i in range(i0, i1):
+            cy = (i + 0.5) * s
+            for j in range(j0, j1):
+                if stamp[i, j] == stamp_id:
+                    continue
+                cx = (j + 0.5) * s
+                if covers(seg, m, half_w2, cx, cy):
+                    stamp[i, j] = stamp_id
+                    base += err[i, j]
+                    for q in range(k):
+                        sums[q] += planes[i, j, q]
+                    buf_i[c] = i
+                    buf_j[c] = j
+                    c += 1
+    best = -1e30
+    bq = 0
+    for q in range(k):
+        g = base - sums[q]
+        if g > best:
+            best = g
+            bq = q
+    return best, bq, c
+
+
+@njit(cache=True, nogil=True)
+def _valid(pts, n, width_mm, min_len, max_len, min_seg, max_seg, cos_max_turn, wall_w, wall_h):
+    """Check a candidate polyline against the brush limits and the wall."""
+    for p in range(n):
+        if pts[p, 0] < 0.0 or pts[p, 0] > wall_w or pts[p, 1] < 0.0 or pts[p, 1] > wall_h:
+            return False
+    total = 0.0
+    for p in range(n - 1):
+        dx = pts[p + 1, 0] - pts[p, 0]
+        dy = pts[p + 1, 1] - pts[p, 1]
+        L = math.sqrt(dx * dx + dy * dy)
+        if L < min_seg - 1e-6 or L > max_seg + 1e-6:
+            return False
+        total += L
+        if p > 0:
+            ex = pts[p, 0] - pts[p - 1, 0]
+            ey = pts[p, 1] - pts[p - 1, 1]
+            le = math.sqrt(ex * ex + ey * ey)
+            if (ex * dx + ey * dy) < cos_max_turn * le * L - 1e-9:
+                return False
+    length = total + width_mm
+    return length >= min_len - 1e-6 and length <= max_len + 1e-6
+
+
+@njit(cache=True, nogil=True)
+def _angle_at(theta, x, y, s):
+    h, w = theta.shape
+    j = min(w - 1, max(0, int(x / s)))
+    i = min(h - 1, max(0, int(y / s)))
+    return theta[i, j]
+
+
+@njit(cache=True, nogil=True)
+def _place_layer(planes, best_err, canvas, err, stamp, theta, births, width_mm, s, cost,
+                 min_len, max_len, min_seg, max_seg, max_turn, wall_w, wall_h,
+                 tries, patience, seed, out_pts, out_n, out_paint, out_gain, start_count):
+    """Place strokes for one layer from the given birth pixels; returns the stroke count."""
+    np.random.seed(seed)
+    h, w, k = planes.shape
+    cos_max_turn = math.cos(max_turn)
+    step = width_mm
+    # buffers large enough for any footprint
+    cap = h * w
+    r_px = int(math.ceil(width_mm / s)) + 2
+    cap = min(cap, (2 * r_px + 2) * (2 * r_px + 2) * MAX_POINTS * 2)
+    buf_i = np.empty(cap, np.int32)
+    buf_j = np.empty(cap, np.int32)
+    best_i = np.empty(cap, np.int32)
+    best_j = np.empty(cap, np.int32)
+    sums = np.empty(k, np.float64)
+    cur = np.zeros((MAX_POINTS, 2), np.float64)
+    cand = np.zeros((MAX_POINTS, 2), np.float64)
+    count = start_count
+    stamp_id = stamp.max()
+    max_strokes = out_pts.shape[0]
+    for b in range(births.shape[0]):
+        if count >= max_strokes:
+            break
+        bi = births[b, 0]
+        bj = births[b, 1]
+        if err[bi, bj] - best_err[bi, bj] <= 0.0:
+            continue
+        cx = (bj + 0.5) * s
+        cy = (bi + 0.5) * s
+        a = theta[bi, bj]
+        hx = 0.5 * step * math.cos(a)
+        hy = 0.5 * step * math.sin(a)
+        # start as a one-segment stroke through the birth pixel, or a dab if that won't fit
+        n = 2
+        cur[0, 0] = _round_grid(cx - hx)
+        cur[0, 1] = _round_grid(cy - hy)
+        cur[1, 0] = _round_grid(cx + hx)
+        cur[1, 1] = _round_grid(cy + hy)
+        if not _valid(cur, n, width_mm, min_len, max_len, min_seg, max_seg, cos_max_turn, wall_w, wall_h):
+            n = 1
+            cur[0, 0] = _round_grid(min(max(cx, 0.0), wall_w))
+            cur[0, 1] = _round_grid(min(max(cy, 0.0), wall_h))
+            if not _valid(cur, n, width_mm, min_len, max_len, min_seg, max_seg, cos_max_turn, wall_w, wall_h):
+                continue
+        stamp_id += 1
+        gain, paint, npx = _footprint_gain(cur, n, width_mm, s, planes, err, stamp, stamp_id, sums, buf_i, buf_j)
+        best_i[:npx] = buf_i[:npx]
+        best_j[:npx] = buf_j[:npx]
+        best_npx = npx
+        fails = 0
+        for t in range(tries):
+            if fails >= patience:
+                break
+            for p in range(n):
+                cand[p, 0] = cur[p, 0]
+                cand[p, 1] = cur[p, 1]
+            m = n
+            move = np.random.randint(0, 6)
+            if move <= 1:
+                # lengthen at one end, turning toward the isophote there
+                if n >= MAX_POINTS:
+                    fails += 1
+                    continue
+                at_end = np.random.randint(0, 2) == 1 or n == 1
+                if n == 1:
+                    ang = _angle_at(theta, cur[0, 0], cur[0, 1], s)
+                    ex = cur[0, 0]
+                    ey = cur[0, 1]
+                    dirx = math.cos(ang)
+                    diry = math.sin(ang)
+                elif at_end:
+                    ex = cur[n - 1, 0]
+                    ey = cur[n - 1, 1]
+                    dirx = cur[n - 1, 0] - cur[n - 2, 0]
+                    diry = cur[n - 1, 1] - cur[n - 2, 1]
+                else:
+                    ex = cur[0, 0]
+                    ey = cur[0, 1]
+                    dirx = cur[0, 0] - cur[1, 0]
+                    diry = cur[0, 1] - cur[1, 1]
+                ln = math.sqrt(dirx * dirx + diry * diry)
+                if ln <= 0.0:
+                    fails += 1
+                    continue
+                dirx /= ln
+                diry /= ln
+                ang = _angle_at(theta, ex, ey, s)
+                tx = math.cos(ang)
+                ty = math.sin(ang)
+                if tx * dirx + ty * diry < 0.0:
+                    tx = -tx
+                    ty = -ty
+                # blend toward the isophote with a random wobble, then clamp the turn
+                cur_a = math.atan2(diry, dirx)
+                want = math.atan2(ty, tx)
+                d = want - cur_a
+                while d > math.pi:
+                    d -= 2 * math.pi
+                while d < -math.pi:
+                    d += 2 * math.pi
+                d += np.random.normal() * 0.3
+                d = max(-max_turn, min(max_turn, d))
+                na = cur_a + d
+                seg_len = step * (0.75 + 0.5 * np.random.random())
+                nx = _round_grid(ex + seg_len * math.cos(na))
+                ny = _round_grid(ey + seg_len * math.sin(na))
+                if at_end:
+                    cand[n, 0] = nx
+                    cand[n, 1] = ny
+                else:
+                    for p in range(n, 0, -1):
+                        cand[p, 0] = cand[p - 1, 0]
+                        cand[p, 1] = cand[p - 1, 1]
+                    cand[0, 0] = nx
+                    cand[0, 1] = ny
+                m = n + 1
+            elif move == 2:
+                # shorten: drop one end vertex
+                if n <= 1:
+                    fails += 1
+                    continue
+                if np.random.randint(0, 2) == 1:
+                    m = n - 1
+                else:
+                    for p in range(n - 1):
+                        cand[p, 0] = cur[p + 1, 0]
+                        cand[p, 1] = cur[p + 1, 1]
+                    m = n - 1
+            elif move == 3:
+                # shift the whole stroke
+                dx = np.random.normal() * 0.3 * step
+                dy = np.random.normal() * 0.3 * step
+                for p in range(n):
+                    cand[p, 0] = _round_grid(cur[p, 0] + dx)
+                    cand[p, 1] = _round_grid(cur[p, 1] + dy)
+            elif move == 4:
+                # turn about the centroid
+                if n <= 1:
+                    fails += 1
+                    continue
+                mx = 0.0
+                my = 0.0
+                for p in range(n):
+                    mx += cur[p, 0]
+                    my += cur[p, 1]
+                mx /= n
+                my /= n
+                da = np.random.normal() * 0.25
+                ca = math.cos(da)
+                sa = math.sin(da)
+                for p in range(n):
+                    ox = cur[p, 0] - mx
+                    oy = cur[p, 1] - my
+                    cand[p, 0] = _round_grid(mx + ca * ox - sa * oy)
+                    cand[p, 1] = _round_grid(my + sa * ox + ca * oy)
+            else:
+                # bend: move one vertex
+                p = np.random.randint(0, n)
+                cand[p, 0] = _round_grid(cur[p, 0] + np.random.normal() * 0.25 * step)
+                cand[p, 1] = _round_grid(cur[p, 1] + np.random.normal() * 0.25 * step)
+            if not _valid(cand, m, width_mm, min_len, max_len, min_seg, max_seg, cos_max_turn, wall_w, wall_h):
+                fails += 1
+                continue
+            stamp_id += 1
+            g2, q2, np2 = _footprint_gain(cand, m, width_mm, s, planes, err, stamp, stamp_id, sums, buf_i, buf_j)
+            if g2 > gain + 1e-9:
+                gain = g2
+                paint = q2
+                n = m
+                for p in range(m):
+                    cur[p, 0] = cand[p, 0]
+                    cur[p, 1] = cand[p, 1]
+                best_i[:np2] = buf_i[:np2]
+                best_j[:np2] = buf_j[:np2]
+                best_npx = np2
+                fails = 0
+            else:
+                fails += 1
+        if gain > cost:
+            for c in range(best_npx):
+                i = best_i[c]
+                j = best_j[c]
+                canvas[i, j] = paint
+                err[i, j] = planes[i, j, paint]
+            for p in range(n):
+                out_pts[count, p, 0] = cur[p, 0]
+                out_pts[count, p, 1] = cur[p, 1]
+            out_n[count] = n
+            out_paint[count] = paint
+            out_gain[count] = gain
+            count += 1
+    return count
+
+
+def orientation_field(lab: np.ndarray, sigma_px: float) -> np.ndarray:
+    """Isophote angle (radians, in wall x/y) of the target's lightness at a brush's scale.
+
+    Parameters
+    ----------
+    lab : (H, W, 3) float array
+    sigma_px : float
+        Integration scale of the structure tensor (about the brush width in pixels).
+
+    Returns
+    -------
+    theta : (H, W) float64 array
+
+    References
+    ----------
+    Bigun & Granlund (1987); Hertzmann (1998) paints along the normal of the gradient.
+    """
+    from skimage.feature import structure_tensor
+
+    arr, arc, acc = structure_tensor(lab[..., 0], sigma=max(0.5, sigma_px), order="rc")
+    # dominant gradient direction in x (cols) / y (rows); isophotes run across it
+    phi = 0.5 * np.arctan2(2.0 * arc, acc - arr)
+    return np.ascontiguousarray(phi + 0.5 * np.pi)
+
+
+@dataclass
+class LayerResult:
+    """Strokes placed in one layer (before ordering)."""
+
+    points: list[np.ndarray]
+    paints: np.ndarray
+    gains: np.ndarray
+    error_before: float
+    error_after: float
+    cost: float
+
+
+def place_layer(planes, canvas, err, theta, limits: BrushLimits, *, mm_per_px: float, wall_mm, cost: float,
+                seed: int, rounds: int = 6, tries: int = 48, patience: int = 14, progress=None) -> LayerResult:
+    """Place one layer's strokes on the canvas, in place.
+
+    Parameters
+    ----------
+    planes : (H, W, K) float32 array, ΔE00 from each paint to each target pixel
+    canvas : (H, W) int16 array, paint index per pixel (updated)
+    err : (H, W) float32 array, current ΔE00 per pixel (updated)
+    theta : (H, W) float64 array, stroke direction field
+    limits : BrushLimits
+    mm_per_px : float
+    wall_mm : (float, float), wall width and height
+    cost : float
+        Energy cost of one stroke (ΔE00 × pixels).
+    seed : int
+    rounds : int
+        Birth rounds; each samples new births where the remaining error is largest.
+    tries, patience : int
+        Refinement moves per stroke, and how many failures in a row end it.
+    progress : callable(fraction, message), optional
+
+    Returns
+    -------
+    LayerResult
+
+    References
+    ----------
+    Hertzmann (2001), "Paint by Relaxation".
+    """
+    h, w, k = planes.shape
+    best_err = planes.min(axis=2)
+    stamp = np.zeros((h, w), dtype=np.int64)
+    rng = np.random.default_rng(seed)
+    w_px = limits.width_mm / mm_per_px
+    per_round = max(16, int(h * w / max(1.0, w_px * w_px)))
+    max_strokes = per_round * rounds
+    out_pts = np.zeros((max_strokes, MAX_POINTS, 2))
+    out_n = np.zeros(max_strokes, np.int64)
+    out_paint = np.zeros(max_strokes, np.int64)
+    out_gain = np.zeros(max_strokes, np.float64)
+    before = float(err.sum(dtype=np.float64))
+    count = 0
+    for r in range(rounds):
+        room = (err - best_err).ravel().astype(np.float64)
+        np.maximum(room, 0.0, out=room)
+        total = room.sum()
+        if total <= cost:
+            break
+        n_births = min(per_round, int(np.count_nonzero(room)))
+        if n_births == 0:
+            break
+        flat = rng.choice(h * w, size=n_births, replace=False, p=room / total)
+        births = np.stack([flat // w, flat % w], axis=1).astype(np.int64)
+        prev = count
+        count = _place_layer(
+            planes, best_err, canvas, err, stamp, theta, births, float(limits.width_mm), float(mm_per_px),
+            float(cost), float(limits.min_length_mm), float(limits.max_length_mm), float(limits.min_segment_mm),
+            float(limits.max_segment_mm), math.radians(limits.max_turn_deg), float(wall_mm[0]), float(wall_mm[1]),
+            int(tries), int(patience), int(seed * 1000 + r), out_pts, out_n, out_paint, out_gain, count,
+        )
+        if progress is not None:
+            progress((r + 1) / rounds, f"{count} strokes")
+        # a round that placed few strokes for its births means the layer has done its work
+        if count - prev < 0.03 * n_births:
+            break
+    points = [out_pts[i, : out_n[i]].copy() for i in range(count)]
+    return LayerResult(
+        points=points,
+        paints=out_paint[:count].copy(),
+        gains=out_gain[:count].copy(),
+        error_before=before,
+        error_after=float(err.sum(dtype=np.float64)),
+        cost=float(cost),
+    )

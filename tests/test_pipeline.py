@@ -1,0 +1,114 @@
+"""make_plan end to end on small synthetic images with known answers."""
+
+import numpy as np
+import pytest
+from sklearn.cluster import KMeans
+
+from conftest import QUADRANT_COLOURS, quadrants
+from layerplan.colour import mean_delta_e00, srgb_to_lab
+from layerplan.fit import fit_to_wall
+from layerplan.ground import choose_ground
+from layerplan.palette import N_INIT, kmeans_lab, palette_from_image, sample_pixels
+from layerplan.pipeline import make_plan
+from layerplan.raster import render
+from layerplan.settings import Settings, choose_mm_per_px
+
+SMALL = dict(wall_width_mm=800.0, wall_height_mm=600.0, mm_per_px=10.0, brushes_mm=(100.0, 50.0, 20.0))
+
+
+def test_four_quadrants_give_four_paints_and_a_near_exact_plan(quadrant_image):
+    plan = make_plan(quadrant_image, Settings(paints=4, **SMALL))
+    assert {p.srgb for p in plan.palette} == {"#%02x%02x%02x" % tuple(c) for c in QUADRANT_COLOURS}
+    out = render(plan)
+    target, _ = fit_to_wall(quadrant_image, plan.width_px, plan.height_px)
+    exact = np.all(out == target, axis=2).mean()
+    assert exact > 0.97
+    assert mean_delta_e00(out, target) < 1.5
+    # every layer lowers (never raises) the error
+    for layer in plan.extra["stats"]["layers"]:
+        assert layer["mean_delta_e_after"] <= layer["mean_delta_e_before"]
+    assert plan.extra["stats"]["mean_delta_e_final"] < plan.extra["stats"]["mean_delta_e_ground"]
+
+
+def test_flat_image_needs_only_the_ground():
+    img = np.full((40, 50, 3), (120, 130, 140), np.uint8)
+    plan = make_plan(img, Settings(paints=4, **SMALL))
+    assert len(plan.palette) == 1
+    assert plan.stroke_count() == 0
+    assert plan.paint(plan.ground).srgb == "#78828c"
+
+
+def test_same_seed_same_bytes_other_seed_other_plan():
+    rng = np.random.default_rng(0)
+    img = (quadrants() * 0.8 + rng.integers(0, 50, size=(60, 80, 3))).astype(np.uint8)
+    a = make_plan(img, Settings(paints=5, seed=3, **SMALL)).to_json()
+    b = make_plan(img, Settings(paints=5, seed=3, **SMALL)).to_json()
+    c = make_plan(img, Settings(paints=5, seed=4, **SMALL)).to_json()
+    assert a == b and a != c
+
+
+def test_layers_are_widest_first_and_strokes_carry_their_brush():
+    plan = make_plan(quadrants(), Settings(paints=4, **{**SMALL, "brushes_mm": (20.0, 100.0, 50.0)}))
+    widths = [layer.brush_width_mm for layer in plan.layers]
+    assert widths == [100.0, 50.0, 20.0]
+    for layer in plan.layers:
+        assert all(s.width_mm == layer.brush_width_mm for s in layer.strokes)
+
+
+def test_palette_matches_scikit_learn_kmeans_on_the_same_sample():
+    # Reference library: scikit-learn's KMeans run directly on the same seeded Lab sample.
+    rng = np.random.default_rng(7)
+    img = rng.integers(0, 256, size=(90, 120, 3)).astype(np.uint8)
+    lab = srgb_to_lab(img.reshape(-1, 3))
+    sample = sample_pixels(lab, seed=11)
+    ours = kmeans_lab(sample, 6, seed=11)
+    ref = KMeans(n_clusters=6, n_init=N_INIT, random_state=11).fit(sample).cluster_centers_
+    order_a = np.lexsort(ours.T[::-1])
+    order_b = np.lexsort(ref.T[::-1])
+    np.testing.assert_allclose(ours[order_a], ref[order_b], atol=1e-6)
+    rgb, pal_lab = palette_from_image(img, np.ones(img.shape[:2], bool), 6, seed=11)
+    assert len(rgb) == 6 and np.all(np.diff(pal_lab[:, 0]) <= 0)  # lightest first
+
+
+def test_ground_is_the_paint_nearest_over_the_largest_area():
+    planes = np.zeros((10, 10, 3), np.float32) + 5
+    planes[:, :7, 2] = 0  # paint 2 nearest on 70 % of the wall
+    planes[:, 7:, 0] = 0
+    assert choose_ground(planes, np.ones((10, 10), bool)) == 2
+
+
+def test_fit_cover_crops_and_contain_pads():
+    img = np.zeros((100, 200, 3), np.uint8)
+    img[:, :100] = 255  # left half white
+    t, inside = fit_to_wall(img, 50, 50, fit="cover")
+    assert t.shape == (50, 50, 3) and inside.all()
+    assert t[:, :20].mean() > 200 and t[:, 30:].mean() < 50  # centre crop keeps the middle
+    t, inside = fit_to_wall(img, 50, 50, fit="contain")
+    assert inside.sum() == 50 * 25 and not inside[:10].any() and inside[20:30].all()
+
+
+def test_default_pixel_size_spans_the_narrowest_brush_and_caps_the_raster():
+    assert choose_mm_per_px(3000, 2000, 12) == 4.0  # 12 mm / 3 px
+    s = choose_mm_per_px(20000, 10000, 12)
+    assert 20000 / s * 10000 / s <= 2_000_000 * 1.001
+
+
+@pytest.mark.parametrize(
+    "kw,message",
+    [
+        ({"paints": 1}, "paints must be a whole number from 2 to 32"),
+        ({"paints": 500}, "paints must be a whole number from 2 to 32"),
+        ({"wall_width_mm": 0.0}, "wall width must be > 0 mm"),
+        ({"wall_height_mm": -5.0}, "wall height must be > 0 mm"),
+        ({"wall_width_mm": 1e9}, "wall width must be at most 100 m"),
+        ({"brushes_mm": ()}, "at least one brush"),
+        ({"brushes_mm": (50.0, -1.0)}, "brush width must be > 0 mm"),
+        ({"brushes_mm": (50.0, 50.0)}, "brush widths must differ"),
+        ({"fit": "stretch"}, "fit must be one of cover, contain"),
+        ({"mm_per_px": 0.0}, "pixel size must be > 0 mm"),
+        ({"mm_per_px": 0.01}, "too large"),
+    ],
+)
+def test_bad_settings_are_refused(kw, message):
+    with pytest.raises(ValueError, match=message):
+        make_plan(quadrants(), Settings(**{**dict(wall_width_mm=800.0, wall_height_mm=600.0), **kw}))
