@@ -37,6 +37,7 @@ from .raster import covers
 POINT_GRID_MM = 0.1
 #: most vertices in one stroke's polyline
 MAX_POINTS = 10
+START_DAB = True
 
 
 @dataclass(frozen=True)
@@ -162,7 +163,7 @@ def _angle_at(theta, x, y, s):
 @njit(cache=True, nogil=True)
 def _place_layer(planes, best_err, canvas, err, stamp, theta, births, width_mm, s, cost,
                  min_len, max_len, min_seg, max_seg, max_turn, wall_w, wall_h,
-                 tries, patience, seed, out_pts, out_n, out_paint, out_gain, start_count):
+                 tries, patience, seed, start_dab, out_pts, out_n, out_paint, out_gain, start_count):
     """Place strokes for one layer from the given birth pixels; returns the stroke count."""
     np.random.seed(seed)
     h, w, k = planes.shape
@@ -196,8 +197,12 @@ def _place_layer(planes, best_err, canvas, err, stamp, theta, births, width_mm, 
         hy = 0.5 * step * math.sin(a)
         # start as a one-segment stroke through the birth pixel, or a dab if that won't fit
         n = 2
-        cur[0, 0] = _round_grid(cx - hx)
-        cur[0, 1] = _round_grid(cy - hy)
+        if start_dab:
+            n = 1
+            cur[0, 0] = _round_grid(min(max(cx, 0.0), wall_w))
+            cur[0, 1] = _round_grid(min(max(cy, 0.0), wall_h))
+        cur[0, 0] = _round_grid(cx - hx) if n == 2 else cur[0, 0]
+        cur[0, 1] = _round_grid(cy - hy) if n == 2 else cur[0, 1]
         cur[1, 0] = _round_grid(cx + hx)
         cur[1, 1] = _round_grid(cy + hy)
         if not _valid(cur, n, width_mm, min_len, max_len, min_seg, max_seg, cos_max_turn, wall_w, wall_h):
@@ -394,7 +399,7 @@ class LayerResult:
 
 
 def place_layer(planes, canvas, err, theta, limits: BrushLimits, *, mm_per_px: float, wall_mm, cost: float,
-                seed: int, rounds: int = 6, tries: int = 48, patience: int = 14, progress=None) -> LayerResult:
+                seed: int, rounds: int = 10, tries: int = 64, patience: int = 20, progress=None) -> LayerResult:
     """Place one layer's strokes on the canvas, in place.
 
     Parameters
@@ -452,7 +457,7 @@ def place_layer(planes, canvas, err, theta, limits: BrushLimits, *, mm_per_px: f
             planes, best_err, canvas, err, stamp, theta, births, float(limits.width_mm), float(mm_per_px),
             float(cost), float(limits.min_length_mm), float(limits.max_length_mm), float(limits.min_segment_mm),
             float(limits.max_segment_mm), math.radians(limits.max_turn_deg), float(wall_mm[0]), float(wall_mm[1]),
-            int(tries), int(patience), int(seed * 1000 + r), out_pts, out_n, out_paint, out_gain, count,
+            int(tries), int(patience), int(seed * 1000 + r), START_DAB, out_pts, out_n, out_paint, out_gain, count,
         )
         if progress is not None:
             progress((r + 1) / rounds, f"{count} strokes")
