@@ -6,7 +6,7 @@ import argparse
 import sys
 from pathlib import Path
 
-from . import __version__
+from . import __version__, cli_paints
 from .settings import DEFAULT_BRUSHES_MM, MAX_PAINTS, MIN_PAINTS, Settings
 
 
@@ -42,7 +42,26 @@ def _parser() -> argparse.ArgumentParser:
     plan.add_argument("--stroke-cost", type=float, default=1.0,
                       help="error a stroke must remove to be painted, in ΔE00 per brush-width square (default 1)")
     plan.add_argument("--quiet", action="store_true", help="no progress bar")
+    plan.add_argument("--inventory", metavar="FILE", default=None,
+                      help="the paints you own, a TOML file, to mix recipes from (default: a basic acrylic set)")
+    plan.add_argument("--free-palette", action="store_true",
+                      help="keep the photo's own colours instead of the colours the recipes will mix to")
+    cli_paints.add_mix_options(plan)
     plan.set_defaults(func=cmd_plan)
+
+    serve = sub.add_parser("serve", help="run the web app",
+                           description="Run the layerplan web app (waitress WSGI server). Plans and their files "
+                                       "are kept under the data directory.")
+    serve.add_argument("--host", default="127.0.0.1",
+                       help="address to listen on (default %(default)s: this machine only)")
+    serve.add_argument("--port", type=int, default=5000, help="port (default %(default)s)")
+    serve.add_argument("--data-dir", default=None,
+                       help="where plans are stored (default: $LAYERPLAN_DATA_DIR, else the app's instance folder)")
+    serve.add_argument("--workers", type=int, default=None,
+                       help="plans made at the same time (default: half the CPU cores, at least 1)")
+    serve.add_argument("--threads", type=int, default=8, help="web server threads (default %(default)s)")
+    serve.set_defaults(func=cmd_serve)
+    cli_paints.register(sub)
     return p
 
 
@@ -62,7 +81,9 @@ def _settings_from_args(args, image_shape=None) -> Settings:
     extra = {}
     return Settings(
         wall_width_mm=width_mm, wall_height_mm=height_mm, wall_unit=unit, fit=args.fit, paints=args.paints,
-        brushes_mm=brushes, mm_per_px=args.pixel_mm, seed=args.seed, stroke_cost=args.stroke_cost, extra=extra,
+        brushes_mm=brushes, mm_per_px=args.pixel_mm, seed=args.seed, stroke_cost=args.stroke_cost,
+        inventory=args.inventory, free_palette=args.free_palette, mix_paints=args.mix_paints,
+        max_parts=args.max_parts, tolerance_de=args.tolerance, extra=extra,
     )
 
 
@@ -80,6 +101,10 @@ def cmd_plan(args) -> int:
     out = Path(args.out)
     if out.exists() and not out.is_dir():
         raise UsageError(f"--out {out} exists and is not a folder")
+    if settings.inventory is not None:  # a bad paints file fails before the long work starts
+        from .inventory import load_inventory
+
+        load_inventory(settings.inventory)
     image = load_image(args.image)
     bar = None if args.quiet else TerminalBar(sys.stderr)
     plan = make_plan(image, settings, progress=bar)
@@ -88,6 +113,48 @@ def cmd_plan(args) -> int:
     if not args.quiet:
         print(f"plan written to {out}/ ({plan.stroke_count()} strokes, {len(plan.palette)} paints, "
               f"{len(plan.layers)} layers)", file=sys.stderr)
+    return 0
+
+
+def cmd_serve(args) -> int:
+    import os
+
+    import waitress
+
+    from .web import create_app
+
+    if not 0 < args.port < 65536:
+        raise UsageError(f"--port must be from 1 to 65535, got {args.port}")
+    if args.workers is not None and args.workers < 1:
+        raise UsageError(f"--workers must be at least 1, got {args.workers}")
+    if args.threads < 1:
+        raise UsageError(f"--threads must be at least 1, got {args.threads}")
+    overrides = {}
+    if args.data_dir:
+        overrides["DATA_DIR"] = args.data_dir
+    elif os.environ.get("LAYERPLAN_DATA_DIR"):
+        overrides["DATA_DIR"] = os.environ["LAYERPLAN_DATA_DIR"]
+    if args.workers is not None:
+        overrides["WORKERS"] = args.workers
+    try:
+        app = create_app(None, overrides=overrides)
+    except RuntimeError as exc:
+        raise UsageError(str(exc)) from exc
+    state = app.extensions["layerplan"]
+    print(f"layerplan: serving on http://{args.host}:{args.port}/ (data in {app.config['DATA_DIR']}; "
+          f"Ctrl-C to stop)", file=sys.stderr)
+    import signal
+
+    def _stop(signum, frame):  # a service manager's SIGTERM: stop workers cleanly, as Ctrl-C does
+        raise KeyboardInterrupt
+
+    signal.signal(signal.SIGTERM, _stop)
+    try:
+        waitress.serve(app, host=args.host, port=args.port, threads=args.threads, ident="layerplan")
+    except KeyboardInterrupt:
+        print("layerplan: stopped; unfinished plans resume on the next start", file=sys.stderr)
+    finally:
+        state.close()
     return 0
 
 

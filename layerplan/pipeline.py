@@ -32,6 +32,62 @@ def wall_size(settings: Settings, image_shape) -> tuple[float, float]:
     return float(settings.wall_width_mm), float(height)
 
 
+def mix_palette(pal_rgb: np.ndarray, pal_lab: np.ndarray, settings: Settings):
+    """Mix recipes for the palette from the painter's paints, and snap the palette to them.
+
+    Parameters
+    ----------
+    pal_rgb : (K, 3) uint8 array
+    pal_lab : (K, 3) float array
+        The k-means palette (its CIELAB).
+    settings : Settings
+        ``inventory`` (file path or None for the default set), ``free_palette``,
+        ``mix_paints``, ``max_parts``, ``tolerance_de``.
+
+    Returns
+    -------
+    rgb : (K', 3) uint8 array
+    lab : (K', 3) float array
+        The palette to plan with: unless ``free_palette``, each paint becomes the colour its
+        recipe is predicted to mix to (so the preview shows what the painter will get), paints
+        that snap to the same colour are merged (the first, lightest, keeps its recipe) and the
+        result is ordered lightest first again. With ``free_palette`` the input, unchanged.
+    recipes : list of dict
+        One recipe (issue 3 JSON form) per returned paint; ``target`` is the k-means colour.
+    inventory : list of dict
+        The stock paints, ``{"name", "srgb", "tinting_strength", "containers_l"}``, for plan.json.
+
+    Raises
+    ------
+    layerplan.inventory.InventoryError
+        If the inventory file is missing or wrong (a ValueError naming file, line and field).
+
+    References
+    ----------
+    Kubelka & Munk (1931); Berns & Mohammadi (2007); Mallett & Yuksel (2019) — see
+    :mod:`layerplan.mixing`.
+    """
+    from .inventory import default_inventory, load_inventory
+    from .plan import hex_to_rgb
+    from .recipes import solve_recipes
+
+    inv = default_inventory() if settings.inventory is None else load_inventory(settings.inventory)
+    found = solve_recipes(pal_lab, inv, max_paints=settings.mix_paints, max_parts=settings.max_parts,
+                          tolerance=settings.tolerance_de, targets_srgb=[rgb_to_hex(c) for c in pal_rgb])
+    stock = [{"name": p.name, "srgb": p.srgb, "tinting_strength": p.tinting_strength,
+              "containers_l": list(p.containers_l)} for p in inv.paints]
+    if settings.free_palette:
+        return pal_rgb, pal_lab, [r.to_dict() for r in found], stock
+    keep: dict[str, int] = {}
+    for i, r in enumerate(found):
+        keep.setdefault(r.predicted_srgb, i)
+    chosen = list(keep.values())
+    rgb = np.array([hex_to_rgb(found[i].predicted_srgb) for i in chosen], dtype=np.uint8).reshape(-1, 3)
+    lab = srgb_to_lab(rgb)
+    order = np.lexsort((lab[:, 2], lab[:, 1], -lab[:, 0]))  # lightest first, as palette_from_image
+    return rgb[order], lab[order], [found[chosen[i]].to_dict() for i in order], stock
+
+
 def make_plan(image: np.ndarray, settings: Settings, *, progress=None) -> Plan:
     """Plan a layered painting of a photo at wall scale.
 
@@ -78,6 +134,8 @@ def make_plan(image: np.ndarray, settings: Settings, *, progress=None) -> Plan:
 
     report(0.03, "choosing paints")
     pal_rgb, pal_lab = palette_from_image(target, inside, settings.paints, seed=settings.seed)
+    report(0.045, "mixing recipes from the paints")
+    pal_rgb, pal_lab, recipes, inventory = mix_palette(pal_rgb, pal_lab, settings)
     target_lab = srgb_to_lab(target)
 
     report(0.06, "measuring colour error")
@@ -94,7 +152,8 @@ def make_plan(image: np.ndarray, settings: Settings, *, progress=None) -> Plan:
 
     ids = [f"P{i + 1}" for i in range(len(pal_rgb))]
     palette = [
-        Paint(id=ids[i], srgb=rgb_to_hex(pal_rgb[i]), lab=tuple(round(float(v), 3) for v in pal_lab[i]))
+        Paint(id=ids[i], srgb=rgb_to_hex(pal_rgb[i]), lab=tuple(round(float(v), 3) for v in pal_lab[i]),
+              extra={"recipe": recipes[i]})
         for i in range(len(pal_rgb))
     ]
     specs = layer_specs(settings.brushes_mm, s, settings.stroke_cost)
@@ -131,7 +190,8 @@ def make_plan(image: np.ndarray, settings: Settings, *, progress=None) -> Plan:
     plan = Plan(
         wall_width_mm=wall_w, wall_height_mm=wall_h, width_px=width_px, height_px=height_px, mm_per_px=s,
         palette=palette, ground=ids[ground], layers=layers,
-        extra={"generator": f"layerplan {__version__}", "settings": settings.to_dict(), "stats": stats},
+        extra={"generator": f"layerplan {__version__}", "settings": settings.to_dict(), "stats": stats,
+               "inventory": inventory},
     )
     report(1.0, "plan ready")
     return plan

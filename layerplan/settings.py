@@ -50,6 +50,18 @@ class Settings:
     stroke_cost : float
         What a stroke must earn: the ΔE00 it removes, summed over its pixels, must exceed
         ``stroke_cost`` × (brush width in pixels)².
+    inventory : str or None
+        Path of the painter's inventory file (TOML, see :mod:`layerplan.inventory`);
+        ``None`` mixes from the default set shipped with layerplan.
+    free_palette : bool
+        ``True`` keeps the raw k-means colours; by default each paint is snapped to the
+        colour its mix recipe is predicted to give (recipes are reported either way).
+    mix_paints : int
+        At most this many inventory paints per mix recipe (1–4).
+    max_parts : int
+        Whole parts of a recipe add up to at most this (1–30).
+    tolerance_de : float
+        A paint counts as mixable when its recipe is within this CIEDE2000 (0–100).
     """
 
     wall_width_mm: float = DEFAULT_WALL_WIDTH_MM
@@ -61,6 +73,11 @@ class Settings:
     mm_per_px: float | None = None
     seed: int = 0
     stroke_cost: float = 1.0
+    inventory: str | None = None
+    free_palette: bool = False
+    mix_paints: int = 3  # issue 3 defaults: 3 paints, 10 parts, ΔE00 3
+    max_parts: int = 10
+    tolerance_de: float = 3.0
     extra: dict[str, Any] = field(default_factory=dict, compare=False)
 
     def validated(self) -> "Settings":
@@ -101,6 +118,13 @@ class Settings:
             raise ValueError(f"seed must be a whole number >= 0, got {self.seed}")
         if not math.isfinite(self.stroke_cost) or self.stroke_cost < 0:
             raise ValueError(f"stroke cost must be >= 0, got {self.stroke_cost}")
+        if self.inventory is not None and (not isinstance(self.inventory, str) or not self.inventory.strip()):
+            raise ValueError(f"inventory must be the path of an inventory file, got {self.inventory!r}")
+        if not isinstance(self.free_palette, bool):
+            raise ValueError(f"free_palette must be true or false, got {self.free_palette!r}")
+        from .recipes import check_options  # late: recipes pulls in numba
+
+        check_options(self.mix_paints, self.max_parts, self.tolerance_de)
         return replace(self, brushes_mm=brushes)
 
     def to_dict(self) -> dict[str, Any]:

@@ -17,7 +17,7 @@ SMALL = dict(wall_width_mm=800.0, wall_height_mm=600.0, mm_per_px=10.0, brushes_
 
 
 def test_four_quadrants_give_four_paints_and_a_near_exact_plan(quadrant_image):
-    plan = make_plan(quadrant_image, Settings(paints=4, **SMALL))
+    plan = make_plan(quadrant_image, Settings(paints=4, free_palette=True, **SMALL))
     assert {p.srgb for p in plan.palette} == {"#%02x%02x%02x" % tuple(c) for c in QUADRANT_COLOURS}
     out = render(plan)
     target, _ = fit_to_wall(quadrant_image, plan.width_px, plan.height_px)
@@ -32,7 +32,7 @@ def test_four_quadrants_give_four_paints_and_a_near_exact_plan(quadrant_image):
 
 def test_flat_image_needs_only_the_ground():
     img = np.full((40, 50, 3), (120, 130, 140), np.uint8)
-    plan = make_plan(img, Settings(paints=4, **SMALL))
+    plan = make_plan(img, Settings(paints=4, free_palette=True, **SMALL))
     assert len(plan.palette) == 1
     assert plan.stroke_count() == 0
     assert plan.paint(plan.ground).srgb == "#78828c"

@@ -1,0 +1,146 @@
+"""Tests for layerplan.inventory: the inventory file format and its errors."""
+
+import warnings
+from importlib import resources
+
+import numpy as np
+import pytest
+
+from layerplan.colour import delta_e00, srgb_to_lab
+from layerplan.inventory import (
+    MAX_INVENTORY_PAINTS,
+    InventoryError,
+    default_inventory,
+    load_inventory,
+    loads_inventory,
+)
+from layerplan.plan import hex_to_rgb
+
+with warnings.catch_warnings():
+    warnings.simplefilter("ignore")
+    import colour
+
+GOOD = """\
+title = "Community-centre wall kit"
+
+[[paint]]
+name = "Chalk white"
+srgb = "#f2f1ea"
+containers_l = [4, 1.0]
+
+[[paint]]
+name = "Measured ochre"
+lab = [62.0, 10.0, 50.0]
+tinting_strength = 0.8
+note = "  swatch 3  "
+"""
+
+
+def test_a_good_file_is_read_with_every_field(tmp_path):
+    f = tmp_path / "kit.toml"
+    f.write_text(GOOD, encoding="utf-8")
+    inv = load_inventory(f)
+    assert inv.title == "Community-centre wall kit"
+    assert inv.names() == ["Chalk white", "Measured ochre"]
+    white, ochre = inv.paints
+    assert white.srgb == "#f2f1ea" and white.containers_l == (1.0, 4.0) and white.tinting_strength == 1.0
+    assert ochre.tinting_strength == 0.8 and ochre.note == "swatch 3" and ochre.lab == (62.0, 10.0, 50.0)
+    # the sRGB of a measured CIELAB colour agrees with colour-science's Lab -> sRGB (outside reference)
+    ref = colour.XYZ_to_sRGB(colour.Lab_to_XYZ([62.0, 10.0, 50.0]))
+    assert np.abs(np.array(hex_to_rgb(ochre.srgb)) - np.clip(ref, 0, 1) * 255).max() <= 1.0
+    # the CIELAB of an sRGB entry is that of layerplan.colour (IEC 61966-2-1)
+    assert float(delta_e00(white.lab, srgb_to_lab(np.array(hex_to_rgb("#f2f1ea"), np.uint8)))) < 1e-3
+
+
+def test_names_are_found_ignoring_case_and_unknown_names_list_the_inventory():
+    inv = loads_inventory(GOOD)
+    assert inv.index("  measured OCHRE ") == 1
+    with pytest.raises(ValueError, match=r"unknown paint 'Violet'; the inventory has: Chalk white, Measured ochre"):
+        inv.index("Violet")
+
+
+def test_equal_paints_from_different_files_are_equal_inventories():
+    assert loads_inventory(GOOD, source="a.toml") == loads_inventory(GOOD, source="b.toml")
+    assert hash(loads_inventory(GOOD, source="a.toml")) == hash(loads_inventory(GOOD, source="b.toml"))
+
+
+def test_default_inventory_is_a_basic_set_and_says_its_colours_are_from_memory():
+    inv = default_inventory()
+    text = resources.files("layerplan").joinpath("data", "default_inventory.toml").read_text("utf-8")
+    assert "from memory" in text.lower() and "approximate" in text.lower()
+    names = [n.lower() for n in inv.names()]
+    assert len(inv) >= 10 and "white" in names and "black" in names
+    lab = {p.name.lower(): p.lab for p in inv.paints}
+    # common practice: a wall white is near L* 95, a black paint is very dark
+    assert lab["white"][0] > 90 and lab["black"][0] < 25
+    # the basic set covers the hue circle: reds, yellows, blues and a green (issue 3)
+    hues = [np.degrees(np.arctan2(p.lab[2], p.lab[1])) % 360 for p in inv.paints if np.hypot(*p.lab[1:]) > 20]
+    for lo, hi in ((0, 45), (70, 105), (130, 180), (260, 310)):
+        assert any(lo <= h <= hi for h in hues), (lo, hi)
+
+
+# ------------------------------------------------------------------ errors
+def _bad(text):
+    return loads_inventory(text, source="kit.toml")
+
+
+PAINT = '[[paint]]\nname = "White"\nsrgb = "#ffffff"\n'
+
+
+@pytest.mark.parametrize(
+    "text, message",
+    [
+        ("[[paint]\nname = 1", r"kit\.toml: not valid TOML: .*line 1"),
+        ('colour = "red"\n' + PAINT, r"kit\.toml: unknown top-level key 'colour'"),
+        ('title = "empty"\n', r"kit\.toml: no paints: add one \[\[paint\]\] table"),
+        ('paint = "White"\n', r"kit\.toml: 'paint' must be a list of \[\[paint\]\] tables"),
+        ("title = 3\n" + PAINT, r"'title' must be text"),
+        (PAINT + '\n[[paint]]\nsrgb = "#000000"\n', r"kit\.toml: line 5: paint 2: field 'name': missing"),
+        (PAINT + '\n[[paint]]\nname = "  "\nsrgb = "#000000"\n', r"line 5: paint 2: field 'name': must be non-empty"),
+        ('[[paint]]\nname = "A=B"\nsrgb = "#000000"\n', r"field 'name': may not contain '='"),
+        (PAINT + '\n[[paint]]\nname = "Black"\nsrgb = "#00zz00"\n',
+         r"kit\.toml: line 5: paint 2 \('Black'\): field 'srgb': not a hex colour \(#rrggbb\): '#00zz00'"),
+        ('[[paint]]\nname = "Black"\nsrgb = 0\n', r"field 'srgb': must be a text hex colour"),
+        ('[[paint]]\nname = "Black"\n', r"paint 1 \('Black'\): field 'srgb': give exactly one of 'srgb'"),
+        ('[[paint]]\nname = "Black"\nsrgb = "#000"\nlab = [0, 0, 0]\n', r"give exactly one of 'srgb'"),
+        ('[[paint]]\nname = "Grey"\nlab = [50, 0]\n', r"field 'lab': must be three numbers"),
+        ('[[paint]]\nname = "Grey"\nlab = [150, 0, 0]\n', r"field 'lab': L must be from 0 to 100, got 150"),
+        ('[[paint]]\nname = "Grey"\nlab = [50, 300, 0]\n', r"field 'lab': a and b must be within ±200"),
+        ('[[paint]]\nname = "Grey"\nsrgb = "#808080"\ntinting_strength = 0\n',
+         r"field 'tinting_strength': must be a number from 0\.01 to 50, got 0"),
+        ('[[paint]]\nname = "Grey"\nsrgb = "#808080"\ntinting_strength = "high"\n', r"'tinting_strength': must be"),
+        ('[[paint]]\nname = "Grey"\nsrgb = "#808080"\ncontainers_l = 4\n', r"field 'containers_l': must be a list"),
+        ('[[paint]]\nname = "Grey"\nsrgb = "#808080"\ncontainers_l = [1, -4]\n',
+         r"field 'containers_l': sizes must be > 0 and at most 200 litres, got -4"),
+        ('[[paint]]\nname = "Grey"\nsrgb = "#808080"\nnote = 5\n', r"field 'note': must be text"),
+        ('[[paint]]\nname = "Grey"\nsrgb = "#808080"\ntinting_strenght = 2\n',
+         r"paint 1 \('Grey'\): field 'tinting_strenght': unknown field"),
+        (PAINT + '\n[[paint]]\nname = "white"\nsrgb = "#fefefe"\n',
+         r"line 5: paint 2 \('white'\): field 'name': 'white' is already used by paint 1 \(line 1\)"),
+        ('paint = [{name = "White", srgb = "#fff"}, {name = "Black", srgb = "black"}]\n',
+         r"kit\.toml: paint 2 \('Black'\): field 'srgb': not a hex colour"),
+    ],
+)
+def test_each_documented_error_names_file_line_entry_and_field(text, message):
+    with pytest.raises(InventoryError, match=message):
+        _bad(text)
+
+
+def test_too_many_paints_are_refused():
+    text = "".join(f'[[paint]]\nname = "P{i}"\nsrgb = "#808080"\n' for i in range(MAX_INVENTORY_PAINTS + 1))
+    with pytest.raises(InventoryError, match=rf"{MAX_INVENTORY_PAINTS + 1} paints; at most {MAX_INVENTORY_PAINTS}"):
+        _bad(text)
+
+
+def test_file_problems_are_reported_with_the_file_name(tmp_path):
+    with pytest.raises(InventoryError, match=r"missing\.toml: no such inventory file"):
+        load_inventory(tmp_path / "missing.toml")
+    with pytest.raises(InventoryError, match="is a folder"):
+        load_inventory(tmp_path)
+    f = tmp_path / "latin1.toml"
+    f.write_bytes(b'[[paint]]\nname = "Ocre \xe9"\nsrgb = "#c8962e"\n')
+    with pytest.raises(InventoryError, match=r"latin1\.toml: not a UTF-8 text file"):
+        load_inventory(f)
+    g = tmp_path / "bom.toml"
+    g.write_bytes(b"\xef\xbb\xbf" + PAINT.encode())  # a UTF-8 byte-order mark is accepted
+    assert load_inventory(g).names() == ["White"]
