@@ -47,6 +47,7 @@ def _parser() -> argparse.ArgumentParser:
     plan.add_argument("--free-palette", action="store_true",
                       help="keep the photo's own colours instead of the colours the recipes will mix to")
     cli_paints.add_mix_options(plan)
+    _add_output_options(plan)
     plan.set_defaults(func=cmd_plan)
 
     serve = sub.add_parser("serve", help="run the web app",
@@ -61,8 +62,70 @@ def _parser() -> argparse.ArgumentParser:
                        help="plans made at the same time (default: half the CPU cores, at least 1)")
     serve.add_argument("--threads", type=int, default=8, help="web server threads (default %(default)s)")
     serve.set_defaults(func=cmd_serve)
+    render = sub.add_parser("render", help="rebuild a plan's outputs from its plan.json",
+                            description="Rebuild plan.html, overlay.svg, the pictures and quantities from a "
+                                        "plan.json, e.g. after changing the quantity options. The strokes are "
+                                        "not re-planned.")
+    render.add_argument("plan_json", metavar="PLAN.json", help="a plan.json written by `layerplan plan`")
+    render.add_argument("--out", required=True, help="folder to write the outputs into")
+    _add_output_options(render)
+    render.set_defaults(func=cmd_render)
     cli_paints.register(sub)
     return p
+
+
+def _add_output_options(p: argparse.ArgumentParser) -> None:
+    """Quantity and print options shared by `plan` and `render`."""
+    from .quantities import COVERAGE_M2_PER_L, GROUND_COATS, STROKE_COATS, WASTE
+
+    g = p.add_argument_group("quantities and printing")
+    g.add_argument("--coverage", type=float, default=COVERAGE_M2_PER_L, metavar="M2_PER_L",
+                   help="spreading rate of one coat, m² per litre (default %(default)g; check your tins)")
+    g.add_argument("--ground-coats", type=int, default=GROUND_COATS, metavar="N",
+                   help="coats of the ground (default %(default)s)")
+    g.add_argument("--stroke-coats", type=int, default=STROKE_COATS, metavar="N",
+                   help="coats of each stroke (default %(default)s)")
+    g.add_argument("--waste", default=f"{WASTE * 100:g}%",
+                   help="extra paint to buy, as a fraction or a percentage: 0.15 or 15%% (default %(default)s)")
+    g.add_argument("--grid", default="50cm", metavar="LENGTH",
+                   help="transfer-grid square with a unit, e.g. 50cm, 2ft (plain numbers are mm; "
+                        "default %(default)s)")
+
+
+def _output_options(args) -> dict:
+    """The export options from the command line, checked (before any long work)."""
+    import math
+    import re
+
+    from .quantities import check_options
+    from .units import to_mm
+
+    text = str(args.waste).strip()
+    try:
+        waste = float(text[:-1]) / 100.0 if text.endswith("%") else float(text)
+    except ValueError:
+        raise UsageError(f"--waste must be a fraction or a percentage such as 0.15 or 15%, got {args.waste!r}") from None
+    try:
+        check_options(coverage_m2_per_litre=args.coverage, waste=waste, ground_coats=args.ground_coats,
+                      stroke_coats=args.stroke_coats)
+    except ValueError as exc:
+        names = {"coverage_m2_per_litre": "--coverage", "waste": "--waste", "ground_coats": "--ground-coats",
+                 "stroke_coats": "--stroke-coats"}
+        msg = str(exc)
+        for name, flag in names.items():
+            msg = msg.replace(name, flag)
+        raise UsageError(msg) from exc
+    m = re.fullmatch(r"\s*([0-9]*\.?[0-9]+)\s*([a-zA-Z]*)\s*", str(args.grid))
+    try:
+        if not m:
+            raise ValueError("not a length")
+        grid_mm = to_mm(float(m.group(1)), m.group(2) or "mm")
+    except ValueError as exc:
+        raise UsageError(f"--grid must be a length such as 50cm or 2ft, got {args.grid!r} ({exc})") from exc
+    if not math.isfinite(grid_mm) or grid_mm <= 0:
+        raise UsageError(f"--grid must be > 0, got {args.grid!r}")
+    return {"coverage_m2_per_litre": args.coverage, "waste": waste, "ground_coats": args.ground_coats,
+            "stroke_coats": args.stroke_coats, "grid_mm": grid_mm}
 
 
 def _settings_from_args(args, image_shape=None) -> Settings:
@@ -94,10 +157,14 @@ def cmd_plan(args) -> int:
     from .progress import TerminalBar
 
     settings = _settings_from_args(args)
+    options = _output_options(args)
     try:
         settings = settings.validated()
     except ValueError as exc:
         raise UsageError(str(exc)) from exc
+    if settings.wall_width_mm / options["grid_mm"] > 200:  # layerplan.svg.MAX_GRID_LINES; height checked later
+        raise UsageError(f"--grid {args.grid} is too fine for a {settings.wall_width_mm / 1000:g} m wide wall "
+                         f"(at most 200 squares across)")
     out = Path(args.out)
     if out.exists() and not out.is_dir():
         raise UsageError(f"--out {out} exists and is not a folder")
@@ -109,10 +176,34 @@ def cmd_plan(args) -> int:
     bar = None if args.quiet else TerminalBar(sys.stderr)
     plan = make_plan(image, settings, progress=bar)
     plan.extra["source"] = {"image": Path(args.image).name}
-    write_outputs(plan, out)
+    write_outputs(plan, out, **options)
     if not args.quiet:
         print(f"plan written to {out}/ ({plan.stroke_count()} strokes, {len(plan.palette)} paints, "
               f"{len(plan.layers)} layers)", file=sys.stderr)
+    return 0
+
+
+def cmd_render(args) -> int:
+    from .export import write_outputs
+    from .plan import Plan
+
+    options = _output_options(args)
+    src = Path(args.plan_json)
+    if not src.is_file():
+        raise UsageError(f"{src} is not a file; give the plan.json a `layerplan plan` wrote")
+    out = Path(args.out)
+    if out.exists() and not out.is_dir():
+        raise UsageError(f"--out {out} exists and is not a folder")
+    try:
+        text = src.read_text(encoding="utf-8")
+    except UnicodeDecodeError as exc:
+        raise UsageError(f"{src} is not a plan.json (not UTF-8 text)") from exc
+    try:
+        plan = Plan.from_json(text)
+    except ValueError as exc:
+        raise UsageError(f"{src}: {exc}") from exc
+    write_outputs(plan, out, **options)
+    print(f"outputs rebuilt in {out}/ ({plan.stroke_count()} strokes, {len(plan.palette)} paints)", file=sys.stderr)
     return 0
 
 

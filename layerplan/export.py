@@ -1,4 +1,4 @@
-"""Write a Plan's outputs: plan.json, final.png, steps/NN.png, overlay.svg.
+"""Write a Plan's outputs: plan.json, final.png, steps/NN.png, steps/NN.svg, overlay.svg, plan.html.
 
 Exporters read a `Plan` and nothing else. Everything is written into a temporary
 folder beside the destination and moved into place at the end, so a failed run never
@@ -30,36 +30,48 @@ def png_bytes(rgb: np.ndarray) -> bytes:
     return buf.getvalue()
 
 
-def simple_overlay_svg(plan: Plan) -> str:
-    """A plain wall-scale SVG of every stroke (mm units, one group per layer)."""
-    import svgwrite
-
-    dwg = svgwrite.Drawing(
-        size=(f"{plan.wall_width_mm:g}mm", f"{plan.wall_height_mm:g}mm"),
-        viewBox=f"0 0 {plan.wall_width_mm:g} {plan.wall_height_mm:g}",
-        profile="full",
-    )
-    dwg.add(dwg.rect((0, 0), (plan.wall_width_mm, plan.wall_height_mm), fill=plan.paint(plan.ground).srgb))
-    for n, layer in enumerate(plan.layers, start=1):
-        g = dwg.g(id=f"layer-{n:02d}", fill="none", stroke_linecap="round", stroke_linejoin="round")
-        for s in layer.strokes:
-            pts = [(round(float(x), 2), round(float(y), 2)) for x, y in s.path_mm]
-            if len(pts) == 1:
-                pts = pts * 2
-            g.add(dwg.polyline(pts, stroke=plan.paint(s.paint).srgb, stroke_width=s.width_mm))
-        dwg.add(g)
-    return dwg.tostring()
+#: options of :func:`build_files` / :func:`write_outputs` for quantities (see layerplan.quantities.paint_use)
+QUANTITY_OPTIONS = ("coverage_m2_per_litre", "waste", "ground_coats", "stroke_coats", "containers")
 
 
-def build_files(plan: Plan, **options) -> dict[str, bytes]:
-    """Every output file of a plan, as relative path -> bytes."""
+def build_files(plan: Plan, *, grid_mm: float | None = None, **options) -> dict[str, bytes]:
+    """Every output file of a plan, as relative path -> bytes.
+
+    ``steps/NN.png`` is the wall after layer NN (``00``: the ground); ``steps/NN.svg`` holds
+    layer NN's strokes alone with its outline map, for projecting; ``overlay.svg`` the whole
+    plan with the transfer grid and (hidden) outline maps; ``plan.html`` the printable plan.
+    The quantities (``options``: coverage_m2_per_litre, waste, ground_coats, stroke_coats,
+    containers) go into ``plan.extra["paint_use"]`` and so into plan.json. ``grid_mm`` is the
+    transfer-grid square (default 500 mm).
+
+    Raises
+    ------
+    ValueError
+        An unknown option, or a bad quantity or grid option (the message names it).
+    """
+    from .outlines import outline_maps
+    from .quantities import paint_use
+    from .report import GRID_MM, plan_html
+    from .svg import check_grid, layer_svg, overlay_svg
+
+    unknown = sorted(set(options) - set(QUANTITY_OPTIONS))
+    if unknown:
+        raise ValueError(f"unknown export option(s) {', '.join(unknown)}; valid: grid_mm, {', '.join(QUANTITY_OPTIONS)}")
+    grid_mm = check_grid(plan, GRID_MM if grid_mm is None else grid_mm)
+    plan.extra["paint_use"] = paint_use(plan, **options)
     files: dict[str, bytes] = {}
     rgb = plan.palette_rgb()
     steps = render_steps(plan)
     for n, canvas in enumerate(steps):
         files[f"steps/{n:02d}.png"] = png_bytes(rgb[canvas])
     files["final.png"] = png_bytes(rgb[steps[-1]])
-    files["overlay.svg"] = simple_overlay_svg(plan).encode("utf-8")
+    maps = outline_maps(plan)
+    for n in range(1, len(plan.layers) + 1):
+        files[f"steps/{n:02d}.svg"] = layer_svg(plan, n, outline=maps[n - 1]).encode("utf-8")
+    files["overlay.svg"] = overlay_svg(plan, grid_mm=grid_mm, outlines=maps).encode("utf-8")
+    images = {name[:-4]: data for name, data in files.items() if name.endswith(".png")}
+    files["plan.html"] = plan_html(plan, images=images, grid_mm=grid_mm, outlines=maps,
+                                   paint_use=plan.extra["paint_use"]).encode("utf-8")
     files["plan.json"] = plan.to_json().encode("utf-8")
     return files
 
@@ -73,6 +85,8 @@ def write_outputs(plan: Plan, out_dir, **options) -> Path:
     out_dir : path
         Created if missing. An existing folder is replaced only if it is empty or holds an
         earlier plan (a plan.json).
+    **options
+        ``grid_mm`` and the quantity options, passed to :func:`build_files`.
 
     Returns
     -------
@@ -81,7 +95,7 @@ def write_outputs(plan: Plan, out_dir, **options) -> Path:
     Raises
     ------
     ValueError
-        If ``out_dir`` exists and is not a plan folder, or is a file.
+        If ``out_dir`` exists and is not a plan folder, or is a file; or a bad option.
     """
     out = Path(out_dir)
     if out.exists():

@@ -1,0 +1,98 @@
+"""`layerplan plan` writes the printable outputs, and `layerplan render` rebuilds them
+from a plan.json with other quantity options (issue 5). Quantities are checked against
+the issue's formula worked by hand; bad options exit non-zero leaving nothing behind."""
+
+from __future__ import annotations
+
+import json
+import xml.etree.ElementTree as ET
+
+import numpy as np
+import pytest
+from PIL import Image
+
+from layerplan.cli import main
+
+ARGS = ["--wall", "80x60cm", "--pixel-mm", "10", "--brushes", "100,50", "--paints", "3", "--quiet"]
+NS = {"svg": "http://www.w3.org/2000/svg"}
+
+
+@pytest.fixture(scope="module")
+def planned(tmp_path_factory):
+    tmp = tmp_path_factory.mktemp("render")
+    img = np.zeros((60, 80, 3), np.uint8)
+    img[:30, :40] = (200, 40, 40)
+    img[:30, 40:] = (40, 160, 60)
+    img[30:] = (240, 220, 90)
+    photo = tmp / "three.png"
+    Image.fromarray(img).save(photo)
+    out = tmp / "plan"
+    assert main(["plan", str(photo), "--out", str(out), "--coverage", "8", "--waste", "10%",
+                 "--ground-coats", "3", "--grid", "20cm", *ARGS]) == 0
+    return tmp, out
+
+
+def _ground_litres(doc):
+    use = doc["paint_use"]
+    return next(p["litres"] for p in use["paints"] if p["paint"] == doc["ground"]["paint"])
+
+
+def test_plan_writes_html_svgs_and_quantities(planned):
+    _, out = planned
+    doc = json.loads((out / "plan.json").read_text())
+    assert doc["paint_use"]["coverage_m2_per_litre"] == 8.0 and doc["paint_use"]["waste"] == 0.1
+    # formula of issue 5 by hand: 0.48 m² × 3 coats / 8 m²/L × 1.1, plus the ground paint's own strokes
+    ground = next(p for p in doc["paint_use"]["paints"] if p["paint"] == doc["ground"]["paint"])
+    expect = (0.48 * 3 + ground["stroke_area_m2"] * 1) / 8 * 1.1
+    assert ground["litres"] == pytest.approx(expect, abs=1e-3)
+    html = (out / "plan.html").read_text()
+    assert 'id="safety"' in html and html.count('class="sheet layer"') == len(doc["layers"])
+    svg = ET.parse(out / "overlay.svg").getroot()
+    assert svg.get("width") == "800mm"
+    grid = svg.find("svg:g[@id='grid']", NS)
+    assert grid is not None and grid.get("data-spacing-mm") == "200"
+    for n, layer in enumerate(doc["layers"], start=1):
+        step = ET.parse(out / "steps" / f"{n:02d}.svg").getroot()
+        assert len(step.findall("svg:g[@id='layer-%02d']/svg:path" % n, NS)) == len(layer["strokes"])
+
+
+def test_render_rebuilds_with_new_options_and_keeps_strokes(planned):
+    tmp, out = planned
+    again = tmp / "again"
+    assert main(["render", str(out / "plan.json"), "--out", str(again), "--coverage", "16", "--waste", "0",
+                 "--ground-coats", "1"]) == 0
+    old = json.loads((out / "plan.json").read_text())
+    new = json.loads((again / "plan.json").read_text())
+    assert new["layers"] == old["layers"] and new["palette"] == old["palette"]
+    ground = next(p for p in new["paint_use"]["paints"] if p["paint"] == new["ground"]["paint"])
+    assert ground["litres"] == pytest.approx((0.48 * 1 + ground["stroke_area_m2"]) / 16, abs=1e-3)
+    assert _ground_litres(new) < _ground_litres(old)
+    assert (again / "plan.html").exists() and (again / "final.png").read_bytes() == (out / "final.png").read_bytes()
+
+
+@pytest.mark.parametrize("extra, message", [
+    (["--waste", "lots"], "--waste must be a fraction or a percentage"),
+    (["--coverage", "0"], "--coverage must be a number > 0"),
+    (["--ground-coats", "-1"], "--ground-coats must be a whole number >= 0, got -1"),
+    (["--stroke-coats", "0"], "--stroke-coats must be a whole number >= 1, got 0"),
+    (["--grid", "5parsec"], "--grid must be a length such as 50cm"),
+    (["--grid", "1mm"], "grid spacing 1 mm gives 800 squares"),
+])
+def test_render_bad_options_leave_nothing(planned, extra, message, capsys):
+    tmp, out = planned
+    dest = tmp / "bad"
+    assert main(["render", str(out / "plan.json"), "--out", str(dest), *extra]) == 2
+    assert message in capsys.readouterr().err
+    assert not dest.exists() and not list(tmp.glob(".bad.partial-*"))
+
+
+def test_render_refuses_what_is_not_a_plan(planned, capsys):
+    tmp, out = planned
+    assert main(["render", str(out / "final.png"), "--out", str(tmp / "x")]) == 2
+    assert "is not a plan.json" in capsys.readouterr().err
+    (tmp / "other.json").write_text('{"format": "something else"}')
+    assert main(["render", str(tmp / "other.json"), "--out", str(tmp / "x")]) == 2
+    assert "not a layerplan plan" in capsys.readouterr().err
+    assert main(["render", str(tmp / "missing.json"), "--out", str(tmp / "x")]) == 2
+    assert "is not a file" in capsys.readouterr().err
+    assert not (tmp / "x").exists()

@@ -1,0 +1,177 @@
+"""Outline maps (layerplan/outlines.py): the contours must cover what each paint covers.
+
+Reference: the layer's own mask, built stroke by stroke with the rendering rule
+(``raster.stroke_mask``), against the contours filled back in by scikit-image's
+``polygon2mask`` with the even-odd rule; and plane geometry for the direction hints.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+from skimage.draw import polygon2mask
+from skimage.measure import points_in_poly
+
+from layerplan.outlines import layer_outlines, outline_maps
+from layerplan.plan import Layer, Paint, Plan, Stroke
+from layerplan.raster import stroke_mask
+
+PALETTE = [Paint("P1", "#f0e8d8", (92.6, 1.5, 7.5)), Paint("P2", "#c03020", (44.0, 56.0, 46.0)),
+           Paint("P3", "#2050a0", (36.0, 12.0, -50.0)), Paint("P4", "#e0b030", (76.0, 6.0, 68.0))]
+
+
+def _plan(layers, w=2000.0, h=1250.0, s=5.0):
+    return Plan(w, h, int(w / s), int(h / s), s, PALETTE, "P1", layers)
+
+
+def _random_plan(seed=0):
+    rng = np.random.default_rng(seed)
+    layers = []
+    for width, count in ((80.0, 25), (40.0, 50), (20.0, 80)):
+        strokes = []
+        for _ in range(count):
+            a = rng.uniform(0, math.pi)
+            length = rng.uniform(1, 6) * width
+            c = rng.uniform([0, 0], [2000, 1250])
+            t = np.linspace(-0.5, 0.5, int(rng.integers(2, 4)))[:, None]
+            strokes.append(Stroke(f"P{rng.integers(2, 5)}", width, c + t * length * np.array([math.cos(a), math.sin(a)])))
+        layers.append(Layer(width, strokes))
+    return _plan(layers)
+
+
+def _layer_masks(plan, n):
+    """{paint: mask} of what layer n leaves showing, by the rendering rule, stroke by stroke."""
+    shape = (plan.height_px, plan.width_px)
+    owner = np.full(shape, "", dtype=object)
+    for st in plan.layers[n - 1].strokes:
+        owner[stroke_mask(st.path_mm, st.width_mm, plan.mm_per_px, shape)] = st.paint
+    return {p.id: owner == p.id for p in plan.palette if (owner == p.id).any()}
+
+
+def _fill(areas, plan):
+    """Contours back to a raster (pixel centres), even-odd within each area."""
+    shape = (plan.height_px, plan.width_px)
+    out = {}
+    for a in areas:
+        m = np.zeros(shape, bool)
+        for c in a["contours_mm"]:
+            rc = np.array(c)[:, ::-1] / plan.mm_per_px - 0.5  # (x, y) mm -> (row, col)
+            m ^= polygon2mask(shape, rc)
+        out[a["paint"]] = out.get(a["paint"], np.zeros(shape, bool)) | m
+    return out
+
+
+def test_outline_maps_cover_each_paints_area():
+    # issue 5: rasterised contours vs the layer's mask, IoU >= 0.9 for every paint of every layer
+    plan = _random_plan()
+    maps = outline_maps(plan)
+    assert [m["layer"] for m in maps] == [1, 2, 3]
+    for n, outline in enumerate(maps, start=1):
+        masks = _layer_masks(plan, n)
+        filled = _fill(outline["areas"], plan)
+        assert set(filled) == set(masks)
+        for paint, mask in masks.items():
+            inter = np.logical_and(mask, filled[paint]).sum()
+            union = np.logical_or(mask, filled[paint]).sum()
+            assert inter / union >= 0.9, (n, paint, inter / union)
+
+
+def test_label_points_lie_inside_their_areas():
+    # each label is inside the area's outside contour and outside its holes (even-odd rule)
+    plan = _random_plan(seed=4)
+    for outline in outline_maps(plan):
+        for a in outline["areas"]:
+            inside = [points_in_poly([a["label_mm"]], np.array(c))[0] for c in a["contours_mm"]]
+            assert sum(inside) % 2 == 1, a
+
+
+def test_ring_has_a_hole():
+    # a closed square loop of a 40 mm brush: one area with an outside and one hole; the hole's
+    # centre is not painted (its distance to the loop, 200 mm, exceeds the half width)
+    loop = np.array([[600.0, 300.0], [1000.0, 300.0], [1000.0, 700.0], [600.0, 700.0], [600.0, 300.0]])
+    plan = _plan([Layer(40.0, [Stroke("P2", 40.0, loop)])])
+    areas = layer_outlines(plan, 1)["areas"]
+    assert len(areas) == 1 and len(areas[0]["contours_mm"]) == 2
+    outside, hole = (np.array(c) for c in areas[0]["contours_mm"])
+    assert points_in_poly([[800.0, 500.0]], outside)[0] and points_in_poly([[800.0, 500.0]], hole)[0]
+    # area of a square ring of side 400 mm, width 40 mm, round outer corners (plane geometry):
+    # outer 440² with corners rounded by r = 20 mm, minus inner 360²
+    expect = 440 ** 2 - (4 - math.pi) * 20 ** 2 - 360 ** 2
+    assert areas[0]["area_mm2"] == pytest.approx(expect, rel=0.03)
+
+
+@pytest.mark.parametrize("end, angle, word", [((1400.0, 600.0), 0.0, "horizontal"),
+                                               ((1000.0, 1000.0), 90.0, "vertical"),
+                                               ((1300.0, 900.0), 45.0, "diagonal ↘"),
+                                               ((1300.0, 300.0), 135.0, "diagonal ↗")])
+def test_direction_hint_follows_the_stroke(end, angle, word):
+    # y runs down the wall, angles from +x towards +y: a stroke's axis is its direction mod 180°,
+    # the same whichever end it starts from
+    for path in ([[1000.0, 600.0], end], [end, [1000.0, 600.0]]):
+        plan = _plan([Layer(60.0, [Stroke("P3", 60.0, np.array(path))])])
+        (area,) = layer_outlines(plan, 1)["areas"]
+        assert area["direction_deg"] == pytest.approx(angle, abs=0.1)
+        assert area["coherence"] == pytest.approx(1.0)
+        assert area["hint"] == word
+
+
+def test_crossed_strokes_are_mixed_and_dabs_have_no_direction():
+    # two equal strokes at right angles cancel on doubled angles (mean resultant length 0)
+    cross = [Stroke("P2", 40.0, np.array([[800.0, 600.0], [1200.0, 600.0]])),
+             Stroke("P2", 40.0, np.array([[1000.0, 400.0], [1000.0, 800.0]]))]
+    dab = Stroke("P4", 40.0, np.array([[300.0, 300.0]]))
+    plan = _plan([Layer(40.0, cross + [dab])])
+    by = {a["paint"]: a for a in layer_outlines(plan, 1)["areas"]}
+    assert by["P2"]["coherence"] == pytest.approx(0.0, abs=1e-9) and by["P2"]["hint"] == "mixed"
+    assert by["P4"]["direction_deg"] is None and by["P4"]["hint"] == "dabs"
+
+
+def test_later_strokes_hide_earlier_ones_and_small_bits_are_left_off():
+    # P3 laid over the middle of P2 splits P2 in two; a sliver smaller than min_area is dropped
+    under = Stroke("P2", 100.0, np.array([[400.0, 600.0], [1600.0, 600.0]]))
+    over = Stroke("P3", 100.0, np.array([[1000.0, 300.0], [1000.0, 900.0]]))
+    plan = _plan([Layer(100.0, [under, over])])
+    areas = layer_outlines(plan, 1)["areas"]
+    assert sorted(a["paint"] for a in areas) == ["P2", "P2", "P3"]
+    total = {p: sum(a["area_mm2"] for a in areas if a["paint"] == p) for p in ("P2", "P3")}
+    # plane geometry: P2's capsule minus the 100 × 100 mm square P3 covers
+    assert total["P2"] == pytest.approx(1200 * 100 + math.pi * 50 ** 2 - 100 * 100, rel=0.02)
+    assert len(layer_outlines(plan, 1, min_area_mm2=1e6)["areas"]) == 0
+
+
+def test_bad_arguments_are_named():
+    plan = _random_plan()
+    with pytest.raises(ValueError, match=r"layer must be a number from 1 to 3, got 0"):
+        layer_outlines(plan, 0)
+    with pytest.raises(ValueError, match=r"layer must be a number from 1 to 3, got 4"):
+        layer_outlines(plan, 4)
+    with pytest.raises(ValueError, match=r"tolerance_mm must be a number >= 0, got -1"):
+        layer_outlines(plan, 1, tolerance_mm=-1)
+
+
+def test_simplification_stays_within_tolerance_like_scikit_image():
+    # Douglas & Peucker (1973): every traced point lies within the tolerance of the simplified
+    # line; and about as many points are kept as scikit-image's approximate_polygon keeps
+    from skimage.draw import disk
+    from skimage.measure import approximate_polygon, find_contours
+
+    from layerplan.outlines import simplify
+
+    rng = np.random.default_rng(7)
+    img = np.zeros((200, 200))
+    for _ in range(15):
+        rr, cc = disk(rng.uniform(20, 180, 2), rng.uniform(5, 25), shape=img.shape)
+        img[rr, cc] = 1
+    for c in find_contours(np.pad(img, 1), 0.5):
+        for tol in (0.5, 1.5):
+            s = simplify(c, tol)
+            seg_a, seg_b = s[:-1], s[1:]
+            v = seg_b - seg_a
+            w = c[:, None, :] - seg_a[None, :, :]
+            tt = np.clip((w * v[None]).sum(-1) / np.maximum((v * v).sum(-1), 1e-12)[None], 0, 1)
+            d = np.linalg.norm(w - tt[..., None] * v[None], axis=-1).min(axis=1)
+            assert d.max() <= tol + 1e-9
+            ref = approximate_polygon(c, tolerance=tol)
+            assert abs(len(s) - len(ref)) <= max(2, 0.1 * len(ref))

@@ -1,0 +1,138 @@
+"""Wall-scale SVG (layerplan/svg.py), read back with Python's own XML parser
+(xml.etree.ElementTree) and checked against the SVG 1.1 attributes it must carry
+(W3C SVG 1.1 Second Edition: 7.7 viewBox, 7.10 units, 11.4 stroke properties)."""
+
+from __future__ import annotations
+
+import re
+import xml.etree.ElementTree as ET
+
+import numpy as np
+import pytest
+
+from layerplan.outlines import outline_maps
+from layerplan.plan import Layer, Paint, Plan, Stroke
+from layerplan.svg import column_label, layer_svg, overlay_svg
+
+NS = {"svg": "http://www.w3.org/2000/svg"}
+PALETTE = [Paint("P1", "#f0e8d8", (92.6, 1.5, 7.5)), Paint("P2", "#c03020", (44.0, 56.0, 46.0)),
+           Paint("P3", "#2050a0", (36.0, 12.0, -50.0))]
+
+
+def _plan():
+    rng = np.random.default_rng(2)
+    layers = []
+    for width, count in ((100.0, 6), (50.0, 9), (25.0, 14)):
+        strokes = [Stroke(f"P{rng.integers(2, 4)}", width, rng.uniform([0, 0], [4000, 2500], (int(rng.integers(1, 5)), 2)))
+                   for _ in range(count)]
+        layers.append(Layer(width, strokes))
+    return Plan(4000.0, 2500.0, 400, 250, 10.0, PALETTE, "P1", layers)
+
+
+def _points(d):
+    """Coordinates of an 'M x,y L x,y x,y ...' path."""
+    return np.array([[float(a), float(b)] for a, b in re.findall(r"(-?[\d.]+),(-?[\d.]+)", d)])
+
+
+def test_document_is_the_wall_in_millimetres():
+    plan = _plan()
+    root = ET.fromstring(overlay_svg(plan))
+    assert root.tag == "{http://www.w3.org/2000/svg}svg"
+    assert root.get("width") == "4000mm" and root.get("height") == "2500mm"
+    assert [float(v) for v in root.get("viewBox").split()] == [0.0, 0.0, 4000.0, 2500.0]
+    ground = root.find("svg:g[@id='ground']/svg:rect", NS)
+    assert ground.get("fill") == "#f0e8d8" and float(ground.get("width")) == 4000.0
+
+
+def test_one_group_per_layer_one_path_per_stroke():
+    plan = _plan()
+    root = ET.fromstring(overlay_svg(plan))
+    groups = root.findall("svg:g[@class='layer']", NS)
+    assert [g.get("id") for g in groups] == ["layer-01", "layer-02", "layer-03"]
+    colours = {p.id: p.srgb for p in plan.palette}
+    for g, layer in zip(groups, plan.layers):
+        assert g.find("svg:title", NS).text.startswith(f"Layer {plan.layers.index(layer) + 1}:")
+        paths = g.findall("svg:path", NS)
+        assert len(paths) == len(layer.strokes)
+        for path, st in zip(paths, layer.strokes):
+            assert float(path.get("stroke-width")) == st.width_mm == layer.brush_width_mm
+            assert path.get("stroke-linecap") == "round" and path.get("stroke-linejoin") == "round"
+            assert path.get("fill") == "none"
+            assert path.get("stroke") == colours[st.paint]
+            pts = _points(path.get("d"))
+            expect = st.path_mm if len(st.path_mm) > 1 else np.repeat(st.path_mm, 2, axis=0)
+            np.testing.assert_allclose(pts, expect, atol=0.006)  # written to 0.01 mm
+
+
+def test_grid_group_has_lines_at_the_spacing_and_labels():
+    # a 4 × 2.5 m wall at 50 cm: 9 vertical lines (0..4000) and 6 horizontal (0..2500);
+    # columns A-H and rows 1-5, the spreadsheet A1 style (from memory)
+    plan = _plan()
+    root = ET.fromstring(overlay_svg(plan, grid_mm=500))
+    grid = root.find("svg:g[@id='grid']", NS)
+    lines = grid.findall(".//svg:line", NS)
+    xs = sorted({float(l.get("x1")) for l in lines if l.get("x1") == l.get("x2")})
+    ys = sorted({float(l.get("y1")) for l in lines if l.get("y1") == l.get("y2")})
+    assert xs == [500.0 * i for i in range(9)]
+    assert ys == [500.0 * i for i in range(6)]
+    labels = [t.text for t in grid.findall(".//svg:text", NS)]
+    assert labels == list("ABCDEFGH") + ["1", "2", "3", "4", "5"]
+    # a 3.2 m width at 1 m: the last column is partial but still a square to label
+    plan.wall_width_mm = 3200.0
+    grid = ET.fromstring(overlay_svg(plan, grid_mm=1000)).find("svg:g[@id='grid']", NS)
+    vx = sorted({float(l.get("x1")) for l in grid.findall(".//svg:line", NS) if l.get("x1") == l.get("x2")})
+    assert vx == [0.0, 1000.0, 2000.0, 3000.0, 3200.0]
+    assert [t.text for t in grid.findall(".//svg:text", NS)][:4] == ["A", "B", "C", "D"]
+
+
+def test_column_labels_follow_the_a1_style():
+    # spreadsheet column letters (from memory): A..Z, then AA, AB, ..., AZ, BA
+    assert [column_label(i) for i in (0, 1, 25, 26, 27, 51, 52, 701, 702)] == \
+        ["A", "B", "Z", "AA", "AB", "AZ", "BA", "ZZ", "AAA"]
+
+
+def test_outline_maps_are_a_group_per_layer():
+    plan = _plan()
+    maps = outline_maps(plan)
+    root = ET.fromstring(overlay_svg(plan, outlines=maps))
+    sub = root.findall("svg:g[@id='outlines']/svg:g", NS)
+    assert [g.get("id") for g in sub] == ["outlines-01", "outlines-02", "outlines-03"]
+    assert all(g.get("display") == "none" for g in sub)  # hidden over the finished picture
+    for g, m in zip(sub, maps):
+        shapes = g.findall(".//svg:path", NS)
+        assert len(shapes) == len(m["areas"])
+        assert [p.get("data-paint") for p in shapes] == [a["paint"] for a in m["areas"]]
+        assert all(p.get("fill-rule") == "evenodd" for p in shapes)
+        assert [t.text for t in g.findall(".//svg:text", NS)] == [a["paint"] for a in m["areas"]]
+    shown = ET.fromstring(overlay_svg(plan, outlines=maps, show_outlines=True))
+    assert all(g.get("display") is None for g in shown.findall("svg:g[@id='outlines']/svg:g", NS))
+
+
+def test_layer_svg_holds_only_that_layer():
+    plan = _plan()
+    root = ET.fromstring(layer_svg(plan, 2, grid_mm=1000))
+    assert root.get("width") == "4000mm" and root.get("viewBox") == "0 0 4000 2500"
+    assert root.find("svg:g[@id='ground']", NS) is None
+    groups = root.findall("svg:g[@class='layer']", NS)
+    assert [g.get("id") for g in groups] == ["layer-02"]
+    assert len(groups[0].findall("svg:path", NS)) == len(plan.layers[1].strokes)
+    assert root.find("svg:g[@id='grid']", NS) is not None
+
+
+def test_dab_is_a_zero_length_round_capped_path():
+    # SVG 1.1, 11.4: a zero-length subpath with round caps is drawn as a disc of the stroke width
+    plan = Plan(1000.0, 1000.0, 100, 100, 10.0, PALETTE, "P1",
+                [Layer(40.0, [Stroke("P2", 40.0, np.array([[300.0, 400.0]]))])])
+    path = ET.fromstring(overlay_svg(plan)).find(".//svg:g[@id='layer-01']/svg:path", NS)
+    pts = _points(path.get("d"))
+    assert pts.tolist() == [[300.0, 400.0], [300.0, 400.0]] and path.get("stroke-linecap") == "round"
+
+
+def test_bad_grid_and_layer_are_named():
+    plan = _plan()
+    with pytest.raises(ValueError, match=r"grid spacing must be > 0 mm, got 0"):
+        overlay_svg(plan, grid_mm=0)
+    with pytest.raises(ValueError, match=r"grid spacing 10 mm gives 400 squares along a 4 m side; use at least 20 mm"):
+        overlay_svg(plan, grid_mm=10)
+    with pytest.raises(ValueError, match=r"layer must be a number from 1 to 3, got 4"):
+        layer_svg(plan, 4)
