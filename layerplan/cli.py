@@ -7,7 +7,7 @@ import sys
 from pathlib import Path
 
 from . import __version__, cli_paints
-from .settings import DEFAULT_BRUSHES_MM, MAX_PAINTS, MIN_PAINTS, Settings
+from .settings import DEFAULT_BRUSHES_MM, DEFAULT_STROKE_COST, MAX_PAINTS, MIN_PAINTS, Settings
 
 
 class UsageError(Exception):
@@ -39,8 +39,8 @@ def _parser() -> argparse.ArgumentParser:
                       help="wall size of one working pixel in mm (default: the narrowest brush spans 3 px, "
                            "raster at most 2 megapixels)")
     plan.add_argument("--seed", type=int, default=0, help="random seed; same inputs and seed give the same plan")
-    plan.add_argument("--stroke-cost", type=float, default=1.0,
-                      help="error a stroke must remove to be painted, in ΔE00 per brush-width square (default 1)")
+    plan.add_argument("--stroke-cost", type=float, default=DEFAULT_STROKE_COST,
+                      help="error a stroke must remove to be painted, in ΔE00 per brush-width square (default %(default)g)")
     plan.add_argument("--quiet", action="store_true", help="no progress bar")
     plan.add_argument("--inventory", metavar="FILE", default=None,
                       help="the paints you own, a TOML file, to mix recipes from (default: a basic acrylic set)")

@@ -23,6 +23,8 @@ class LayerSpec:
     limits: BrushLimits
     cost: float
     direction_sigma_px: float
+    tries: int = 300
+    patience: int = 80
 
 
 def layer_specs(brushes_mm, mm_per_px: float, stroke_cost: float) -> list[LayerSpec]:

@@ -11,12 +11,13 @@ from .ground import choose_ground
 from .layers import layer_specs
 from .order import painting_order
 from .palette import palette_from_image
-from .placer import orientation_field, place_layer
+from .placer import orientation_field, place_layer, prune_strokes
 from .plan import Layer, Paint, Plan, Stroke, rgb_to_hex
+from .raster import render_steps
 from .settings import Settings, choose_mm_per_px, raster_size
 
 #: share of the progress bar given to each phase (planning strokes dominates)
-_P_PREP, _P_LAYERS = 0.12, 0.84
+_P_PREP, _P_LAYERS = 0.12, 0.8
 
 
 def _noop(fraction: float, message: str) -> None:
@@ -157,8 +158,7 @@ def make_plan(image: np.ndarray, settings: Settings, *, progress=None) -> Plan:
         for i in range(len(pal_rgb))
     ]
     specs = layer_specs(settings.brushes_mm, s, settings.stroke_cost)
-    layers = []
-    layer_stats = []
+    placed = []
     span = _P_LAYERS / len(specs)
     for n, spec in enumerate(specs):
         base = _P_PREP + n * span
@@ -169,29 +169,43 @@ def make_plan(image: np.ndarray, settings: Settings, *, progress=None) -> Plan:
         def sub(fraction, message, base=base, label=label):
             report(base + span * min(1.0, fraction), f"{label}: {message}")
 
-        result = place_layer(
+        placed.append(place_layer(
             planes, canvas, err, theta, spec.limits, mm_per_px=s, wall_mm=(wall_w, wall_h),
             cost=spec.cost, seed=settings.seed * 7919 + spec.number, progress=sub,
-        )
-        order = painting_order(result.points, result.paints, spec.limits.width_mm, s, (height_px, width_px))
-        strokes = [
-            Stroke(paint=ids[int(result.paints[i])], width_mm=spec.limits.width_mm, path_mm=result.points[i])
-            for i in order
-        ]
+            tries=spec.tries, patience=spec.patience,
+        ))
+    report(_P_PREP + _P_LAYERS, "taking away strokes later ones hid")
+    layer_of = np.concatenate([np.full(len(r.points), n) for n, r in enumerate(placed)]).astype(int)
+    keep = prune_strokes(
+        planes, ground, [p for r in placed for p in r.points],
+        np.array([specs[n].limits.width_mm for n in layer_of]), np.concatenate([r.paints for r in placed]),
+        mm_per_px=s,
+    )
+    report(0.97, "ordering strokes for painting")
+    layers = []
+    offset = 0
+    for spec, result in zip(specs, placed):
+        kept = np.flatnonzero(keep[offset : offset + len(result.points)])
+        offset += len(result.points)
+        points = [result.points[i] for i in kept]
+        paints = result.paints[kept]
+        order = painting_order(points, paints, spec.limits.width_mm, s, (height_px, width_px))
+        strokes = [Stroke(paint=ids[int(paints[i])], width_mm=spec.limits.width_mm, path_mm=points[i]) for i in order]
         layers.append(Layer(brush_width_mm=spec.limits.width_mm, strokes=strokes))
-        layer_stats.append({
-            "strokes": len(strokes),
-            "mean_delta_e_before": round(result.error_before / err.size, 4),
-            "mean_delta_e_after": round(result.error_after / err.size, 4),
-        })
-    report(0.97, "finishing the plan")
-    stats["mean_delta_e_final"] = round(float(err.mean()), 4)
-    stats["layers"] = layer_stats
     plan = Plan(
         wall_width_mm=wall_w, wall_height_mm=wall_h, width_px=width_px, height_px=height_px, mm_per_px=s,
         palette=palette, ground=ids[ground], layers=layers,
-        extra={"generator": f"layerplan {__version__}", "settings": settings.to_dict(), "stats": stats,
-               "inventory": inventory},
     )
+    # error after each layer, from the plan itself
+    steps = [np.take_along_axis(planes, c[..., None].astype(np.intp), axis=2)[..., 0].mean(dtype=np.float64)
+             for c in render_steps(plan)]
+    stats["mean_delta_e_final"] = round(float(steps[-1]), 4)
+    stats["layers"] = [
+        {"strokes": len(layer.strokes), "placed": len(r.points),
+         "mean_delta_e_before": round(float(steps[n]), 4), "mean_delta_e_after": round(float(steps[n + 1]), 4)}
+        for n, (layer, r) in enumerate(zip(layers, placed))
+    ]
+    plan.extra = {"generator": f"layerplan {__version__}", "settings": settings.to_dict(), "stats": stats,
+                  "inventory": inventory}
     report(1.0, "plan ready")
     return plan

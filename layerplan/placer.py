@@ -31,13 +31,16 @@ from dataclasses import dataclass
 import numpy as np
 from numba import njit
 
-from .raster import covers
+from .raster import covers, stroke_bbox
 
 #: stroke points are kept on a 0.1 mm grid so plan.json holds them exactly
 POINT_GRID_MM = 0.1
 #: most vertices in one stroke's polyline
 MAX_POINTS = 10
 START_DAB = True
+#: after this many refinement moves a stroke must have reached GIVE_UP × its cost, or it is dropped
+PROBE = 12
+GIVE_UP = 0.7
 
 
 @dataclass(frozen=True)
@@ -83,8 +86,66 @@ def _round_grid(v):
 
 
 @njit(cache=True, nogil=True)
+def _row_span(ax, ay, bx, by, r, y):
+    """The x interval (in mm) where the row at height y meets the capsule A-B of radius r.
+
+    Returns (x0, x1); x0 > x1 when the row misses it. The capsule is convex, so its section is
+    the hull of the sections of its two end discs and its middle slab.
+    """
+    x0 = 1e300
+    x1 = -1e300
+    dy = y - ay
+    if dy * dy <= r * r:
+        half = math.sqrt(r * r - dy * dy)
+        x0 = min(x0, ax - half)
+        x1 = max(x1, ax + half)
+    dyb = y - by
+    if dyb * dyb <= r * r:
+        half = math.sqrt(r * r - dyb * dyb)
+        x0 = min(x0, bx - half)
+        x1 = max(x1, bx + half)
+    vx = bx - ax
+    vy = by - ay
+    L = math.sqrt(vx * vx + vy * vy)
+    if L > 0.0:
+        ux = vx / L
+        uy = vy / L
+        lo = -1e300
+        hi = 1e300
+        # along the segment: 0 <= ux (x - ax) + uy dy <= L
+        if abs(ux) > 1e-12:
+            a = (0.0 - uy * dy) / ux
+            b = (L - uy * dy) / ux
+            lo = max(lo, min(a, b))
+            hi = min(hi, max(a, b))
+        elif not (0.0 <= uy * dy <= L):
+            hi = -1e300
+        # across it: -r <= ux dy - uy (x - ax) <= r
+        if abs(uy) > 1e-12:
+            a = (ux * dy - r) / uy
+            b = (ux * dy + r) / uy
+            lo = max(lo, min(a, b))
+            hi = min(hi, max(a, b))
+        elif abs(ux * dy) > r:
+            hi = -1e300
+        if lo <= hi:
+            x0 = min(x0, ax + lo)
+            x1 = max(x1, ax + hi)
+    return x0, x1
+
+
+#: pixels whose centre is this close (mm) to a stroke's edge get the exact coverage test
+_EDGE_MM = 1e-6
+
+
+@njit(cache=True, nogil=True)
 def _footprint_gain(pts, n, width_mm, s, planes, err, stamp, stamp_id, sums, buf_i, buf_j):
-    """Gain of painting the stroke with each paint; returns (best gain, best paint, pixel count)."""
+    """Gain of painting the stroke with each paint; returns (best gain, best paint, pixel count).
+
+    Pixels are found row by row from the exact section of each segment's capsule; only the
+    pixels within _EDGE_MM of an edge go through `raster.covers`, so the set is exactly the
+    rendering rule's.
+    """
     h, w, k = planes.shape
     half_w = 0.5 * width_mm
     half_w2 = half_w * half_w
@@ -94,30 +155,45 @@ def _footprint_gain(pts, n, width_mm, s, planes, err, stamp, stamp_id, sums, buf
     c = 0
     nseg = max(1, n - 1)
     for sidx in range(nseg):
-        seg = pts[sidx : sidx + 2] if n > 1 else pts[0:1]
-        m = 2 if n > 1 else 1
-        xmin = min(seg[0, 0], seg[m - 1, 0])
-        xmax = max(seg[0, 0], seg[m - 1, 0])
-        ymin = min(seg[0, 1], seg[m - 1, 1])
-        ymax = max(seg[0, 1], seg[m - 1, 1])
-        j0 = max(0, int(math.floor((xmin - half_w) / s - 0.5)))
-        j1 = min(w, int(math.ceil((xmax + half_w) / s - 0.5)) + 1)
+        if n > 1:
+            ax = pts[sidx, 0]
+            ay = pts[sidx, 1]
+            bx = pts[sidx + 1, 0]
+            by = pts[sidx + 1, 1]
+            seg = pts[sidx : sidx + 2]
+            m = 2
+        else:
+            ax = pts[0, 0]
+            ay = pts[0, 1]
+            bx = ax
+            by = ay
+            seg = pts[0:1]
+            m = 1
+        ymin = min(ay, by)
+        ymax = max(ay, by)
         i0 = max(0, int(math.floor((ymin - half_w) / s - 0.5)))
         i1 = min(h, int(math.ceil((ymax + half_w) / s - 0.5)) + 1)
         for i in range(i0, i1):
             cy = (i + 0.5) * s
-            for j in range(j0, j1):
+            x0, x1 = _row_span(ax, ay, bx, by, half_w, cy)
+            if x0 > x1 + 2 * _EDGE_MM:
+                continue
+            j0 = max(0, int(math.ceil((x0 - _EDGE_MM) / s - 0.5)))
+            j1 = min(w - 1, int(math.floor((x1 + _EDGE_MM) / s - 0.5)))
+            for j in range(j0, j1 + 1):
                 if stamp[i, j] == stamp_id:
                     continue
                 cx = (j + 0.5) * s
-                if covers(seg, m, half_w2, cx, cy):
-                    stamp[i, j] = stamp_id
-                    base += err[i, j]
-                    for q in range(k):
-                        sums[q] += planes[i, j, q]
-                    buf_i[c] = i
-                    buf_j[c] = j
-                    c += 1
+                if cx - x0 < _EDGE_MM or x1 - cx < _EDGE_MM:
+                    if not covers(seg, m, half_w2, cx, cy):
+                        continue
+                stamp[i, j] = stamp_id
+                base += err[i, j]
+                for q in range(k):
+                    sums[q] += planes[i, j, q]
+                buf_i[c] = i
+                buf_j[c] = j
+                c += 1
     best = -1e30
     bq = 0
     for q in range(k):
@@ -163,7 +239,7 @@ def _angle_at(theta, x, y, s):
 @njit(cache=True, nogil=True)
 def _place_layer(planes, best_err, canvas, err, stamp, theta, births, width_mm, s, cost,
                  min_len, max_len, min_seg, max_seg, max_turn, wall_w, wall_h,
-                 tries, patience, seed, start_dab, out_pts, out_n, out_paint, out_gain, start_count):
+                 tries, patience, probe, give_up, seed, start_dab, out_pts, out_n, out_paint, out_gain, start_count):
     """Place strokes for one layer from the given birth pixels; returns the stroke count."""
     np.random.seed(seed)
     h, w, k = planes.shape
@@ -219,6 +295,9 @@ def _place_layer(planes, best_err, canvas, err, stamp, theta, births, width_mm, 
         fails = 0
         for t in range(tries):
             if fails >= patience:
+                break
+            # a stroke still far from paying its cost after a few moves is not worth refining
+            if t == probe and gain < give_up * cost:
                 break
             for p in range(n):
                 cand[p, 0] = cur[p, 0]
@@ -399,7 +478,7 @@ class LayerResult:
 
 
 def place_layer(planes, canvas, err, theta, limits: BrushLimits, *, mm_per_px: float, wall_mm, cost: float,
-                seed: int, rounds: int = 10, tries: int = 64, patience: int = 20, progress=None) -> LayerResult:
+                seed: int, rounds: int = 10, tries: int = 300, patience: int = 80, progress=None) -> LayerResult:
     """Place one layer's strokes on the canvas, in place.
 
     Parameters
@@ -457,7 +536,7 @@ def place_layer(planes, canvas, err, theta, limits: BrushLimits, *, mm_per_px: f
             planes, best_err, canvas, err, stamp, theta, births, float(limits.width_mm), float(mm_per_px),
             float(cost), float(limits.min_length_mm), float(limits.max_length_mm), float(limits.min_segment_mm),
             float(limits.max_segment_mm), math.radians(limits.max_turn_deg), float(wall_mm[0]), float(wall_mm[1]),
-            int(tries), int(patience), int(seed * 1000 + r), START_DAB, out_pts, out_n, out_paint, out_gain, count,
+            int(tries), int(patience), PROBE, GIVE_UP, int(seed * 1000 + r), START_DAB, out_pts, out_n, out_paint, out_gain, count,
         )
         if progress is not None:
             progress((r + 1) / rounds, f"{count} strokes")
@@ -473,3 +552,123 @@ def place_layer(planes, canvas, err, theta, limits: BrushLimits, *, mm_per_px: f
         error_after=float(err.sum(dtype=np.float64)),
         cost=float(cost),
     )
+
+
+@njit(cache=True, nogil=True)
+def _stack_tops(h, w, s, all_pts, starts, counts, widths, paints, alive, ground):
+    """Per pixel: the top stroke, its paint, and the stroke and paint just under it."""
+    top_idx = np.full((h, w), -1, np.int64)
+    top_paint = np.full((h, w), ground, np.int64)
+    under_paint = np.full((h, w), ground, np.int64)
+    under_idx = np.full((h, w), -1, np.int64)
+    for k in range(len(starts)):
+        if not alive[k]:
+            continue
+        pts = all_pts[starts[k] : starts[k] + counts[k]]
+        half = 0.5 * widths[k]
+        i0, i1, j0, j1 = stroke_bbox(pts, counts[k], half, s, h, w)
+        for i in range(i0, i1):
+            cy = (i + 0.5) * s
+            for j in range(j0, j1):
+                if covers(pts, counts[k], half * half, (j + 0.5) * s, cy):
+                    under_paint[i, j] = top_paint[i, j]
+                    under_idx[i, j] = top_idx[i, j]
+                    top_paint[i, j] = paints[k]
+                    top_idx[i, j] = k
+    return top_idx, top_paint, under_paint, under_idx
+
+
+@njit(cache=True, nogil=True)
+def _contributions(planes, top_idx, top_paint, under_paint, n):
+    """Error each stroke removes from the final picture: what would show without it, minus what shows."""
+    h, w, _ = planes.shape
+    out = np.zeros(n, np.float64)
+    for i in range(h):
+        for j in range(w):
+            t = top_idx[i, j]
+            if t >= 0:
+                out[t] += planes[i, j, under_paint[i, j]] - planes[i, j, top_paint[i, j]]
+    return out
+
+
+@njit(cache=True, nogil=True)
+def _conflicts(top_idx, under_idx, candidate):
+    """Pairs (top, under) of candidate strokes that meet at a pixel: removing both is not additive."""
+    h, w = top_idx.shape
+    cap = 256
+    out = np.empty((cap, 2), np.int64)
+    c = 0
+    for i in range(h):
+        for j in range(w):
+            t = top_idx[i, j]
+            u = under_idx[i, j]
+            if t >= 0 and u >= 0 and candidate[t] and candidate[u]:
+                if c == cap:
+                    cap *= 2
+                    bigger = np.empty((cap, 2), np.int64)
+                    bigger[:c] = out[:c]
+                    out = bigger
+                out[c, 0] = t
+                out[c, 1] = u
+                c += 1
+    return out[:c]
+
+
+def prune_strokes(planes, ground: int, points, widths, paints, *, mm_per_px: float, max_passes: int = 30):
+    """Take away strokes that later strokes made useless: hidden, or no better than what is under them.
+
+    A stroke placed early can be painted over later. Removing stroke k changes only the
+    pixels where it is on top, which then show the paint just under it; if that removes no
+    error, the stroke is work for nothing. Each pass removes every such stroke, except pairs
+    that meet (one directly under the other), whose effects would not add up; passes repeat
+    until every stroke left improves the finished picture. Removing strokes by their cost as
+    well was tried: it gave worse pictures for the same number of strokes (see bench/).
+
+    Parameters
+    ----------
+    planes : (H, W, K) float32 array
+    ground : int, palette position of the ground
+    points : list of (n_i, 2) arrays in wall mm, in painting (file) order over all layers
+    widths, paints : (N,) arrays
+    mm_per_px : float
+
+    Returns
+    -------
+    keep : (N,) bool array
+
+    References
+    ----------
+    Hertzmann (2001), "Paint by Relaxation" (deleting strokes as an energy-lowering move).
+    """
+    n = len(points)
+    alive = np.ones(n, dtype=np.bool_)
+    if n == 0:
+        return alive
+    h, w, _ = planes.shape
+    counts = np.array([len(p) for p in points], dtype=np.int64)
+    starts = np.zeros(n, dtype=np.int64)
+    starts[1:] = np.cumsum(counts)[:-1]
+    all_pts = np.ascontiguousarray(np.concatenate(points).reshape(-1, 2), dtype=np.float64)
+    widths = np.asarray(widths, dtype=np.float64)
+    paints = np.asarray(paints, dtype=np.int64)
+    for _ in range(max_passes):
+        top_idx, top_paint, under_paint, under_idx = _stack_tops(
+            h, w, float(mm_per_px), all_pts, starts, counts, widths, paints, alive, int(ground))
+        gain = _contributions(planes, top_idx, top_paint, under_paint, n)
+        candidate = alive & (gain <= 0.0)
+        if not candidate.any():
+            break
+        pairs = _conflicts(top_idx, under_idx, candidate)
+        blocked = np.zeros(n, dtype=np.bool_)
+        # least useful first; a stroke meeting one already chosen waits for the next pass
+        partners: dict[int, list[int]] = {}
+        for a, b in np.unique(pairs, axis=0) if len(pairs) else []:
+            partners.setdefault(int(a), []).append(int(b))
+            partners.setdefault(int(b), []).append(int(a))
+        for k in np.flatnonzero(candidate)[np.argsort(gain[candidate], kind="stable")]:
+            if blocked[k]:
+                continue
+            alive[k] = False
+            for other in partners.get(int(k), ()):
+                blocked[other] = True
+    return alive

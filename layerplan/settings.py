@@ -22,6 +22,9 @@ MAX_BRUSHES = 8
 #: largest wall side we accept, mm (100 m: bigger than any mural wall we expect)
 MAX_WALL_MM = 100_000.0
 FITS = ("cover", "contain")
+#: ΔE00 a stroke must remove per (brush width)² of wall; chosen on the bench photos as the point where
+#: plans stay within 1.12 × the palette's floor with the fewest strokes (bench/results.md)
+DEFAULT_STROKE_COST = 5.0
 
 
 @dataclass(frozen=True)
@@ -72,7 +75,7 @@ class Settings:
     brushes_mm: tuple[float, ...] = DEFAULT_BRUSHES_MM
     mm_per_px: float | None = None
     seed: int = 0
-    stroke_cost: float = 1.0
+    stroke_cost: float = DEFAULT_STROKE_COST
     inventory: str | None = None
     free_palette: bool = False
     mix_paints: int = 3  # issue 3 defaults: 3 paints, 10 parts, ΔE00 3
