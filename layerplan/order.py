@@ -14,7 +14,7 @@ import heapq
 import numpy as np
 from numba import njit
 
-from .raster import covers, stroke_bbox
+from .raster import covers, push_pair, stroke_bbox
 
 
 @njit(cache=True, nogil=True)
@@ -36,8 +36,7 @@ def _must_precede(last, all_pts, starts, counts, paints, width, s):
     """Edges (a, b): stroke a must be painted before stroke b."""
     h, w = last.shape
     half2 = 0.25 * width * width
-    cap = 1024
-    out = np.empty((cap, 2), np.int64)
+    out = np.empty((1024, 2), np.int64)
     c = 0
     for k in range(len(starts)):
         pts = all_pts[starts[k] : starts[k] + counts[k]]
@@ -48,13 +47,7 @@ def _must_precede(last, all_pts, starts, counts, paints, width, s):
                 if top == k or top < 0 or paints[top] == paints[k]:
                     continue
                 if covers(pts, counts[k], half2, (j + 0.5) * s, (i + 0.5) * s):
-                    if c == cap:
-                        cap *= 2
-                        bigger = np.empty((cap, 2), np.int64)
-                        bigger[:c] = out[:c]
-                        out = bigger
-                    out[c, 0] = k
-                    out[c, 1] = top
+                    out = push_pair(out, c, k, top)
                     c += 1
     return out[:c]
 

@@ -31,7 +31,7 @@ from dataclasses import dataclass
 import numpy as np
 from numba import njit
 
-from .raster import covers, stroke_bbox
+from .raster import covers, push_pair, stroke_bbox
 
 #: stroke points are kept on a 0.1 mm grid so plan.json holds them exactly
 POINT_GRID_MM = 0.1
@@ -595,21 +595,14 @@ def _contributions(planes, top_idx, top_paint, under_paint, n):
 def _conflicts(top_idx, under_idx, candidate):
     """Pairs (top, under) of candidate strokes that meet at a pixel: removing both is not additive."""
     h, w = top_idx.shape
-    cap = 256
-    out = np.empty((cap, 2), np.int64)
+    out = np.empty((256, 2), np.int64)
     c = 0
     for i in range(h):
         for j in range(w):
             t = top_idx[i, j]
             u = under_idx[i, j]
             if t >= 0 and u >= 0 and candidate[t] and candidate[u]:
-                if c == cap:
-                    cap *= 2
-                    bigger = np.empty((cap, 2), np.int64)
-                    bigger[:c] = out[:c]
-                    out = bigger
-                out[c, 0] = t
-                out[c, 1] = u
+                out = push_pair(out, c, t, u)
                 c += 1
     return out[:c]
 

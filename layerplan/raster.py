@@ -91,6 +91,18 @@ def stroke_pixels(pts, n, width_mm, s, h, w, out_i, out_j):
 
 
 @njit(cache=True, nogil=True)
+def push_pair(out, c, a, b):
+    """Store the pair (a, b) at row c of an (N, 2) int64 array, doubling it when full; returns the array."""
+    if c == out.shape[0]:
+        bigger = np.empty((2 * c + 16, 2), np.int64)
+        bigger[:c] = out[:c]
+        out = bigger
+    out[c, 0] = a
+    out[c, 1] = b
+    return out
+
+
+@njit(cache=True, nogil=True)
 def paint_strokes(canvas, all_pts, starts, counts, widths, paints, s):
     """Apply strokes in order to an (H, W) index canvas, in place."""
     h, w = canvas.shape
