@@ -31,6 +31,10 @@ def test_a_stock_paints_own_colour_comes_back_as_that_paint_alone(inv):
         assert r.predicted_srgb == paint.srgb and r.delta_e < 0.05 and r.in_gamut
 
 
+def _strengths(inv):
+    return np.array([p.tinting_strength for p in inv.paints])
+
+
 def test_the_solver_finds_back_mixes_the_model_made_at_random_ratios(inv):
     # issue 3: mixes made by the model (layerplan.mixing, a separate code path from the table)
     # at random whole-part ratios are found back: ΔE00 <= 1 and the same paints
@@ -45,7 +49,7 @@ def test_the_solver_finds_back_mixes_the_model_made_at_random_ratios(inv):
                 break
         full = np.zeros(len(inv))
         full[idx] = parts
-        lab, _ = mixing.mix_colours(_inv_rgb(inv), full)
+        lab, _ = mixing.mix_colours(_inv_rgb(inv), full, tinting_strength=_strengths(inv))
         made.append((lab, {inv.paints[i].name for i in idx}, full))
     found = recipes.solve_recipes(np.array([m[0] for m in made]), inv)
     for (lab, names, full), r in zip(made, found):
@@ -151,7 +155,7 @@ def test_compiled_ciede2000_matches_sharma_2005_pairs_and_scikit_image():
 
 def test_predict_mix_matches_the_model_and_names_ignore_case(inv):
     got = recipes.predict_mix({"cool BLUE": 1, "White": 3}, inv)
-    lab, srgb = mixing.mix_colours(_inv_rgb(inv)[[7, 0]], [1, 3])
+    lab, srgb = mixing.mix_colours(_inv_rgb(inv)[[7, 0]], [1, 3], tinting_strength=_strengths(inv)[[7, 0]])
     assert got["lab"] == [round(float(v), 2) for v in lab]
     assert got["predicted_srgb"] == "#%02x%02x%02x" % tuple(srgb)
     # the predicted sRGB is the predicted CIELAB's (layerplan.colour, scikit-image)
