@@ -161,7 +161,7 @@ def cmd_plan(args) -> int:
     try:
         settings = settings.validated()
     except ValueError as exc:
-        raise UsageError(str(exc)) from exc
+        raise UsageError(cli_paints.name_option(str(exc))) from exc
     if settings.wall_width_mm / options["grid_mm"] > 200:  # layerplan.svg.MAX_GRID_LINES; height checked later
         raise UsageError(f"--grid {args.grid} is too fine for a {settings.wall_width_mm / 1000:g} m wide wall "
                          f"(at most 200 squares across)")

@@ -74,11 +74,39 @@ def inventory_from_arg(path: str | None) -> Inventory:
     return default_inventory() if path is None else load_inventory(path)
 
 
+#: the start of a setting's error message -> the command-line option that sets it
+OPTION_OF_MESSAGE = {
+    "max parts": "--max-parts",
+    "max paints per mix": "--mix-paints",
+    "tolerance": "--tolerance",
+    "paints must": "--paints",
+    "wall": "--wall",
+    "brush": "--brushes",
+    "give at least one brush": "--brushes",
+    "at most 8 brushes": "--brushes",
+    "pixel size": "--pixel-mm",
+    "seed": "--seed",
+    "stroke cost": "--stroke-cost",
+    "fit": "--fit",
+}
+
+
+def name_option(message: str) -> str:
+    """Prefix a setting's error message with the option that sets it (``--max-parts: ...``)."""
+    for start, option in OPTION_OF_MESSAGE.items():
+        if message.startswith(start):
+            return f"{option}: {message}"
+    return message
+
+
 def _run(handler, args) -> int:
     try:
         text = handler(args)
-    except (_Fail, InventoryError, ValueError) as exc:
+    except (_Fail, InventoryError) as exc:
         print(f"layerplan: error: {exc}", file=sys.stderr)
+        return EXIT_USAGE
+    except ValueError as exc:
+        print(f"layerplan: error: {name_option(str(exc))}", file=sys.stderr)
         return EXIT_USAGE
     sys.stdout.write(text)
     sys.stdout.flush()

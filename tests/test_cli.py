@@ -92,3 +92,19 @@ def test_replanning_into_a_plan_folder_replaces_it(photo, tmp_path):
     (out / "steps" / "99.png").write_bytes(b"stale")
     assert main(["plan", str(photo), "--out", str(out), *ARGS]) == 0
     assert not (out / "steps" / "99.png").exists()
+
+
+@pytest.mark.parametrize(
+    "extra,flag",
+    [(["--paints", "40"], "--paints: "), (["--max-parts", "40"], "--max-parts: "),
+     (["--mix-paints", "9"], "--mix-paints: "), (["--brushes", "50,50"], "--brushes: "),
+     (["--pixel-mm", "-1"], "--pixel-mm: "), (["--stroke-cost", "-2"], "--stroke-cost: ")],
+)
+def test_setting_errors_name_the_option(photo, tmp_path, capsys, extra, flag):
+    assert main(["plan", str(photo), "--out", str(tmp_path / "never"), *ARGS, *extra]) == 2
+    assert flag in capsys.readouterr().err
+
+
+def test_mix_errors_name_the_option(capsys):
+    assert main(["mix", "#808080", "--max-parts", "40"]) == 2
+    assert "--max-parts: max parts must be a whole number from 1 to 30, got 40" in capsys.readouterr().err
