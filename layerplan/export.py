@@ -17,7 +17,6 @@ import numpy as np
 from PIL import Image
 
 from .plan import Plan
-from .raster import render_steps
 
 #: files that mark a folder as a layerplan output (safe to replace)
 _MARKER = "plan.json"
@@ -49,10 +48,10 @@ def build_files(plan: Plan, *, grid_mm: float | None = None, **options) -> dict[
     ValueError
         An unknown option, or a bad quantity or grid option (the message names it).
     """
-    from .outlines import outline_maps
+    from .outlines import layer_canvas, layer_outlines
     from .quantities import paint_use
     from .report import GRID_MM, plan_html
-    from .svg import check_grid, layer_svg, overlay_svg
+    from .svg import check_grid, layer_svg, overlay_svg, prepare_outline
 
     unknown = sorted(set(options) - set(QUANTITY_OPTIONS))
     if unknown:
@@ -61,19 +60,42 @@ def build_files(plan: Plan, *, grid_mm: float | None = None, **options) -> dict[
     plan.extra["paint_use"] = paint_use(plan, **options)
     files: dict[str, bytes] = {}
     rgb = plan.palette_rgb()
-    steps = render_steps(plan)
+    # each layer rasterised once: its outline map and the wall after it both come from it
+    # (the same pixels as raster.render_steps: strokes are opaque, so a layer's canvas
+    # over the wall before it is the wall after it)
+    canvases = [layer_canvas(plan, n) for n in range(1, len(plan.layers) + 1)]
+    steps = [np.full((plan.height_px, plan.width_px), plan.paint_index()[plan.ground], dtype=np.int16)]
+    for canvas in canvases:
+        steps.append(np.where(canvas >= 0, canvas, steps[-1]))
     for n, canvas in enumerate(steps):
         files[f"steps/{n:02d}.png"] = png_bytes(rgb[canvas])
-    files["final.png"] = png_bytes(rgb[steps[-1]])
-    maps = outline_maps(plan)
+    files["final.png"] = files[f"steps/{len(steps) - 1:02d}.png"]  # the wall after the last layer
+    # each map traced and written out as SVG text once, then drawn three times
+    maps = [prepare_outline(plan, layer_outlines(plan, n, canvas=canvases[n - 1]))
+            for n in range(1, len(plan.layers) + 1)]
     for n in range(1, len(plan.layers) + 1):
         files[f"steps/{n:02d}.svg"] = layer_svg(plan, n, outline=maps[n - 1]).encode("utf-8")
     files["overlay.svg"] = overlay_svg(plan, grid_mm=grid_mm, outlines=maps).encode("utf-8")
     images = {name[:-4]: data for name, data in files.items() if name.endswith(".png")}
     files["plan.html"] = plan_html(plan, images=images, grid_mm=grid_mm, outlines=maps,
-                                   paint_use=plan.extra["paint_use"]).encode("utf-8")
+                                   paint_use=plan.extra["paint_use"], steps=steps).encode("utf-8")
     files["plan.json"] = plan.to_json().encode("utf-8")
     return files
+
+
+def _folder_mode(private: Path) -> int:
+    """Permission bits a new folder gets: 0o777 less the umask (POSIX mkdir).
+
+    Found by making a folder inside ``private`` (a folder of ours) rather than with
+    ``os.umask``, which can only be read by setting it, for the whole process, under the
+    feet of other threads (the web app writes plans from worker threads).
+    """
+    probe = private / ".mode-probe"
+    probe.mkdir()
+    try:
+        return probe.stat().st_mode & 0o777
+    finally:
+        probe.rmdir()
 
 
 def write_outputs(plan: Plan, out_dir, **options) -> Path:
@@ -112,6 +134,8 @@ def write_outputs(plan: Plan, out_dir, **options) -> Path:
             path = tmp / rel
             path.parent.mkdir(parents=True, exist_ok=True)
             path.write_bytes(files[rel])
+        # mkdtemp makes the folder 0700; a finished plan gets the usual mode for a new folder
+        tmp.chmod(_folder_mode(tmp))
         old = None
         if out.exists():
             old = out.with_name(f".{out.name}.old-{os.getpid()}")

@@ -19,6 +19,18 @@ References
    points required to represent a digitized line or its caricature",
    Cartographica 10(2):112-122, 1973 (as ``skimage.measure.approximate_polygon``,
    compiled here with numba).
+.. [3] P. F. Felzenszwalb, D. P. Huttenlocher, "Distance transforms of sampled
+   functions", Theory of Computing 8:415-428, 2012 (exact Euclidean distance
+   transform, for the label points).
+.. [4] A. Rosenfeld, J. L. Pfaltz, "Sequential operations in digital picture
+   processing", J. ACM 13(4):471-494, 1966; K. Wu, E. Otoo, K. Suzuki, "Optimizing
+   two-pass connected-component labeling algorithms", Pattern Analysis and
+   Applications 12:117-135, 2009 (labelling the areas).
+
+The tracing, distance transform and labelling are compiled (numba) and give exactly
+what ``skimage.measure.find_contours``, ``scipy.ndimage.distance_transform_edt`` and
+``scipy.ndimage.label`` give (the tests hold them to it); those ran per area and were
+most of the export time.
 """
 
 from __future__ import annotations
@@ -28,8 +40,6 @@ from typing import Any
 
 import numpy as np
 from numba import njit
-from scipy import ndimage as ndi
-from skimage import measure
 
 from .plan import Plan
 from .raster import pack_strokes, paint_strokes
@@ -96,6 +106,326 @@ def _douglas_peucker_keep(pts, tol):
     return keep
 
 
+@njit(cache=True, nogil=True)
+def _find_root(parent, a):
+    while parent[a] != a:
+        parent[a] = parent[parent[a]]
+        a = parent[a]
+    return a
+
+
+@njit(cache=True, nogil=True)
+def _components(canvas):
+    """Connected areas of equal value (4-connected; values < 0 are no area), all paints at once.
+
+    Two-pass labelling with union-find (Rosenfeld & Pfaltz 1966; Wu, Otoo & Suzuki 2009),
+    numbered 1, 2, ... in the row order of each area's first pixel, so the areas of one
+    value come in the order ``scipy.ndimage.label`` numbers them on that value's mask.
+
+    Returns
+    -------
+    labels : (H, W) int32, 0 outside every area
+    value, size, i0, i1, j0, j1 : (count + 1,) int64 per label (index 0 unused):
+        the area's value, its pixel count and its bounding box [i0, i1) × [j0, j1)
+    """
+    h, w = canvas.shape
+    prov = np.zeros((h, w), dtype=np.int32)
+    parent = np.empty(h * w + 1, dtype=np.int32)
+    parent[0] = 0
+    n = 0
+    for i in range(h):
+        for j in range(w):
+            v = canvas[i, j]
+            if v < 0:
+                continue
+            up = prov[i - 1, j] if i > 0 and canvas[i - 1, j] == v else 0
+            left = prov[i, j - 1] if j > 0 and canvas[i, j - 1] == v else 0
+            if up == 0 and left == 0:
+                n += 1
+                parent[n] = n
+                prov[i, j] = n
+            elif up == 0:
+                prov[i, j] = left
+            elif left == 0:
+                prov[i, j] = up
+            else:
+                ru = _find_root(parent, up)
+                rl = _find_root(parent, left)
+                if ru != rl:
+                    parent[max(ru, rl)] = min(ru, rl)
+                prov[i, j] = min(ru, rl)
+    final = np.zeros(n + 1, dtype=np.int32)
+    count = 0
+    labels = np.zeros((h, w), dtype=np.int32)
+    for i in range(h):
+        for j in range(w):
+            p = prov[i, j]
+            if p == 0:
+                continue
+            r = _find_root(parent, p)
+            if final[r] == 0:
+                count += 1
+                final[r] = count
+            labels[i, j] = final[r]
+    value = np.zeros(count + 1, dtype=np.int64)
+    size = np.zeros(count + 1, dtype=np.int64)
+    i0 = np.full(count + 1, h, dtype=np.int64)
+    i1 = np.zeros(count + 1, dtype=np.int64)
+    j0 = np.full(count + 1, w, dtype=np.int64)
+    j1 = np.zeros(count + 1, dtype=np.int64)
+    for i in range(h):
+        for j in range(w):
+            lab = labels[i, j]
+            if lab == 0:
+                continue
+            value[lab] = canvas[i, j]
+            size[lab] += 1
+            i0[lab] = min(i0[lab], i)
+            i1[lab] = max(i1[lab], i + 1)
+            j0[lab] = min(j0[lab], j)
+            j1[lab] = max(j1[lab], j + 1)
+    return labels, value, size, i0, i1, j0, j1
+
+
+@njit(cache=True, nogil=True)
+def _crop_mask(labels, lab, i0, i1, j0, j1):
+    """``labels[i0:i1, j0:j1] == lab`` with a one-pixel border of False around it."""
+    m = np.zeros((i1 - i0 + 2, j1 - j0 + 2), dtype=np.bool_)
+    for i in range(i0, i1):
+        for j in range(j0, j1):
+            if labels[i, j] == lab:
+                m[i - i0 + 1, j - j0 + 1] = True
+    return m
+
+
+@njit(cache=True, nogil=True)
+def _trace(m):
+    """Marching squares at the half level over a binary image whose border is False.
+
+    Gives exactly what ``skimage.measure.find_contours(m.astype(float), 0.5)`` gives (its
+    defaults: low values 8-connected, so high ones 4-connected; the same case table,
+    segment order and joining of segments into contours, so the same start point and
+    direction of each contour and the same order of contours), compiled: that one joins
+    the segments in Python.
+
+    Returns
+    -------
+    points : (P, 2) float64 of (row, col)
+    offsets : (K + 1,) int64, contour k is ``points[offsets[k]:offsets[k + 1]]``
+    """
+    h, w = m.shape
+    nh = h * (w - 1)  # points on horizontal pixel edges first, then on vertical ones
+    npts = nh + (h - 1) * w
+    # one pass to count the segments, so the node arrays are just big enough
+    nseg = 0
+    for r in range(h - 1):
+        for c in range(w - 1):
+            case = (1 if m[r, c] else 0) + (2 if m[r, c + 1] else 0) + (4 if m[r + 1, c] else 0) \
+                + (8 if m[r + 1, c + 1] else 0)
+            if case == 6 or case == 9:
+                nseg += 2
+            elif case != 0 and case != 15:
+                nseg += 1
+    segs = np.empty((nseg, 2), dtype=np.int64)
+    k = 0
+    for r in range(h - 1):
+        for c in range(w - 1):
+            case = (1 if m[r, c] else 0) + (2 if m[r, c + 1] else 0) + (4 if m[r + 1, c] else 0) \
+                + (8 if m[r + 1, c + 1] else 0)
+            if case == 0 or case == 15:
+                continue
+            top = r * (w - 1) + c
+            bottom = (r + 1) * (w - 1) + c
+            left = nh + r * w + c
+            right = nh + r * w + c + 1
+            # scikit-image's table for vertex_connect_high=False (low values on the left)
+            if case == 1:
+                a, b = top, left
+            elif case == 2:
+                a, b = right, top
+            elif case == 3:
+                a, b = right, left
+            elif case == 4:
+                a, b = left, bottom
+            elif case == 5:
+                a, b = top, bottom
+            elif case == 6:
+                segs[k, 0] = right
+                segs[k, 1] = top
+                k += 1
+                a, b = left, bottom
+            elif case == 7:
+                a, b = right, bottom
+            elif case == 8:
+                a, b = bottom, right
+            elif case == 9:
+                segs[k, 0] = top
+                segs[k, 1] = left
+                k += 1
+                a, b = bottom, right
+            elif case == 10:
+                a, b = bottom, top
+            elif case == 11:
+                a, b = bottom, left
+            elif case == 12:
+                a, b = left, right
+            elif case == 13:
+                a, b = top, right
+            else:  # 14
+                a, b = left, top
+            segs[k, 0] = a
+            segs[k, 1] = b
+            k += 1
+    # join segments as scikit-image's _assemble_contours does, with linked lists for its deques
+    starts = np.full(npts, -1, dtype=np.int64)  # point -> contour starting there
+    ends = np.full(npts, -1, dtype=np.int64)  # point -> contour ending there
+    node_pt = np.empty(2 * nseg + 1, dtype=np.int64)
+    node_next = np.full(2 * nseg + 1, -1, dtype=np.int64)
+    first = np.empty(nseg + 1, dtype=np.int64)
+    last = np.empty(nseg + 1, dtype=np.int64)
+    alive = np.zeros(nseg + 1, dtype=np.bool_)
+    nodes = 0
+    count = 0
+    for s in range(nseg):
+        a = segs[s, 0]
+        b = segs[s, 1]
+        tail = starts[b]
+        starts[b] = -1
+        head = ends[a]
+        ends[a] = -1
+        if tail >= 0 and head >= 0:
+            if tail == head:  # close the contour
+                node_pt[nodes] = b
+                node_next[last[head]] = nodes
+                last[head] = nodes
+                nodes += 1
+            elif tail > head:  # tail came second: append it to head
+                node_next[last[head]] = first[tail]
+                last[head] = last[tail]
+                alive[tail] = False
+                starts[node_pt[first[head]]] = head
+                ends[node_pt[last[head]]] = head
+            else:  # head came second: put it in front of tail
+                starts[node_pt[first[head]]] = -1
+                node_next[last[head]] = first[tail]
+                first[tail] = first[head]
+                alive[head] = False
+                starts[node_pt[first[tail]]] = tail
+                ends[node_pt[last[tail]]] = tail
+        elif tail < 0 and head < 0:  # a new contour
+            node_pt[nodes] = a
+            node_pt[nodes + 1] = b
+            node_next[nodes] = nodes + 1
+            first[count] = nodes
+            last[count] = nodes + 1
+            alive[count] = True
+            starts[a] = count
+            ends[b] = count
+            nodes += 2
+            count += 1
+        elif head < 0:  # prepend to tail
+            node_pt[nodes] = a
+            node_next[nodes] = first[tail]
+            first[tail] = nodes
+            starts[a] = tail
+            nodes += 1
+        else:  # append to head
+            node_pt[nodes] = b
+            node_next[last[head]] = nodes
+            last[head] = nodes
+            ends[b] = head
+            nodes += 1
+    total = 0
+    kept = 0
+    for c in range(count):
+        if alive[c]:
+            kept += 1
+            q = first[c]
+            while True:
+                total += 1
+                if q == last[c]:
+                    break
+                q = node_next[q]
+    points = np.empty((total, 2), dtype=np.float64)
+    offsets = np.zeros(kept + 1, dtype=np.int64)
+    p = 0
+    kk = 0
+    for c in range(count):
+        if not alive[c]:
+            continue
+        q = first[c]
+        while True:
+            pt = node_pt[q]
+            if pt < nh:
+                points[p, 0] = pt // (w - 1)
+                points[p, 1] = pt % (w - 1) + 0.5
+            else:
+                points[p, 0] = (pt - nh) // w + 0.5
+                points[p, 1] = (pt - nh) % w
+            p += 1
+            if q == last[c]:
+                break
+            q = node_next[q]
+        kk += 1
+        offsets[kk] = p
+    return points, offsets
+
+
+@njit(cache=True, nogil=True)
+def _deepest(m):
+    """The pixel of ``m`` farthest from any False pixel (the first in row order) and its squared distance.
+
+    Exact Euclidean distance transform, a column pass then the lower envelope of parabolas
+    along rows (Felzenszwalb & Huttenlocher 2012); ``m`` must have a False border. The same
+    distances as ``scipy.ndimage.distance_transform_edt``.
+    """
+    h, w = m.shape
+    g = np.empty((h, w), dtype=np.float64)
+    big = float(h + w)
+    for c in range(w):
+        d = big
+        for r in range(h):
+            d = 0.0 if not m[r, c] else d + 1.0
+            g[r, c] = d
+        d = big
+        for r in range(h - 1, -1, -1):
+            d = 0.0 if not m[r, c] else d + 1.0
+            if d < g[r, c]:
+                g[r, c] = d
+    v = np.empty(w, dtype=np.int64)
+    z = np.empty(w + 1, dtype=np.float64)
+    f = np.empty(w, dtype=np.float64)
+    best = -1.0
+    bi = 0
+    bj = 0
+    for r in range(h):
+        for c in range(w):
+            f[c] = g[r, c] * g[r, c]
+        k = 0
+        v[0] = 0
+        z[0] = -np.inf
+        z[1] = np.inf
+        for q in range(1, w):
+            s = ((f[q] + q * q) - (f[v[k]] + v[k] * v[k])) / (2.0 * (q - v[k]))
+            while s <= z[k]:
+                k -= 1
+                s = ((f[q] + q * q) - (f[v[k]] + v[k] * v[k])) / (2.0 * (q - v[k]))
+            k += 1
+            v[k] = q
+            z[k] = s
+            z[k + 1] = np.inf
+        k = 0
+        for q in range(w):
+            while z[k + 1] < q:
+                k += 1
+            d2 = (q - v[k]) * (q - v[k]) + f[v[k]]
+            if d2 > best:
+                best = d2
+                bi = r
+                bj = q
+    return bi, bj, best
+
+
 def simplify(coords: np.ndarray, tolerance: float) -> np.ndarray:
     """Douglas–Peucker simplification of an (N, 2) polyline (closed if first == last)."""
     c = np.ascontiguousarray(coords, dtype=np.float64)
@@ -146,6 +476,7 @@ def layer_outlines(
     *,
     tolerance_mm: float | None = None,
     min_area_mm2: float | None = None,
+    canvas: np.ndarray | None = None,
 ) -> dict[str, Any]:
     """Outline map of one layer.
 
@@ -159,6 +490,8 @@ def layer_outlines(
         default a tenth of the brush width, at least half a pixel.
     min_area_mm2 : float, optional
         Smaller areas are left off; default a quarter of a brush width squared.
+    canvas : (H, W) int16, optional
+        :func:`layer_canvas` of this layer, if the caller has it already.
 
     Returns
     -------
@@ -174,7 +507,8 @@ def layer_outlines(
     Raises
     ------
     ValueError
-        If ``n`` is not a layer of the plan, or a tolerance or area is negative.
+        If ``n`` is not a layer of the plan, a tolerance or area is negative, or
+        ``canvas`` is not the plan's raster size.
 
     References
     ----------
@@ -192,45 +526,53 @@ def layer_outlines(
             raise ValueError(f"{name} must be a number >= 0, got {v!r}")
     tol_px = tolerance_mm / s
     min_px = min_area_mm2 / (s * s)
-    canvas = layer_canvas(plan, n)
+    if canvas is None:
+        canvas = layer_canvas(plan, n)
+    elif np.shape(canvas) != (plan.height_px, plan.width_px):
+        raise ValueError(f"canvas must be the plan's raster, {plan.height_px} × {plan.width_px} px, "
+                         f"got shape {np.shape(canvas)}")
     strokes = plan.layers[n - 1].strokes
+    # wall mm of every half-pixel position, rounded once: contour points lie on that lattice
+    # (x = (k / 2)·s, the same float as from the contour's own coordinates)
+    x_mm = np.array([round((k - 1) / 2 * s, 1) for k in range(2 * plan.width_px + 3)])
+    y_mm = np.array([round((k - 1) / 2 * s, 1) for k in range(2 * plan.height_px + 3)])
     areas: list[dict[str, Any]] = []
-    for k in np.unique(canvas[canvas >= 0]):
-        paint = plan.palette[int(k)].id
-        labels, count = ndi.label(canvas == k)  # 4-connected, as find_contours traces them
-        if count == 0:
+    labels, value, size, top, bottom, left, right = _components(np.asarray(canvas, dtype=np.int16))
+    sums = _direction_sums(strokes, plan.paint_index(), labels, value, s)
+    ids = [p.id for p in plan.palette]
+    # paint by paint (palette order), each paint's areas in row order of their first pixel
+    order = np.argsort(value[1:], kind="stable") + 1
+    for lab in order[size[order] >= max(min_px, 1)].tolist():
+        paint = ids[value[lab]]
+        i0, j0 = int(top[lab]), int(left[lab])
+        crop = _crop_mask(labels, lab, i0, int(bottom[lab]), j0, int(right[lab]))
+        points, offsets = _trace(crop)
+        contours = []
+        for a, b in zip(offsets[:-1].tolist(), offsets[1:].tolist()):
+            c = simplify(points[a:b], tol_px)
+            if len(c) < 4:  # closed: first point repeated, so a triangle has 4
+                continue
+            xy = np.column_stack([(c[:, 1] - 1 + j0 + 0.5) * s, (c[:, 0] - 1 + i0 + 0.5) * s])
+            contours.append((-abs(_shoelace(xy)), len(contours), c))
+        if not contours:
             continue
-        sizes = np.bincount(labels.ravel(), minlength=count + 1)
-        dirs = _directions(strokes, paint, labels, s, count)
-        for lab, sl in enumerate(ndi.find_objects(labels), start=1):
-            if sl is None or sizes[lab] < max(min_px, 1):
-                continue
-            i0, j0 = sl[0].start, sl[1].start
-            crop = np.pad(labels[sl] == lab, 1)
-            contours = []
-            for c in measure.find_contours(crop.astype(np.float32), 0.5):
-                c = simplify(c, tol_px)
-                if len(c) < 4:  # closed: first point repeated, so a triangle has 4
-                    continue
-                xy = np.column_stack([(c[:, 1] - 1 + j0 + 0.5) * s, (c[:, 0] - 1 + i0 + 0.5) * s])
-                contours.append(xy)
-            if not contours:
-                continue
-            # the outside first: the contour enclosing the largest area
-            contours.sort(key=lambda xy: -abs(_shoelace(xy)))
-            dist = ndi.distance_transform_edt(crop)
-            li, lj = np.unravel_index(int(np.argmax(dist)), dist.shape)
-            angle, coherence = dirs[lab]
-            areas.append({
-                "paint": paint,
-                "area_mm2": round(float(sizes[lab]) * s * s, 1),
-                "contours_mm": [[[round(float(x), 1), round(float(y), 1)] for x, y in xy] for xy in contours],
-                "label_mm": [round((lj - 1 + j0 + 0.5) * s, 1), round((li - 1 + i0 + 0.5) * s, 1)],
-                "label_room_mm": round(float(dist[li, lj]) * s, 1),
-                "direction_deg": None if angle is None else round(angle, 1),
-                "coherence": round(coherence, 3),
-                "hint": _hint_word(angle, coherence),
-            })
+        # the outside first: the contour enclosing the largest area
+        contours.sort()
+        li, lj, d2 = _deepest(crop)
+        li, lj = np.intp(li), np.intp(lj)  # numpy integers, so label_mm rounds as it always has
+        angle, coherence = _direction(sums[lab])
+        areas.append({
+            "paint": paint,
+            "area_mm2": round(float(size[lab]) * s * s, 1),
+            "contours_mm": [[[x, y] for x, y in zip(x_mm[(2 * c[:, 1]).astype(np.int64) + 2 * j0].tolist(),
+                                                    y_mm[(2 * c[:, 0]).astype(np.int64) + 2 * i0].tolist())]
+                            for _, _, c in contours],
+            "label_mm": [round((lj - 1 + j0 + 0.5) * s, 1), round((li - 1 + i0 + 0.5) * s, 1)],
+            "label_room_mm": round(math.sqrt(d2) * s, 1),
+            "direction_deg": None if angle is None else round(angle, 1),
+            "coherence": round(coherence, 3),
+            "hint": _hint_word(angle, coherence),
+        })
     areas.sort(key=lambda a: (a["paint"], a["label_mm"][1], a["label_mm"][0]))
     return {"layer": int(n), "brush_width_mm": brush, "areas": areas}
 
@@ -242,50 +584,63 @@ def outline_maps(plan: Plan, **options) -> list[dict[str, Any]]:
 
 def _shoelace(xy: np.ndarray) -> float:
     x, y = xy[:, 0], xy[:, 1]
-    return 0.5 * float(np.dot(x, np.roll(y, -1)) - np.dot(y, np.roll(x, -1)))
+    return 0.5 * float(np.dot(x, np.concatenate((y[1:], y[:1]))) - np.dot(y, np.concatenate((x[1:], x[:1]))))
 
 
-def _directions(strokes, paint: str, labels: np.ndarray, s: float, count: int):
-    """Per area label: (mean stroke axis in degrees or None, coherence).
+def _direction_sums(strokes, paint_index: dict[str, int], labels: np.ndarray, value: np.ndarray,
+                    s: float) -> np.ndarray:
+    """Per area label, over the strokes of its paint that reach it: (Σ l·cos 2θ, Σ l·sin 2θ, Σ l).
 
-    Axes are averaged on doubled angles, weighted by segment length, so strokes run
-    either way along a line count alike (Mardia & Jupp, Directional Statistics, 2000).
+    ``θ`` is a segment's angle and ``l`` its length; strokes are added in file order.
     """
     h, w = labels.shape
-    acc = np.zeros((count + 1, 3))  # sum l·cos 2θ, sum l·sin 2θ, sum l
-    for st in strokes:
-        if st.paint != paint:
-            continue
-        p = np.asarray(st.path_mm, float).reshape(-1, 2)
+    count = len(value) - 1
+    acc = np.zeros((count + 1, 3))
+    if not strokes:
+        return acc
+    paths = [np.asarray(st.path_mm, float).reshape(-1, 2) for st in strokes]
+    d = np.zeros((len(paths), 3))
+    for k, p in enumerate(paths):
         if len(p) >= 2:
             v = np.diff(p, axis=0)
             seg = np.hypot(v[:, 0], v[:, 1])
             ok = seg > 0
             v, seg = v[ok], seg[ok]
-            d = np.array([np.sum((v[:, 0] ** 2 - v[:, 1] ** 2) / seg), np.sum(2 * v[:, 0] * v[:, 1] / seg),
-                          np.sum(seg)]) if len(seg) else np.zeros(3)
-            # sample along the path at most half a brush apart to find the areas it reaches
-            step = max(0.5 * st.width_mm, s)
-            samples = [p[:1]]
-            for a, b, l in zip(p[:-1], p[1:], np.hypot(*np.diff(p, axis=0).T)):
-                m = max(1, int(math.ceil(l / step)))
-                t = (np.arange(1, m + 1) / m)[:, None]
-                samples.append(a + t * (b - a))
-            samples = np.concatenate(samples)
-        else:
-            d = np.zeros(3)
-            samples = p
-        j = np.clip((samples[:, 0] / s).astype(int), 0, w - 1)
-        i = np.clip((samples[:, 1] / s).astype(int), 0, h - 1)
-        hit = np.unique(labels[i, j])
-        hit = hit[hit > 0]
-        acc[hit] += d
-    out = {}
-    for lab in range(1, count + 1):
-        c2, s2, total = acc[lab]
-        if total <= 0:
-            out[lab] = (None, 0.0)
-            continue
-        angle = (0.5 * math.degrees(math.atan2(s2, c2))) % 180.0
-        out[lab] = (angle, min(1.0, math.hypot(c2, s2) / total))
-    return out
+            if len(seg):
+                d[k] = (np.sum((v[:, 0] ** 2 - v[:, 1] ** 2) / seg), np.sum(2 * v[:, 0] * v[:, 1] / seg),
+                        np.sum(seg))
+    # sample along each path at most half a brush apart to find the areas it reaches
+    # (all strokes at once: the first point, then m evenly spaced points on each segment)
+    widths = np.array([st.width_mm for st in strokes], dtype=float)
+    paint = np.array([paint_index[st.paint] for st in strokes], dtype=np.int64)
+    counts = np.array([len(p) for p in paths])
+    pts = np.concatenate(paths)
+    last = np.cumsum(counts) - 1
+    a_ix = np.setdiff1d(np.arange(len(pts) - 1), last[:-1], assume_unique=True)
+    a, b = pts[a_ix], pts[a_ix + 1]
+    step = np.repeat(np.maximum(0.5 * widths, s), counts - 1)
+    m = np.maximum(1, np.ceil(np.hypot(*(b - a).T) / step)).astype(np.int64)
+    rep = np.repeat(np.arange(len(m)), m)
+    t = (np.arange(1, len(rep) + 1) - np.repeat(np.cumsum(m) - m, m)) / m[rep]
+    samples = np.concatenate([pts[last - counts + 1], a[rep] + t[:, None] * (b[rep] - a[rep])])
+    owner = np.concatenate([np.arange(len(paths)), np.repeat(np.repeat(np.arange(len(paths)), counts - 1), m)])
+    j = np.clip((samples[:, 0] / s).astype(int), 0, w - 1)
+    i = np.clip((samples[:, 1] / s).astype(int), 0, h - 1)
+    key = np.unique(owner * (count + 1) + labels[i, j])  # by stroke, then area
+    lab, who = key % (count + 1), key // (count + 1)
+    hit = (lab > 0) & (value[lab] == paint[who])  # an area of the stroke's own paint
+    np.add.at(acc, lab[hit], d[who[hit]])  # stroke by stroke, as adding them one at a time would
+    return acc
+
+
+def _direction(sums) -> tuple[float | None, float]:
+    """(mean stroke axis in degrees or None, coherence) from :func:`_direction_sums` of an area.
+
+    Axes are averaged on doubled angles, weighted by segment length, so strokes run
+    either way along a line count alike (Mardia & Jupp, Directional Statistics, 2000).
+    """
+    c2, s2, total = sums
+    if total <= 0:
+        return None, 0.0
+    angle = (0.5 * math.degrees(math.atan2(s2, c2))) % 180.0
+    return angle, min(1.0, math.hypot(c2, s2) / total)

@@ -606,6 +606,7 @@ def plan_html(
     outlines: list[dict[str, Any]] | None = None,
     paint_use: dict[str, Any] | None = None,
     title: str | None = None,
+    steps: list[np.ndarray] | None = None,
 ) -> str:
     """The printable plan as one self-contained HTML document.
 
@@ -625,6 +626,9 @@ def plan_html(
         else computed with the default options.
     title : str, optional
         Heading of the cover; default from the source image's name.
+    steps : list of (H, W) int arrays, optional
+        The wall after the ground and after each layer, as
+        :func:`layerplan.raster.render_steps` gives them; rendered if missing.
 
     Returns
     -------
@@ -634,14 +638,18 @@ def plan_html(
     ------
     ValueError
         If an image is not a PNG or cannot be read, the grid spacing is unusable, or the
-        outline maps do not match the plan's layers.
+        outline maps or steps do not match the plan's layers.
 
     References
     ----------
     ISO 216 (A4); ANSI/ASME Y14.1 (Letter); W3C CSS Paged Media and Fragmentation.
     """
     grid_mm = check_grid(plan, grid_mm)
-    steps = render_steps(plan)
+    if steps is None:
+        steps = render_steps(plan)
+    elif len(steps) != len(plan.layers) + 1 or any(np.shape(c) != (plan.height_px, plan.width_px) for c in steps):
+        raise ValueError(f"steps must be {len(plan.layers) + 1} canvases of {plan.height_px} × {plan.width_px} px "
+                         "(the ground, then each layer)")
     imgs = _load_images(plan, images, steps)
     if outlines is None:
         outlines = outline_maps(plan)

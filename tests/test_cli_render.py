@@ -96,3 +96,62 @@ def test_render_refuses_what_is_not_a_plan(planned, capsys):
     assert main(["render", str(tmp / "missing.json"), "--out", str(tmp / "x")]) == 2
     assert "is not a file" in capsys.readouterr().err
     assert not (tmp / "x").exists()
+
+
+def _tree(folder):
+    return {str(p.relative_to(folder)): p.read_bytes() for p in sorted(folder.rglob("*")) if p.is_file()}
+
+
+def test_render_is_byte_for_byte_repeatable(planned):
+    # same plan.json -> the same bytes in every file, also from another process with another
+    # string-hash seed (Python randomises str hashes per process unless PYTHONHASHSEED is set)
+    import os
+    import subprocess
+    import sys
+
+    tmp, out = planned
+    first, second = tmp / "again-1", tmp / "again-2"
+    for dest, seed in ((first, "1"), (second, "2")):
+        env = dict(os.environ, PYTHONHASHSEED=seed)
+        subprocess.run([sys.executable, "-m", "layerplan", "render", str(out / "plan.json"), "--out", str(dest),
+                        "--coverage", "8", "--waste", "10%", "--ground-coats", "3", "--grid", "20cm"],
+                       check=True, env=env, capture_output=True)
+    a, b = _tree(first), _tree(second)
+    assert sorted(a) == sorted(_tree(out)) and "steps/01.svg" in a and "plan.html" in a
+    assert a == b
+    assert a == _tree(out)  # the same options as `layerplan plan` had: the same files
+
+
+def test_step_pictures_follow_the_rendering_rule(planned):
+    # steps/NN.png is the wall after layer NN by the rendering rule (raster.render_steps),
+    # and final.png the wall after the last layer
+    from layerplan.plan import Plan
+    from layerplan.raster import render_steps
+
+    _, out = planned
+    plan = Plan.from_json((out / "plan.json").read_text())
+    rgb = plan.palette_rgb()
+    steps = render_steps(plan)
+    for n, canvas in enumerate(steps):
+        assert np.array_equal(np.asarray(Image.open(out / "steps" / f"{n:02d}.png").convert("RGB")), rgb[canvas])
+    assert np.array_equal(np.asarray(Image.open(out / "final.png").convert("RGB")), rgb[steps[-1]])
+
+
+@pytest.mark.parametrize("umask, mode", [(0o022, 0o755), (0o027, 0o750), (0o077, 0o700)])
+def test_finished_folder_mode_follows_the_umask(planned, umask, mode):
+    # POSIX mkdir(2): a new folder gets mode 0777 & ~umask; the finished plan folder must too,
+    # not the 0700 of its temporary folder (so a web server or another user can read it)
+    import os
+    import stat
+
+    tmp, out = planned
+    dest = tmp / f"mode-{umask:o}"
+    old = os.umask(umask)
+    try:
+        assert main(["render", str(out / "plan.json"), "--out", str(dest)]) == 0
+    finally:
+        os.umask(old)
+    assert stat.S_IMODE(dest.stat().st_mode) == mode
+    assert stat.S_IMODE((dest / "steps").stat().st_mode) == mode
+    assert stat.S_IMODE((dest / "plan.json").stat().st_mode) == mode & 0o666
+    assert not list(dest.glob(".mode*"))

@@ -175,3 +175,76 @@ def test_simplification_stays_within_tolerance_like_scikit_image():
             assert d.max() <= tol + 1e-9
             ref = approximate_polygon(c, tolerance=tol)
             assert abs(len(s) - len(ref)) <= max(2, 0.1 * len(ref))
+
+
+def _random_masks(seed, count):
+    """Binary images with a False border: noise of several densities (holes, saddles, diagonal touches)."""
+    rng = np.random.default_rng(seed)
+    for _ in range(count):
+        h, w = (int(v) for v in rng.integers(1, 30, 2))
+        m = np.zeros((h + 2, w + 2), bool)
+        m[1:-1, 1:-1] = rng.random((h, w)) < rng.uniform(0.2, 0.8)
+        yield m
+
+
+def test_tracing_matches_scikit_image_find_contours():
+    # the compiled marching squares must give what scikit-image's find_contours gives
+    # (Lorensen & Cline 1987): the same contours, in the same order, from the same start
+    # point in the same direction, since simplification depends on all of these
+    from skimage.measure import find_contours
+
+    from layerplan.outlines import _trace
+
+    for m in _random_masks(1, 400):
+        ref = find_contours(m.astype(np.float32), 0.5)
+        pts, off = _trace(m)
+        mine = [pts[a:b] for a, b in zip(off[:-1], off[1:])]
+        assert len(mine) == len(ref)
+        for a, b in zip(mine, ref):
+            np.testing.assert_array_equal(a, b)
+
+
+def test_deepest_point_matches_scipy_distance_transform():
+    # exact Euclidean distance transform (Felzenszwalb & Huttenlocher 2012) against scipy's
+    # distance_transform_edt: the same farthest pixel (first in row order) and distance
+    from scipy.ndimage import distance_transform_edt
+
+    from layerplan.outlines import _deepest
+
+    for m in _random_masks(2, 400):
+        d = distance_transform_edt(m)
+        i, j = np.unravel_index(int(np.argmax(d)), d.shape)
+        bi, bj, d2 = _deepest(m)
+        assert (bi, bj) == (i, j) and math.sqrt(d2) == d[i, j]
+
+
+def test_areas_match_scipy_label():
+    # 4-connected areas of equal value, all values at once, against scipy.ndimage.label on
+    # each value's mask: the same areas, numbered in the same order, same sizes and boxes
+    from scipy import ndimage as ndi
+
+    from layerplan.outlines import _components
+
+    rng = np.random.default_rng(3)
+    for _ in range(60):
+        canvas = rng.integers(-1, 4, size=tuple(int(v) for v in rng.integers(1, 40, 2))).astype(np.int16)
+        labels, value, size, i0, i1, j0, j1 = _components(canvas)
+        assert ((labels > 0) == (canvas >= 0)).all()
+        for k in range(4):
+            ref, count = ndi.label(canvas == k)
+            mine = np.flatnonzero(value == k)
+            mine = mine[mine > 0]
+            assert len(mine) == count
+            for n, (lab, sl) in enumerate(zip(mine, ndi.find_objects(ref)), start=1):
+                np.testing.assert_array_equal(labels == lab, ref == n)
+                assert size[lab] == (ref == n).sum()
+                assert (i0[lab], i1[lab], j0[lab], j1[lab]) == (sl[0].start, sl[0].stop, sl[1].start, sl[1].stop)
+
+
+def test_a_given_canvas_gives_the_same_map_and_a_wrong_one_is_named():
+    from layerplan.outlines import layer_canvas
+
+    plan = _random_plan(seed=2)
+    assert layer_outlines(plan, 2, canvas=layer_canvas(plan, 2)) == layer_outlines(plan, 2)
+    with pytest.raises(ValueError, match=r"canvas must be the plan's raster, 250 × 400 px, got shape \(10, 10\)"):
+        layer_outlines(plan, 1, canvas=np.zeros((10, 10), np.int16))

@@ -228,6 +228,23 @@ def test_images_given_are_used_and_checked(tmp_path):
         plan_html(plan, outlines=outline_maps(plan)[:1])
 
 
+
+def test_steps_given_are_used_and_checked():
+    # the wall after each layer, as the rendering rule gives it (raster.render_steps): given or
+    # rendered, the same plan; the "changed" share on each layer sheet comes from them
+    from layerplan.raster import render_steps
+
+    plan = _plan()
+    steps = render_steps(plan)
+    assert plan_html(plan, steps=steps) == plan_html(plan)
+    share = 100 * float(np.mean(steps[2] != steps[1]))
+    text = _parse(plan_html(plan, steps=steps)).section_text("layer-02")
+    assert f"change {share:.1f}".rstrip("0").rstrip(".") in text
+    with pytest.raises(ValueError, match=r"steps must be 3 canvases of 125 × 200 px \(the ground, then each layer\)"):
+        plan_html(plan, steps=steps[:2])
+    with pytest.raises(ValueError, match=r"steps must be 3 canvases"):
+        plan_html(plan, steps=[c[:10] for c in steps])
+
 def test_walls_in_feet_show_gallons():
     plan = _plan(unit="ft", w=12 * 304.8, h=8 * 304.8)
     doc = _parse(plan_html(plan, grid_mm=2 * 304.8))

@@ -136,3 +136,45 @@ def test_bad_grid_and_layer_are_named():
         overlay_svg(plan, grid_mm=10)
     with pytest.raises(ValueError, match=r"layer must be a number from 1 to 3, got 4"):
         layer_svg(plan, 4)
+
+
+def test_markup_characters_in_names_survive_the_xml_parser():
+    # XML 1.0 (W3C, Fifth Edition) 2.4 and 3.3.3: &, < and " must be escaped in attribute
+    # values and & and < in text; Python's own parser must read the original names back
+    odd = "P&<\"1>"
+    palette = [Paint(odd, "#f0e8d8", (92.6, 1.5, 7.5)), PALETTE[1]]
+    plan = Plan(1000.0, 1000.0, 100, 100, 10.0, palette, odd,
+                [Layer(40.0, [Stroke(odd, 40.0, np.array([[300.0, 400.0], [600.0, 400.0]])),
+                              Stroke("P2", 40.0, np.array([[300.0, 600.0], [600.0, 700.0]]))])])
+    root = ET.fromstring(overlay_svg(plan, outlines=outline_maps(plan), grid_mm=250))
+    assert root.find("svg:g[@id='ground']", NS).get("data-paint") == odd
+    assert odd in root.find("svg:g[@id='ground']/svg:title", NS).text
+    paths = root.findall("svg:g[@id='layer-01']/svg:path", NS)
+    assert [p.get("data-paint") for p in paths] == [odd, "P2"]
+    labels = [t.text for t in root.findall("svg:g[@id='outlines']//svg:text", NS)]
+    assert odd in labels and "P2" in labels
+
+
+def test_a_prepared_outline_draws_exactly_like_the_map():
+    from layerplan.svg import outline_map_svg, prepare_outline
+
+    plan = _plan()
+    maps = outline_maps(plan)
+    ready = [prepare_outline(plan, m) for m in maps]
+    assert all(r["areas"] is m["areas"] for r, m in zip(ready, maps))
+    assert overlay_svg(plan, outlines=ready, grid_mm=500) == overlay_svg(plan, outlines=maps, grid_mm=500)
+    assert layer_svg(plan, 3, outline=ready[2]) == layer_svg(plan, 3, outline=maps[2])
+    assert outline_map_svg(plan, ready[1]) == outline_map_svg(plan, maps[1])
+
+
+def test_numbers_are_written_with_at_most_two_decimals():
+    # Python's own float formatting (format spec ".2f", round half to even on the binary value)
+    # with trailing zeros dropped
+    from layerplan.svg import _f
+
+    values = [0.0, -0.0, -0.004, 0.005, 1.005, 2.675, 10.0, 100.10, -12.5, 1234.567, 3, 1e-9]
+    assert [_f(v) for v in values] == ["0", "0", "0", "0.01", "1", "2.67", "10", "100.1", "-12.5", "1234.57",
+                                       "3", "0"]
+    rng = np.random.default_rng(0)
+    more = np.concatenate([rng.uniform(-50, 5000, 2000), np.round(rng.uniform(-5, 5, 2000), 3)]).tolist()
+    assert all(float(_f(v)) == pytest.approx(round(v, 2), abs=1e-9) for v in more)
