@@ -151,7 +151,7 @@ def _settings_from_args(args, image_shape=None) -> Settings:
 
 
 def cmd_plan(args) -> int:
-    from .export import write_outputs
+    from .export import check_destination, write_outputs
     from .load import load_image
     from .pipeline import make_plan
     from .progress import TerminalBar
@@ -165,9 +165,10 @@ def cmd_plan(args) -> int:
     if settings.wall_width_mm / options["grid_mm"] > 200:  # layerplan.svg.MAX_GRID_LINES; height checked later
         raise UsageError(f"--grid {args.grid} is too fine for a {settings.wall_width_mm / 1000:g} m wide wall "
                          f"(at most 200 squares across)")
-    out = Path(args.out)
-    if out.exists() and not out.is_dir():
-        raise UsageError(f"--out {out} exists and is not a folder")
+    try:
+        out = check_destination(args.out)  # before the long work, not after it
+    except ValueError as exc:
+        raise UsageError(f"--out: {exc}") from exc
     if settings.inventory is not None:  # a bad paints file fails before the long work starts
         from .inventory import load_inventory
 

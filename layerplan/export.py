@@ -98,6 +98,23 @@ def _folder_mode(private: Path) -> int:
         probe.rmdir()
 
 
+def check_destination(out_dir) -> Path:
+    """Check that a plan may be written to ``out_dir`` (call it before long work too).
+
+    Raises
+    ------
+    ValueError
+        If ``out_dir`` is a file, or a folder that is neither empty nor an earlier plan.
+    """
+    out = Path(out_dir)
+    if out.exists():
+        if not out.is_dir():
+            raise ValueError(f"output {out} exists and is not a folder")
+        if any(out.iterdir()) and not (out / _MARKER).exists():
+            raise ValueError(f"output folder {out} is not empty and holds no plan; refusing to overwrite it")
+    return out
+
+
 def write_outputs(plan: Plan, out_dir, **options) -> Path:
     """Write all outputs of ``plan`` into ``out_dir``, atomically.
 
@@ -119,12 +136,7 @@ def write_outputs(plan: Plan, out_dir, **options) -> Path:
     ValueError
         If ``out_dir`` exists and is not a plan folder, or is a file; or a bad option.
     """
-    out = Path(out_dir)
-    if out.exists():
-        if not out.is_dir():
-            raise ValueError(f"output {out} exists and is not a folder")
-        if any(out.iterdir()) and not (out / _MARKER).exists():
-            raise ValueError(f"output folder {out} is not empty and holds no plan; refusing to overwrite it")
+    out = check_destination(out_dir)
     out.parent.mkdir(parents=True, exist_ok=True)
     files = build_files(plan, **options)
     tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.partial-", dir=out.parent))

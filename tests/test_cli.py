@@ -108,3 +108,17 @@ def test_setting_errors_name_the_option(photo, tmp_path, capsys, extra, flag):
 def test_mix_errors_name_the_option(capsys):
     assert main(["mix", "#808080", "--max-parts", "40"]) == 2
     assert "--max-parts: max parts must be a whole number from 1 to 30, got 40" in capsys.readouterr().err
+
+
+def test_a_wrong_out_folder_is_refused_before_planning(photo, tmp_path, capsys, monkeypatch):
+    import layerplan.pipeline
+
+    def never(*a, **k):
+        raise AssertionError("planned although the output folder was refused")
+
+    monkeypatch.setattr(layerplan.pipeline, "make_plan", never)
+    out = tmp_path / "mywork"
+    out.mkdir()
+    (out / "notes.txt").write_text("keep me")
+    assert main(["plan", str(photo), "--out", str(out), *ARGS]) == 2
+    assert "--out: output folder" in capsys.readouterr().err
