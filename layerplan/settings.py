@@ -22,8 +22,9 @@ MAX_BRUSHES = 8
 #: largest wall side we accept, mm (100 m: bigger than any mural wall we expect)
 MAX_WALL_MM = 100_000.0
 FITS = ("cover", "contain")
-#: ΔE00 a stroke must remove per (brush width)² of wall; chosen on the bench photos as the point where
-#: plans stay within 1.12 × the palette's floor with the fewest strokes (bench/results.md)
+#: ΔE00 a stroke must remove per (brush width)² of wall. Our choice between fidelity and work on the
+#: ladder: on the bench photos it keeps plans near 1.1 × the palette's floor with a fifth or less of the
+#: strokes of the Hertzmann (1998) baseline (bench/results.md); lower it for more detail, raise it for fewer strokes
 DEFAULT_STROKE_COST = 5.0
 
 
