@@ -87,9 +87,9 @@ def _add_output_options(p: argparse.ArgumentParser) -> None:
                    help="coats of each stroke (default %(default)s)")
     g.add_argument("--waste", default=f"{WASTE * 100:g}%",
                    help="extra paint to buy, as a fraction or a percentage: 0.15 or 15%% (default %(default)s)")
-    g.add_argument("--grid", default="50cm", metavar="LENGTH",
+    g.add_argument("--grid", default=None, metavar="LENGTH",
                    help="transfer-grid square with a unit, e.g. 50cm, 2ft (plain numbers are mm; "
-                        "default %(default)s)")
+                        "default 50cm, or 2ft for walls given in ft or in)")
 
 
 def _output_options(args) -> dict:
@@ -115,6 +115,9 @@ def _output_options(args) -> dict:
         for name, flag in names.items():
             msg = msg.replace(name, flag)
         raise UsageError(msg) from exc
+    if args.grid is None:  # the default: 50 cm, or 2 ft for walls in ft/in (layerplan.report.default_grid_mm)
+        return {"coverage_m2_per_litre": args.coverage, "waste": waste, "ground_coats": args.ground_coats,
+                "stroke_coats": args.stroke_coats, "grid_mm": None}
     m = re.fullmatch(r"\s*([0-9]*\.?[0-9]+)\s*([a-zA-Z]*)\s*", str(args.grid))
     try:
         if not m:
@@ -162,7 +165,8 @@ def cmd_plan(args) -> int:
         settings = settings.validated()
     except ValueError as exc:
         raise UsageError(cli_paints.name_option(str(exc))) from exc
-    if settings.wall_width_mm / options["grid_mm"] > 200:  # layerplan.svg.MAX_GRID_LINES; height checked later
+    # layerplan.svg.MAX_GRID_LINES; height checked later
+    if options["grid_mm"] is not None and settings.wall_width_mm / options["grid_mm"] > 200:
         raise UsageError(f"--grid {args.grid} is too fine for a {settings.wall_width_mm / 1000:g} m wide wall "
                          f"(at most 200 squares across)")
     try:

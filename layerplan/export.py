@@ -41,7 +41,7 @@ def build_files(plan: Plan, *, grid_mm: float | None = None, **options) -> dict[
     plan with the transfer grid and (hidden) outline maps; ``plan.html`` the printable plan.
     The quantities (``options``: coverage_m2_per_litre, waste, ground_coats, stroke_coats,
     containers) go into ``plan.extra["paint_use"]`` and so into plan.json. ``grid_mm`` is the
-    transfer-grid square (default 500 mm).
+    transfer-grid square (default 500 mm, or 2 ft for walls measured in ft or in).
 
     Raises
     ------
@@ -50,13 +50,14 @@ def build_files(plan: Plan, *, grid_mm: float | None = None, **options) -> dict[
     """
     from .outlines import layer_canvas, layer_outlines
     from .quantities import paint_use
-    from .report import GRID_MM, plan_html
+    from .report import default_grid_mm, plan_html
     from .svg import check_grid, layer_svg, overlay_svg, prepare_outline
 
     unknown = sorted(set(options) - set(QUANTITY_OPTIONS))
     if unknown:
         raise ValueError(f"unknown export option(s) {', '.join(unknown)}; valid: grid_mm, {', '.join(QUANTITY_OPTIONS)}")
-    grid_mm = check_grid(plan, GRID_MM if grid_mm is None else grid_mm)
+    unit = str((plan.extra.get("settings") or {}).get("wall_unit", "m"))
+    grid_mm = check_grid(plan, default_grid_mm(unit) if grid_mm is None else grid_mm)
     plan.extra["paint_use"] = paint_use(plan, **options)
     files: dict[str, bytes] = {}
     rgb = plan.palette_rgb()

@@ -28,8 +28,9 @@ unchanged whatever its strength. Leave it at 1 if you do not know it; compare ti
 each paint with white at the same ratio to set it (common practice).
 
 Unknown keys are refused (so a misspelt ``tinting_strenght`` is not silently ignored);
-every error names the file, the line of the ``[[paint]]`` header (where the paint has
-one), the paint's number and name, and the field.
+every error names the file, the line (of the faulty field where it is written on a line
+of its own, else of the paint's ``[[paint]]`` header), the paint's number and name, and
+the field.
 
 A default inventory ships with the package (``layerplan/data/default_inventory.toml``):
 a basic acrylic set for wall work, its colours approximate values from memory.
@@ -61,6 +62,8 @@ MAX_FILE_BYTES = 1_000_000
 _PAINT_KEYS = ("name", "srgb", "lab", "tinting_strength", "containers_l", "note")
 _TOP_KEYS = ("title", "paint")
 _HEADER_RE = re.compile(r"^\s*\[\[\s*paint\s*\]\]")
+#: a ``key = value`` line of a table (bare or quoted key; TOML 1.0, "Keys")
+_KEY_RE = re.compile(r"""^\s*(?:"([^"]+)"|'([^']+)'|([A-Za-z0-9_-]+))\s*=""")
 
 DEFAULT_INVENTORY_NAME = "default_inventory.toml"
 
@@ -219,26 +222,43 @@ def loads_inventory(text: str, *, source: str = "<inventory>") -> Inventory:
     if len(entries) > MAX_INVENTORY_PAINTS:
         raise InventoryError(f"{source}: {len(entries)} paints; at most {MAX_INVENTORY_PAINTS} are allowed")
 
-    header_lines = [n for n, line in enumerate(text.splitlines(), start=1) if _HEADER_RE.match(line)]
+    lines = text.splitlines()
+    header_lines = [n for n, line in enumerate(lines, start=1) if _HEADER_RE.match(line)]
     if len(header_lines) != len(entries):  # paints given inline: no line to point at
         header_lines = []
+    field_lines = _field_lines(lines, header_lines)
 
     paints: list[StockPaint] = []
     seen: dict[str, int] = {}
     for i, entry in enumerate(entries):
         line = header_lines[i] if header_lines else None
-        paint = _parse_paint(entry, i + 1, line, source)
+        paint = _parse_paint(entry, i + 1, line, source, field_lines=field_lines[i] if field_lines else None)
         key = paint.name.casefold()
         if key in seen:
             j = seen[key]
             where = f" (line {header_lines[j]})" if header_lines else ""
+            name_line = field_lines[i].get("name", line) if field_lines else line
             raise InventoryError(
-                f"{_where(source, i + 1, line, paint.name)}: field 'name': {paint.name!r} is already used by "
+                f"{_where(source, i + 1, name_line, paint.name)}: field 'name': {paint.name!r} is already used by "
                 f"paint {j + 1}{where}; names must differ (ignoring case)"
             )
         seen[key] = i
         paints.append(paint)
     return Inventory(paints=tuple(paints), title=title.strip(), source=source)
+
+
+def _field_lines(lines: list[str], header_lines: list[int]) -> list[dict[str, int]]:
+    """For each ``[[paint]]`` table, the 1-based line of each of its ``key = value`` lines."""
+    found: list[dict[str, int]] = []
+    for i, start in enumerate(header_lines):
+        end = header_lines[i + 1] - 1 if i + 1 < len(header_lines) else len(lines)
+        keys: dict[str, int] = {}
+        for n in range(start + 1, end + 1):  # the lines after the header, up to the next paint
+            m = _KEY_RE.match(lines[n - 1])
+            if m:
+                keys.setdefault(next(g for g in m.groups() if g is not None), n)
+        found.append(keys)
+    return found
 
 
 def _where(source: str, number: int, line: int | None, name: str | None) -> str:
@@ -247,12 +267,14 @@ def _where(source: str, number: int, line: int | None, name: str | None) -> str:
     return at + label
 
 
-def _parse_paint(entry: dict, number: int, line: int | None, source: str) -> StockPaint:
+def _parse_paint(entry: dict, number: int, line: int | None, source: str, *,
+                 field_lines: dict[str, int] | None = None) -> StockPaint:
     raw_name = entry.get("name")
     shown = raw_name.strip() if isinstance(raw_name, str) and raw_name.strip() else None
 
     def fail(fieldname: str, message: str) -> InventoryError:
-        return InventoryError(f"{_where(source, number, line, shown)}: field {fieldname!r}: {message}")
+        at = (field_lines or {}).get(fieldname, line)  # the field's own line, else the paint's header
+        return InventoryError(f"{_where(source, number, at, shown)}: field {fieldname!r}: {message}")
 
     for key in entry:
         if key not in _PAINT_KEYS:

@@ -644,3 +644,69 @@ def _direction(sums) -> tuple[float | None, float]:
         return None, 0.0
     angle = (0.5 * math.degrees(math.atan2(s2, c2))) % 180.0
     return angle, min(1.0, math.hypot(c2, s2) / total)
+
+
+def place_labels(
+    outline: dict[str, Any],
+    box_mm,
+    *,
+    min_area_mm2: float,
+    min_height: float = 0.6,
+    same_paint_gap: float = 1.0,
+    gap: float = 0.2,
+) -> dict[str, Any]:
+    """Decide which areas of an outline map get a label, so labels stay readable.
+
+    Greedy, largest area first. An area is left unlabelled (``"label": False``) when
+
+    * it is smaller than ``min_area_mm2`` (too small to show a shape under its label),
+    * it is thinner than ``min_height`` label heights (``2 · label_room_mm``: the label
+      would spill over its edges), or
+    * its label would overlap one already placed: boxes are kept ``gap`` label heights
+      apart, and labels of the same paint a further ``same_paint_gap`` label widths apart
+      (no "P5P5" where one paint's areas crowd together).
+
+    Parameters
+    ----------
+    outline : dict
+        An outline map (:func:`layer_outlines`).
+    box_mm : callable
+        ``box_mm(area) -> (half_width, half_height)`` of the area's label, mm of wall
+        (see :func:`layerplan.svg.label_box_mm`).
+    min_area_mm2 : float
+        Smallest area, mm² of wall, that gets a label (>= 0).
+    min_height, same_paint_gap, gap : float
+        As above (>= 0).
+
+    Returns
+    -------
+    outline : dict
+        A copy whose areas each carry ``"label"`` (bool); the contours are shared, not copied.
+
+    Raises
+    ------
+    ValueError
+        If an option is not a number >= 0.
+    """
+    for name, v in (("min_area_mm2", min_area_mm2), ("min_height", min_height),
+                    ("same_paint_gap", same_paint_gap), ("gap", gap)):
+        if isinstance(v, bool) or not isinstance(v, (int, float)) or not math.isfinite(v) or v < 0:
+            raise ValueError(f"{name} must be a number >= 0, got {v!r}")
+    areas = [dict(a) for a in outline["areas"]]
+    placed: list[tuple[str, float, float, float, float]] = []  # paint, x, y, half width, half height
+    for k in sorted(range(len(areas)), key=lambda k: -areas[k]["area_mm2"]):
+        a = areas[k]
+        bw, bh = box_mm(a)
+        x, y = a["label_mm"]
+        ok = a["area_mm2"] >= min_area_mm2 and 2.0 * a["label_room_mm"] >= min_height * 2.0 * bh
+        for paint, px, py, pw, ph in placed if ok else ():
+            pad = gap * max(bh, ph) * 2.0
+            pad_x = pad + (same_paint_gap * 2.0 * max(bw, pw) if paint == a["paint"] else 0.0)
+            pad_y = pad + (same_paint_gap * 2.0 * max(bh, ph) if paint == a["paint"] else 0.0)
+            if abs(x - px) < bw + pw + pad_x and abs(y - py) < bh + ph + pad_y:
+                ok = False
+                break
+        a["label"] = bool(ok)
+        if ok:
+            placed.append((a["paint"], x, y, bw, bh))
+    return {**outline, "areas": areas}

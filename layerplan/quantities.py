@@ -51,6 +51,12 @@ STROKE_COATS = 1
 LITRES_PER_US_GALLON = 3.785411784
 #: US quarts per US gallon (NIST Handbook 44, Appendix C)
 US_QUARTS_PER_GALLON = 4
+#: US fluid ounces per US gallon (NIST Handbook 44, Appendix C: 1 fl oz = 1/128 gal = 29.573 529 562 5 mL)
+US_FL_OZ_PER_GALLON = 128
+#: less than this of a paint is a trace amount, litres (10 mL, about two teaspoons: our choice). No
+#: container is worth buying for it alone: a squeeze from a tube or what is left in a pot will do, so
+#: entries below it carry ``"trace": True`` (their litres and containers stay as computed)
+TRACE_LITRES = 0.01
 #: container sizes paint is commonly sold in, litres (common practice in metric markets)
 COMMON_CONTAINERS_L: tuple[float, ...] = (0.25, 0.5, 1.0, 2.5, 5.0, 10.0)
 #: container sizes commonly sold in the US: quart, gallon, 5 gallons (common practice)
@@ -454,7 +460,9 @@ def paint_use(
         "stroke_area_m2", "strokes", "litres", "containers"}, ...],
         "stock": [{"paint", "litres", "for", "containers"}, ...]}``. For walls given
         in ft or in, every paint and stock entry also has ``us_gallons`` and
-        ``us_quarts``. ``stock`` is empty when no palette entry has a recipe.
+        ``us_quarts``. ``stock`` is empty when no palette entry has a recipe. Every
+        paint and stock entry has ``trace``: true when more than nothing but less than
+        :data:`TRACE_LITRES` is needed (too little to buy a container for).
 
     Raises
     ------
@@ -500,6 +508,7 @@ def paint_use(
             "strokes": int(n_strokes[k]),
             "litres": round(litres, 3),
             "containers": buy_containers(litres, _container_sizes(p.id, plan, containers, default_sizes)),
+            "trace": bool(0.0 < litres < TRACE_LITRES),
         }
         if us:
             entry.update(_us(litres))
@@ -517,6 +526,7 @@ def paint_use(
     for name in sorted(stock):
         s = stock[name]
         s["containers"] = buy_containers(s["litres"], _container_sizes(name, plan, containers, default_sizes))
+        s["trace"] = bool(0.0 < s["litres"] < TRACE_LITRES)
         s["litres"] = round(s["litres"], 3)
         if us:
             s.update(_us(s["litres"]))

@@ -30,14 +30,32 @@ from typing import Any, Mapping
 
 import numpy as np
 
-from .outlines import outline_maps
+from .outlines import outline_maps, place_labels
 from .plan import Plan
 from .raster import render_steps
-from .quantities import LITRES_PER_US_GALLON, US_UNITS, paint_use as compute_paint_use
-from .svg import check_grid, column_label, grid_over_image_svg, outline_map_svg
+from .quantities import (
+    LITRES_PER_US_GALLON,
+    TRACE_LITRES,
+    US_FL_OZ_PER_GALLON,
+    US_UNITS,
+    paint_use as compute_paint_use,
+)
+from .svg import check_grid, column_label, grid_over_image_svg, label_box_mm, outline_map_svg
 
 #: default transfer-grid square, mm (50 cm: a comfortable square to copy freehand; common practice)
 GRID_MM = 500.0
+#: default transfer-grid square for walls measured in ft or in, mm (2 ft, exact; common practice)
+GRID_MM_US = 2 * 304.8
+#: foot in metres, exact (international yard and pound agreement, 1959)
+M_PER_FT = 0.3048
+#: square feet in a square metre
+FT2_PER_M2 = 1.0 / (M_PER_FT * M_PER_FT)
+#: volumes under this are printed in millilitres, litres (0.1 L = 100 mL)
+ML_BELOW_L = 0.1
+#: an area of an outline map gets a label only when it covers at least this much of the
+#: printed page, mm² (3 × 3 mm, about a label's own size: smaller shapes vanish under their
+#: label; our choice); see :func:`layerplan.outlines.place_labels` for the other rules
+MIN_LABEL_PAPER_MM2 = 9.0
 #: printable width and height both A4 and Letter leave inside 12 mm margins, mm
 #: (A4 is 210 mm wide, Letter 279.4 mm tall: the box is 186 × 255.4 mm)
 PAGE_MARGIN_MM = 12.0
@@ -183,6 +201,11 @@ def _fit_box(plan: Plan, max_w_mm: float, max_h_mm: float) -> float:
     return min(max_w_mm, max_h_mm * aspect)
 
 
+def default_grid_mm(unit: str) -> float:
+    """The default transfer-grid square for a wall measured in ``unit``: 50 cm, or 2 ft for ft/in."""
+    return GRID_MM_US if unit in US_UNITS else GRID_MM
+
+
 def _length(mm: float, unit: str) -> str:
     if unit == "ft":
         inches = mm / MM_PER_INCH
@@ -197,26 +220,84 @@ def _length(mm: float, unit: str) -> str:
     return f"{_num(mm / 1000, 3)} m"
 
 
-def _containers(containers: list[dict[str, Any]], us: bool) -> str:
+def _is_trace(entry: Mapping[str, Any]) -> bool:
+    """Less than a trace amount (the ``trace`` flag, or worked out for older plan files)."""
+    if "trace" in entry:
+        return bool(entry["trace"])
+    return 0 < float(entry["litres"]) < TRACE_LITRES or (float(entry["litres"]) == 0 and bool(entry.get("for")))
+
+
+def _containers(containers: list[dict[str, Any]], us: bool, trace: bool = False) -> str:
     if not containers:
         return "—"
-    parts = []
-    for c in containers:
-        size = float(c["litres"])
-        label = None
-        if us:
-            for factor, word in ((0.25, "qt"), (1.0, "gal"), (5.0, "gal")):
-                if abs(size - factor * LITRES_PER_US_GALLON) < 5e-3:
-                    label = "1 qt" if word == "qt" else f"{_num(factor)} gal"
-        parts.append(f"{c['count']} × {label or _num(size, 3) + ' L'}")
-    return " + ".join(parts)
+    if trace:
+        return (f"trace: use what you have, or 1 × {_container_size(float(containers[-1]['litres']), us)} "
+                "(the smallest)")
+    return " + ".join(f"{c['count']} × {_container_size(float(c['litres']), us)}" for c in containers)
+
+
+def _container_size(size: float, us: bool) -> str:
+    if us:
+        for factor, word in ((0.25, "qt"), (1.0, "gal"), (5.0, "gal")):
+            if abs(size - factor * LITRES_PER_US_GALLON) < 5e-3:
+                return "1 qt" if word == "qt" else f"{_num(factor)} gal"
+    return _num(size, 3) + " L"
+
+
+def _litres(litres: float, us: bool, *, used: bool = False) -> str:
+    """A volume to read: litres from 0.1 L up, millilitres below ("35 mL"); US fluid
+    ounces or gallons beside for walls in ft/in. ``used``: more than nothing, even if it
+    rounds to 0."""
+    litres = float(litres)
+    if litres >= ML_BELOW_L - 5e-4:
+        text = f"{_num(litres, 2)} L"
+        if us:  # gallons from a gallon up, quarts from a quart, else fluid ounces (NIST HB 44, App. C)
+            gal = litres / LITRES_PER_US_GALLON
+            text += (f" ({_num(gal, 2)} gal = {_num(gal * 4, 1)} qt)" if gal >= 1 - 5e-3 else
+                     f" ({_num(gal * 4, 1)} qt)" if gal >= 0.25 - 5e-3 else
+                     f" ({_num(gal * US_FL_OZ_PER_GALLON, 1)} fl oz)")
+        return text
+    if litres <= 0 and not used:
+        return "0 L"
+    ml = litres * 1000.0
+    if ml < 0.5:
+        return "under 1 mL" + (" (under 0.1 fl oz)" if us else "")
+    text = f"{_num(ml, 0)} mL"
+    if us:
+        text += f" ({_num(litres / LITRES_PER_US_GALLON * US_FL_OZ_PER_GALLON, 1)} fl oz)"
+    return text
 
 
 def _volume(entry: dict[str, Any], us: bool) -> str:
-    text = f"{_num(entry['litres'], 2)} L"
-    if us and "us_gallons" in entry:
-        text += f" ({_num(entry['us_gallons'], 2)} gal = {_num(entry['us_quarts'], 1)} qt)"
+    used = bool(entry.get("trace") or entry.get("for") or entry.get("strokes") or entry.get("ground_area_m2"))
+    return _litres(entry["litres"], us, used=used)
+
+
+def _area(m2: float, unit: str) -> str:
+    """An area to read: m² (cm² under 0.1 m²), or ft² with m² beside for walls in ft/in."""
+    m2 = float(m2)
+    if unit in US_UNITS:
+        ft2 = m2 * FT2_PER_M2
+        if 0 < ft2 < 1:
+            return f"{_num(ft2 * 144, 0)} in² ({_num(m2 * 1e4, 0)} cm²)"
+        return f"{_num(ft2, 1)} ft² ({_num(m2, 2)} m²)"
+    if 0 < m2 < 0.1:
+        return f"{_num(m2 * 1e4, 0)} cm²"
+    return f"{_num(m2, 2)} m²"
+
+
+def _coverage(m2_per_litre: float, us: bool) -> str:
+    text = f"{_num(m2_per_litre, 1)} m² per litre"
+    if us:
+        text += f" (about {_num(m2_per_litre * FT2_PER_M2 * LITRES_PER_US_GALLON, 0)} ft² per US gallon)"
     return text
+
+
+def _lab_of(srgb: str) -> np.ndarray:
+    from .colour import srgb_to_lab
+
+    h = srgb.lstrip("#")
+    return srgb_to_lab(np.array([int(h[i:i + 2], 16) for i in (0, 2, 4)], dtype=np.uint8))
 
 
 def _swatch(srgb: str, *, big: bool = False) -> str:
@@ -272,6 +353,8 @@ td.num, th.num {{ text-align: right; white-space: nowrap; }}
 .swatch {{ display: inline-block; width: 7mm; height: 7mm; border: 0.3mm solid var(--ink);
           vertical-align: middle; border-radius: 1mm; }}
 .swatch.big {{ width: 14mm; height: 10mm; }}
+.pair {{ display: inline-flex; gap: 1mm; text-align: center; line-height: 1.1; }}
+.pair .swatch.big {{ width: 11mm; }}
 .pid {{ font-weight: 700; font-size: 11pt; }}
 .flag {{ color: var(--flag); font-weight: 700; }}
 .note {{ border: 0.4mm solid var(--ink); border-radius: 1.5mm; padding: 2mm 3mm; margin: 3mm 0;
@@ -307,32 +390,81 @@ def _figure(inner: str, width_mm: float, caption: str = "") -> str:
     return f'<figure style="width:{width_mm:.1f}mm">{inner}{cap}</figure>'
 
 
-def _cover(plan: Plan, imgs, title: str, use: dict[str, Any], unit: str) -> str:
-    w, h = plan.wall_width_mm, plan.wall_height_mm
-    fig_w = _fit_box(plan, PRINT_W_MM - 16, 110.0)
-    scale = w / fig_w
-    settings = plan.extra.get("settings") or {}
-    rows = []
-    labels = {"wall_width_mm": "wall width (mm)", "wall_height_mm": "wall height (mm)",
-              "wall_unit": "size given in", "fit": "fit to wall", "paints": "paints", "brushes_mm": "brushes (mm)",
-              "mm_per_px": "pixel size (mm)", "seed": "seed", "stroke_cost": "stroke cost"}
-    for key, value in settings.items():
-        if value is None:
-            value = "from the photo" if key == "wall_height_mm" else "automatic"
-        elif isinstance(value, (list, tuple)):
+def _settings_rows(plan: Plan, unit: str) -> list[tuple[str, str]]:
+    """The settings a plan was made with, in plain words."""
+    st = dict(plan.extra.get("settings") or {})
+    us = unit in US_UNITS
+    rows: list[tuple[str, str]] = []
+    w, h = st.pop("wall_width_mm", None), st.pop("wall_height_mm", None)
+    st.pop("wall_unit", None)
+    if w is not None:
+        rows.append(("surface as given", f"{_length(float(w), unit)} wide, "
+                     + (f"{_length(float(h), unit)} tall" if h is not None else "height from the photo")))
+    fit = st.pop("fit", None)
+    if fit is not None:
+        rows.append(("fit", {"cover": "fill the surface, crop the overhang",
+                             "contain": "whole photo inside, edges in the ground paint"}.get(fit, str(fit))))
+    asked = st.pop("paints", None)
+    free = st.pop("free_palette", None)
+    if asked is not None:
+        got = len(plan.palette)
+        text = f"{asked}" if got == asked else (
+            f"{asked} asked, {got} after merging colours that mix the same" if not free else
+            f"{asked} asked, {got} after merging colours that came out the same")
+        rows.append(("paints", text))
+    if "inventory" in st:
+        inv = st.pop("inventory")
+        rows.append(("paints mixed from", "basic acrylic set (built in)" if inv is None else Path(str(inv)).name))
+    if free is not None:
+        rows.append(("palette", "the photo's own colours" if free else "snapped to mixable colours"))
+    mix, parts = st.pop("mix_paints", None), st.pop("max_parts", None)
+    if mix is not None or parts is not None:
+        bits = ([f"{mix} paint{'s' if mix != 1 else ''}"] if mix is not None else []) \
+            + ([f"{parts} parts"] if parts is not None else [])
+        rows.append(("mixes", "at most " + " and ".join(bits) + " per mix"))
+    tol = st.pop("tolerance_de", None)
+    if tol is not None:
+        rows.append(("mix tolerance", f"ΔE00 {_num(tol, 1)}"))
+    brushes = st.pop("brushes_mm", None)
+    if brushes:
+        text = ", ".join(_num(b) for b in brushes) + " mm"
+        if us:
+            text += " (" + ", ".join(_num(b / MM_PER_INCH, 1) for b in brushes) + " in)"
+        rows.append(("brushes", text))
+    if "mm_per_px" in st:
+        v = st.pop("mm_per_px")
+        rows.append(("pixel size", f"{_num(plan.mm_per_px)} mm" + (" (automatic)" if v is None else "")))
+    cost = st.pop("stroke_cost", None)
+    if cost is not None:
+        rows.append(("stroke threshold", f"ΔE00 {_num(cost)} per brush-width square"))
+    seed = st.pop("seed", None)
+    if seed is not None:
+        rows.append(("random seed", str(seed)))
+    for key, value in st.items():  # anything newer than this page
+        if isinstance(value, (list, tuple)):
             value = ", ".join(_num(v) if isinstance(v, (int, float)) else str(v) for v in value)
         elif isinstance(value, float):
             value = _num(value)
-        rows.append(f"<tr><td>{_e(labels.get(key, key.replace('_', ' ')))}</td><td>{_e(value)}</td></tr>")
+        rows.append((key.replace("_", " "), "automatic" if value is None else str(value)))
+    return rows
+
+
+def _cover(plan: Plan, imgs, title: str, use: dict[str, Any], unit: str) -> str:
+    w, h = plan.wall_width_mm, plan.wall_height_mm
+    fig_w = _fit_box(plan, PRINT_W_MM - 16, 100.0)
+    scale = w / fig_w
+    us = unit in US_UNITS
+    rows = [f"<tr><td>{_e(k)}</td><td>{_e(v)}</td></tr>" for k, v in _settings_rows(plan, unit)]
     stats = plan.extra.get("stats") or {}
     source = (plan.extra.get("source") or {}).get("image")
     facts = [
         ("surface", f"{_length(w, unit)} × {_length(h, unit)}"
                     + (f" ({_num(w / 1000, 3)} × {_num(h / 1000, 3)} m)" if unit in US_UNITS else "")),
-        ("area", f"{_num(w * h / 1e6, 2)} m²"),
+        ("area", _area(w * h / 1e6, unit)),
         ("working picture", f"{plan.width_px} × {plan.height_px} px, 1 px = {_num(plan.mm_per_px)} mm of wall"),
-        ("picture above", f"1 mm on paper ≈ {_num(scale, 0)} mm on the wall (scale about 1:{_num(scale, 0)}) "
-                          f"when printed {_num(fig_w, 0)} mm wide"),
+        ("picture above", (f"1 in on paper ≈ {_length(scale * MM_PER_INCH, 'ft')} on the wall"
+                           if us else f"1 mm on paper ≈ {_num(scale, 0)} mm on the wall")
+                          + f" (scale about 1:{_num(scale, 0)}) when printed {_num(fig_w, 0)} mm wide"),
         ("paints", f"{len(plan.palette)} (ground: {plan.ground})"),
         ("layers", f"{len(plan.layers)}, brushes "
                    + ", ".join(f"{_num(l.brush_width_mm)} mm" for l in plan.layers)),
@@ -344,7 +476,7 @@ def _cover(plan: Plan, imgs, title: str, use: dict[str, Any], unit: str) -> str:
         facts.append(("match to the photo", f"mean ΔE00 {_num(stats['mean_delta_e_final'], 1)} "
                                             "(CIEDE2000; under about 2 reads as the same colour at a glance)"))
     total_l = sum(p["litres"] for p in use["paints"])
-    facts.append(("paint in all", f"about {_num(total_l, 1)} L"))
+    facts.append(("paint in all", f"about {_litres(total_l, us, used=True)}"))
     fact_rows = "".join(f"<tr><td>{_e(k)}</td><td>{_e(v)}</td></tr>" for k, v in facts)
     return f"""
 <section class="sheet" id="cover">
@@ -380,6 +512,8 @@ def _paint_card(plan: Plan, use: dict[str, Any], us: bool) -> str:
     any_recipe = False
     for p in plan.palette:
         recipe = p.extra.get("recipe")
+        name = f"{_e(colour_name(p.lab))}<br><span class='small'>{_e(p.srgb)}</span>"
+        swatches = _swatch(p.srgb, big=True)
         if recipe:
             any_recipe = True
             de = recipe.get("delta_e")
@@ -387,8 +521,22 @@ def _paint_card(plan: Plan, use: dict[str, Any], us: bool) -> str:
             mix = _recipe_text(recipe)
             de_text = "—" if de is None else _num(de, 1)
             if not in_gamut:
-                de_text += (' <span class="flag">out of reach</span><br><span class="small">closest mix '
-                            f'{_swatch(recipe.get("predicted_srgb", p.srgb))} shown</span>')
+                de_text += ' <span class="flag">out of reach</span>'
+            target = str(recipe.get("target") or p.srgb)
+            predicted = str(recipe.get("predicted_srgb") or p.srgb)
+            # the colour the photo wanted beside what the mix gives (the same when the mix is exact)
+            swatches = (f"<span class='pair'><span>{_swatch(target, big=True)}<br><span class='small'>photo"
+                        f"</span></span><span>{_swatch(predicted, big=True)}<br><span class='small'>mix</span>"
+                        "</span></span>")
+            if target.lower() != predicted.lower():
+                wanted = colour_name(p.lab if target.lower() == p.srgb.lower() else _lab_of(target))
+                mixed = colour_name(p.lab if predicted.lower() == p.srgb.lower() else _lab_of(predicted))
+                name = (f"{_e(mixed)}<br><span class='small'>mix {_e(predicted)}, photo {_e(target)}</span>"
+                        if wanted == mixed else
+                        f"mix: {_e(mixed)} <span class='small'>{_e(predicted)}</span><br>"
+                        f"photo: {_e(wanted)} <span class='small'>{_e(target)}</span>")
+                if p.srgb.lower() not in (target.lower(), predicted.lower()):
+                    name += f"<br><span class='small'>on the maps {_e(p.srgb)}</span>"
         else:
             mix, de_text = '<span class="small">no recipe: mix by eye to the swatch, or have it tinted</span>', "—"
         used = []
@@ -397,17 +545,22 @@ def _paint_card(plan: Plan, use: dict[str, Any], us: bool) -> str:
         if layers_of.get(p.id):
             used.append("layers " + ", ".join(str(n) for n in layers_of[p.id]))
         rows.append(
-            f'<tr id="paint-{_e(p.id)}"><td>{_swatch(p.srgb, big=True)}</td><td class="pid">{_e(p.id)}</td>'
-            f"<td>{_e(colour_name(p.lab))}<br><span class='small'>{_e(p.srgb)}</span></td>"
+            f'<tr id="paint-{_e(p.id)}"><td>{swatches}</td><td class="pid">{_e(p.id)}</td>'
+            f"<td>{name}</td>"
             f"<td>{mix}</td><td class='num'>{de_text}</td>"
             f"<td class='num'>{_e(_volume(litres[p.id], us))}</td><td>{_e('; '.join(used) or 'not used')}</td></tr>"
         )
     head = ("<tr><th></th><th>id</th><th>colour</th><th>mix (parts by volume)</th><th class='num'>ΔE00</th>"
             "<th class='num'>to mix</th><th>used for</th></tr>")
-    explain = ("ΔE00 is the CIEDE2000 difference between the planned colour and what the mix is predicted to "
-               "give (Kubelka–Munk mixing model); about 1 is barely visible, above 3 is plain to see. "
-               "<span class='flag'>Out of reach</span> means the paints on hand cannot get close: the nearest mix "
-               "is given — consider buying a closer stock colour." if any_recipe else
+    snapped = not (plan.extra.get("settings") or {}).get("free_palette", False)
+    explain = ("Swatches: <b>photo</b> is the colour the photo wanted there, <b>mix</b> what the recipe is "
+               "predicted to give (Kubelka–Munk mixing model). "
+               + ("The plan's pictures and maps use the mix colours (palette snapped to mixable colours). "
+                  if snapped else "The plan's pictures and maps use the photo's colours. ")
+               + "ΔE00 is the CIEDE2000 difference between the two; about 1 is barely visible, above 3 is "
+               "plain to see. <span class='flag'>Out of reach</span> means the paints on hand cannot get "
+               "closer: the nearest mix is given — consider buying a stock colour nearer the photo's."
+               if any_recipe else
                "No mix recipes in this plan: match each paint to its swatch by eye, or take the swatch "
                "(printed on paper, see the note below) to a paint shop for tinting.")
     return f"""
@@ -420,9 +573,10 @@ def _paint_card(plan: Plan, use: dict[str, Any], us: bool) -> str:
 </section>"""
 
 
-def _shopping(plan: Plan, use: dict[str, Any], us: bool) -> str:
+def _shopping(plan: Plan, use: dict[str, Any], unit: str) -> str:
+    us = unit in US_UNITS
     inv = {e.get("name"): e for e in (plan.extra.get("inventory") or []) if isinstance(e, Mapping)}
-    assumptions = (f"Worked out at {_num(use['coverage_m2_per_litre'], 1)} m² per litre per coat, "
+    assumptions = (f"Worked out at {_coverage(use['coverage_m2_per_litre'], us)} per coat, "
                    f"{use['ground_coats']} coat{'s' if use['ground_coats'] != 1 else ''} of ground, "
                    f"{use['stroke_coats']} coat{'s' if use['stroke_coats'] != 1 else ''} per stroke, "
                    f"plus {_num(use['waste'] * 100, 0)} % for spills and touch-ups. Check the spreading rate on "
@@ -433,18 +587,24 @@ def _shopping(plan: Plan, use: dict[str, Any], us: bool) -> str:
         for s in use["stock"]:
             sw = _swatch(inv[s["paint"]]["srgb"]) if s["paint"] in inv and inv[s["paint"]].get("srgb") else ""
             rows.append(f"<tr><td>{sw} {_e(s['paint'])}</td><td class='num'>{_e(_volume(s, us))}</td>"
-                        f"<td>{_e(_containers(s['containers'], us))}</td><td>{_e(', '.join(s['for']))}</td></tr>")
+                        f"<td>{_e(_containers(s['containers'], us, _is_trace(s)))}</td>"
+                        f"<td>{_e(', '.join(s['for']))}</td></tr>")
         out.append("<h3>Stock paints to buy</h3><table class='stock compact'><tr><th>paint</th><th class='num'>needed</th>"
                    f"<th>buy</th><th>goes into</th></tr>{''.join(rows)}</table>")
     rows = []
     for p, e in zip(plan.palette, use["paints"]):
         how = "mix from stock" if p.extra.get("recipe") else "buy tinted, or mix"
-        buy = "—" if p.extra.get("recipe") else _containers(e["containers"], us)
+        buy = "—" if p.extra.get("recipe") else _containers(e["containers"], us, _is_trace(e))
         rows.append(f"<tr><td>{_swatch(p.srgb)} <span class='pid'>{_e(p.id)}</span></td>"
-                    f"<td class='num'>{_e(_num(e['area_m2'], 2))} m²</td><td class='num'>{_e(_volume(e, us))}</td>"
+                    f"<td class='num'>{_e(_area(e['area_m2'], unit))}</td><td class='num'>{_e(_volume(e, us))}</td>"
                     f"<td>{_e(how)}</td><td>{_e(buy)}</td></tr>")
     out.append("<h3>Each paint of the plan</h3><table class='mixed compact'><tr><th>paint</th><th class='num'>area</th>"
-               f"<th class='num'>litres</th><th>how</th><th>containers</th></tr>{''.join(rows)}</table>")
+               f"<th class='num'>amount</th><th>how</th><th>containers</th></tr>{''.join(rows)}</table>")
+    if any(_is_trace(e) for e in list(use.get("stock") or []) + list(use["paints"])):
+        out.append(f"<p class='small'>A <b>trace amount</b> is under {_litres(TRACE_LITRES, us)}: too little to "
+                   "buy a container for. A squeeze from an artist's tube or what is left in a pot will do; buy "
+                   "the smallest container only if you have none. Mix small amounts by measuring the parts "
+                   "with a spoon or a syringe.</p>")
     extra = ("<h3>Also</h3><ul><li>primer or sealer if the wall is new plaster, bare or patchy</li>"
              "<li>clear exterior or anti-graffiti varnish for outdoor walls (follow the maker's guidance)</li>"
              "<li>mixing tubs with lids and labels (write the paint id on each), stirrers, a measuring cup for "
@@ -459,7 +619,7 @@ def _shopping(plan: Plan, use: dict[str, Any], us: bool) -> str:
 </section>"""
 
 
-def _brushes(plan: Plan, use: dict[str, Any]) -> str:
+def _brushes(plan: Plan, use: dict[str, Any], us: bool = False) -> str:
     rows = []
     ground = next(p for p in use["paints"] if p["paint"] == plan.ground)
     ground_s = ground["ground_area_m2"] * max(use["ground_coats"], 0) / GROUND_M2_PER_HOUR * 3600.0
@@ -487,7 +647,8 @@ def _brushes(plan: Plan, use: dict[str, Any]) -> str:
   differ, so time the first few square metres and scale): about {_num(SECONDS_PER_STROKE)} s per stroke to load,
   place and lift the brush, plus 1 s for every {_num(STROKE_MM_PER_SECOND / 10)} cm the brush travels, plus
   {_num(PAINT_CHANGE_SECONDS / 60)} min to wash out and reload at each change of paint; the ground at about
-  {_num(GROUND_M2_PER_HOUR)} m² per hour per coat with a roller (common practice).</p>
+  {_num(GROUND_M2_PER_HOUR)} m²{f" ({_num(GROUND_M2_PER_HOUR * FT2_PER_M2, 0)} ft²)" if us else ""} per hour per
+  coat with a roller (common practice).</p>
 </section>"""
 
 
@@ -510,8 +671,9 @@ def _grid_section(plan: Plan, imgs, grid_mm: float, unit: str) -> str:
   <h2>Transfer grid</h2>
   <p class="lead">Each square is {_e(side)} × {_e(side)} on the wall: {nx} columns (A–{column_label(nx - 1)}, from
   the left) by {ny} rows (1–{ny}, from the top).{_e(part)}</p>
-  {_figure(svg, fig_w, f"The finished picture under the grid; 1 mm on paper ≈ "
-                        f"{_num(plan.wall_width_mm / fig_w, 0)} mm on the wall.")}
+  {_figure(svg, fig_w, "The finished picture under the grid; " + (
+      f"1 in on paper ≈ {_length(plan.wall_width_mm / fig_w * MM_PER_INCH, 'ft')} on the wall." if unit in US_UNITS
+      else f"1 mm on paper ≈ {_num(plan.wall_width_mm / fig_w, 0)} mm on the wall."))}
   <p>Mark the same grid on the wall after the ground has dried: measure from one top corner, snap chalk lines
   or draw light pencil lines with a level, and write the column letters and row numbers small in the corners.
   Then copy the picture square by square, using where lines cross the squares' edges as guides
@@ -519,7 +681,8 @@ def _grid_section(plan: Plan, imgs, grid_mm: float, unit: str) -> str:
 </section>"""
 
 
-def _layer_section(plan: Plan, n: int, imgs, outline: dict[str, Any], steps_changed: float) -> str:
+def _layer_section(plan: Plan, n: int, imgs, outline: dict[str, Any], steps_changed: float, *,
+                   grid_mm: float, unit: str = "m") -> str:
     layer = plan.layers[n - 1]
     order_ix = plan.paint_index()
     count: dict[str, int] = {}
@@ -538,8 +701,23 @@ def _layer_section(plan: Plan, n: int, imgs, outline: dict[str, Any], steps_chan
             f"<tr><td>{_swatch(plan.paint(pid).srgb)} <b>{_e(pid)}</b></td>"
             f"<td class='num'>{count.get(pid, 0)}</td>"
             f"<td class='num'>{sum(1 for a in outline['areas'] if a['paint'] == pid)}</td>"
-            f"<td class='num'>{_num(sum(d.values()) / 1e6, 2)} m²</td>"
+            f"<td class='num'>{_e(_area(sum(d.values()) / 1e6, unit))}</td>"
             f"<td class='hint'>{_e(max(d, key=d.get) if d else '—')}</td></tr>")
+    # labels: only where the shape is big enough on this page and the label clears the others
+    paper = map_w / plan.wall_width_mm  # paper mm per wall mm
+    labelled = place_labels(outline, lambda a: label_box_mm(plan, a),
+                            min_area_mm2=MIN_LABEL_PAPER_MM2 / (paper * paper))
+    unlabelled = sum(1 for a in labelled["areas"] if not a["label"])
+    blank = (f"Blank (white) areas get no paint in this layer: the ground, {plan.ground}, stays showing there."
+             if n == 1 else f"Blank (white) areas get no paint in this layer: what layer {n - 1} left stays "
+                            "showing there.")
+    caption = ("Where each paint shows once this layer is done, labelled with the paint id; short lines show "
+               "which way the strokes run. " + blank + " The faint grid is the transfer grid (same letters "
+               "and numbers as on the transfer-grid page). Areas smaller than a quarter of a brush square "
+               "are left off"
+               + (f"; {unlabelled} area{'s' if unlabelled != 1 else ''} smaller than about 3 × 3 mm on this page, "
+                  "or crowded by a nearby label, carry no label: their colour tells the paint." if unlabelled
+                  else "."))
     before = "the ground" if n == 1 else f"layer {n - 1}"
     order = " → ".join(dict.fromkeys(s.paint for s in layer.strokes))
     new = (f"{len(layer.strokes)} strokes change {_num(steps_changed * 100, 1)} % of the wall "
@@ -547,7 +725,8 @@ def _layer_section(plan: Plan, n: int, imgs, outline: dict[str, Any], steps_chan
            else "This layer has no strokes.")
     return f"""
 <section class="sheet layer" id="layer-{n:02d}">
-  <h2>Layer {n} of {len(plan.layers)} — {_e(_num(layer.brush_width_mm))} mm brush</h2>
+  <h2>Layer {n} of {len(plan.layers)} — {_e(_num(layer.brush_width_mm))} mm brush{
+      f" (≈ {_num(layer.brush_width_mm / MM_PER_INCH, 1)} in)" if unit in US_UNITS else ""}</h2>
   <p class="lead">{_e(new)}</p>
   <div class="layer-top">
   {_figure(f'<img alt="the wall after layer {n}" src="{_png_uri(imgs[f"steps/{n:02d}"])}">', pic_w,
@@ -555,9 +734,7 @@ def _layer_section(plan: Plan, n: int, imgs, outline: dict[str, Any], steps_chan
   <table class="compact"><tr><th>paint</th><th class="num">strokes</th><th class="num">areas</th>
   <th class="num">showing</th><th>strokes run</th></tr>{''.join(rows)}</table>
   </div>
-  {_figure(outline_map_svg(plan, outline), map_w,
-           "Where each paint shows once this layer is done, labelled with the paint id; short lines show "
-           "which way the strokes run. Areas smaller than a quarter of a brush square are left off.")}
+  {_figure(outline_map_svg(plan, labelled, grid_mm=grid_mm), map_w, _e(caption))}
 </section>"""
 
 
@@ -602,7 +779,7 @@ def plan_html(
     plan: Plan,
     *,
     images: Mapping[str, Any] | None = None,
-    grid_mm: float = GRID_MM,
+    grid_mm: float | None = None,
     outlines: list[dict[str, Any]] | None = None,
     paint_use: dict[str, Any] | None = None,
     title: str | None = None,
@@ -617,8 +794,9 @@ def plan_html(
         PNG pictures as bytes or file paths: ``"final"`` (the finished picture) and
         ``"steps/NN"`` (the wall after layer NN; ``steps/00`` is the ground), with or
         without ``.png``. Any missing picture is rendered from the plan.
-    grid_mm : float
-        Transfer-grid square, mm of wall (default 500 mm).
+    grid_mm : float, optional
+        Transfer-grid square, mm of wall; default :func:`default_grid_mm` (500 mm, or
+        2 ft = 609.6 mm for walls measured in ft or in).
     outlines : list of dict, optional
         Outline maps (:func:`layerplan.outlines.outline_maps`); computed if missing.
     paint_use : dict, optional
@@ -644,7 +822,8 @@ def plan_html(
     ----------
     ISO 216 (A4); ANSI/ASME Y14.1 (Letter); W3C CSS Paged Media and Fragmentation.
     """
-    grid_mm = check_grid(plan, grid_mm)
+    unit = str((plan.extra.get("settings") or {}).get("wall_unit", "m"))
+    grid_mm = check_grid(plan, default_grid_mm(unit) if grid_mm is None else grid_mm)
     if steps is None:
         steps = render_steps(plan)
     elif len(steps) != len(plan.layers) + 1 or any(np.shape(c) != (plan.height_px, plan.width_px) for c in steps):
@@ -658,7 +837,6 @@ def plan_html(
     use = paint_use or plan.extra.get("paint_use") or compute_paint_use(plan)
     if {p["paint"] for p in use["paints"]} != set(plan.paint_index()):
         raise ValueError("paint_use does not list the same paints as the plan's palette")
-    unit = str((plan.extra.get("settings") or {}).get("wall_unit", "m"))
     us = unit in US_UNITS
     if title is None:
         source = (plan.extra.get("source") or {}).get("image")
@@ -668,10 +846,11 @@ def plan_html(
     body = [
         _cover(plan, imgs, title, use, unit),
         _paint_card(plan, use, us),
-        _shopping(plan, use, us),
-        _brushes(plan, use),
+        _shopping(plan, use, unit),
+        _brushes(plan, use, us),
         _grid_section(plan, imgs, grid_mm, unit),
-        *(_layer_section(plan, n, imgs, outlines[n - 1], changed[n - 1]) for n in range(1, len(plan.layers) + 1)),
+        *(_layer_section(plan, n, imgs, outlines[n - 1], changed[n - 1], grid_mm=grid_mm, unit=unit)
+          for n in range(1, len(plan.layers) + 1)),
         _safety(),
     ]
     return ("<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n"

@@ -31,6 +31,11 @@ MAX_GRID_LINES = 200
 INK = "#1a1a1a"
 #: what outline fills show of the paint colour (light enough to read the labels)
 OUTLINE_FILL_OPACITY = 0.45
+#: a faint transfer grid (drawn over outline maps to find where a shape goes): line and label opacity
+FAINT_GRID_OPACITY = (0.35, 0.75)
+#: width of a label's text per character, in font sizes (sans-serif capitals and digits run
+#: 0.55-0.67 em; from memory), for keeping direction ticks and other labels off it
+LABEL_EM_PER_CHAR = 0.62
 
 
 def _f(v: float) -> str:
@@ -108,7 +113,7 @@ def _layer_group(dwg, plan: Plan, n: int):
     return g
 
 
-def _grid_group(dwg, plan: Plan, grid_mm: float):
+def _grid_group(dwg, plan: Plan, grid_mm: float, *, faint: bool = False):
     grid_mm = check_grid(plan, grid_mm)
     w, h = plan.wall_width_mm, plan.wall_height_mm
     line = max(w, h) / 800.0
@@ -116,7 +121,7 @@ def _grid_group(dwg, plan: Plan, grid_mm: float):
     g = dwg.g(id="grid", **{"data-spacing-mm": _f(grid_mm)})
     g.set_desc(title=f"Transfer grid: {_f(grid_mm / 10)} cm squares; columns A, B, … from the left, "
                      f"rows 1, 2, … from the top")
-    lines = dwg.g(stroke=INK, stroke_width=_f(line), stroke_opacity="0.8")
+    lines = dwg.g(stroke=INK, stroke_width=_f(line), stroke_opacity=str(FAINT_GRID_OPACITY[0]) if faint else "0.8")
     nx, ny = math.ceil(w / grid_mm - 1e-9), math.ceil(h / grid_mm - 1e-9)
     for i in range(nx + 1):
         x = min(i * grid_mm, w)
@@ -127,6 +132,9 @@ def _grid_group(dwg, plan: Plan, grid_mm: float):
     g.add(lines)
     labels = dwg.g(fill=INK, font_size=_f(font), font_family="sans-serif", stroke="#ffffff",
                    stroke_width=_f(font * 0.18), **{"paint-order": "stroke", "text-anchor": "middle"})
+    if faint:
+        labels["opacity"] = str(FAINT_GRID_OPACITY[1])
+        g["class"] = "faint"
     for i in range(nx):
         cx = (i + 0.5) * grid_mm if (i + 1) * grid_mm <= w else (i * grid_mm + w) / 2
         labels.add(dwg.text(column_label(i), insert=(_f(cx), _f(font * 1.1))))
@@ -137,7 +145,21 @@ def _grid_group(dwg, plan: Plan, grid_mm: float):
     return g
 
 
-def _outline_group(dwg, plan: Plan, outline: dict[str, Any], *, hidden: bool = False, fill: bool = True):
+def label_font_mm(plan: Plan, area: dict[str, Any]) -> float:
+    """Font size (mm of wall) of an outline-map label: readable (about 5-9 pt) when the
+    whole wall is printed 15-18 cm across, bigger in roomier areas."""
+    lo, hi = max(plan.wall_width_mm, plan.wall_height_mm) / 95.0, max(plan.wall_width_mm, plan.wall_height_mm) / 50.0
+    return min(max(area["label_room_mm"] * 1.2, lo), hi)
+
+
+def label_box_mm(plan: Plan, area: dict[str, Any]) -> tuple[float, float]:
+    """Half width and half height (mm of wall) of an area's label text."""
+    font = label_font_mm(plan, area)
+    return 0.5 * LABEL_EM_PER_CHAR * font * len(str(area["paint"])), 0.5 * font
+
+
+def _outline_group(dwg, plan: Plan, outline: dict[str, Any], *, hidden: bool = False, fill: bool = True,
+                   grid_mm: float | None = None):
     n = int(outline["layer"])
     colours = {p.id: p.srgb for p in plan.palette}
     w, h = plan.wall_width_mm, plan.wall_height_mm
@@ -154,19 +176,27 @@ def _outline_group(dwg, plan: Plan, outline: dict[str, Any], *, hidden: bool = F
                             fill_opacity=str(OUTLINE_FILL_OPACITY) if fill else "1",
                             **{"fill-rule": "evenodd", "data-paint": a["paint"]}))
     g.add(shapes)
+    if grid_mm is not None:  # over the shapes, under the labels
+        g.add(_grid_group(dwg, plan, grid_mm, faint=True))
     hints = dwg.g(stroke=INK, stroke_width=_f(line * 2.5), stroke_linecap="round", fill="none")
     labels = dwg.g(fill=INK, font_family="sans-serif", stroke="#ffffff",
                    **{"paint-order": "stroke", "text-anchor": "middle"})
-    # label sizes: readable (about 5-9 pt) when the whole wall is printed 15-18 cm across
-    lo, hi = max(w, h) / 95.0, max(w, h) / 50.0
     for a in outline["areas"]:
+        if a.get("label") is False:  # left unlabelled (see layerplan.outlines.place_labels)
+            continue
         x, y = a["label_mm"]
-        font = min(max(a["label_room_mm"] * 1.2, lo), hi)
+        font = label_font_mm(plan, a)
         if a["direction_deg"] is not None and a["hint"] != "mixed":
-            half = max(a["label_room_mm"], 1.2 * font)
+            # a tick each side of the label, leaving the text clear
             t = math.radians(a["direction_deg"])
-            dx, dy = half * math.cos(t), half * math.sin(t)
-            hints.add(dwg.line(start=(_f(x - dx), _f(y - dy)), end=(_f(x + dx), _f(y + dy))))
+            c, sn = math.cos(t), math.sin(t)
+            bw, bh = label_box_mm(plan, a)
+            gap = min(bw / abs(c) if abs(c) > 1e-9 else math.inf, bh / abs(sn) if abs(sn) > 1e-9 else math.inf)
+            gap += 0.25 * font
+            half = max(a["label_room_mm"], gap + 0.8 * font)
+            for sign in (-1.0, 1.0):
+                hints.add(dwg.line(start=(_f(x + sign * gap * c), _f(y + sign * gap * sn)),
+                                   end=(_f(x + sign * half * c), _f(y + sign * half * sn))))
         labels.add(dwg.text(a["paint"], insert=(_f(x), _f(y + font * 0.35)), font_size=_f(font),
                             stroke_width=_f(font * 0.2)))
     g.add(hints)
@@ -267,12 +297,13 @@ def layer_svg(plan: Plan, n: int, *, grid_mm: float | None = None,
     return dwg.tostring()
 
 
-def outline_map_svg(plan: Plan, outline: dict[str, Any]) -> str:
-    """An outline map alone, sized to its container (for embedding in plan.html)."""
+def outline_map_svg(plan: Plan, outline: dict[str, Any], *, grid_mm: float | None = None) -> str:
+    """An outline map alone, sized to its container (for embedding in plan.html); with
+    ``grid_mm``, the transfer grid drawn faintly over the shapes, under the labels."""
     dwg = _drawing(plan, responsive=True)
     dwg.add(dwg.rect(insert=(0, 0), size=(_f(plan.wall_width_mm), _f(plan.wall_height_mm)), fill="#ffffff",
                      stroke=INK, stroke_width=_f(max(plan.wall_width_mm, plan.wall_height_mm) / 500)))
-    dwg.add(_outline_group(dwg, plan, outline))
+    dwg.add(_outline_group(dwg, plan, outline, grid_mm=grid_mm))
     return dwg.tostring()
 
 

@@ -11,10 +11,14 @@
     return n >= 1e6 ? (n / 1e6).toFixed(1) + " MB" : Math.max(1, Math.round(n / 1e3)) + " kB";
   }
 
+  var kept = document.getElementById("upload_token");  // a photo the server kept from the last try
+
   function showPhoto() {
     var file = input.files && input.files[0];
     if (lastUrl) { URL.revokeObjectURL(lastUrl); lastUrl = null; }
+    if (!file && kept) { return; }  // keep showing the kept photo
     if (!file) { preview.hidden = true; hint.hidden = false; info.textContent = ""; return; }
+    if (kept) { kept.remove(); kept = null; input.required = true; }  // the new photo replaces it
     lastUrl = URL.createObjectURL(file);
     preview.onload = function () {
       info.textContent = file.name + " \u2014 " + preview.naturalWidth + " \u00d7 " + preview.naturalHeight +

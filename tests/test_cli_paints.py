@@ -129,4 +129,4 @@ def test_a_bad_inventory_file_is_named_with_its_line(capsys, tmp_path):
     f.write_text('[[paint]]\nname = "White"\nsrgb = "#fff"\n\n[[paint]]\nname = "Grey"\nsrgb = "#80808"\n')
     code, out, err = run(capsys, "mix", "#808080", "--inventory", str(f))
     assert code == 2 and out == ""
-    assert "bad.toml: line 5: paint 2 ('Grey'): field 'srgb': not a hex colour" in err
+    assert "bad.toml: line 7: paint 2 ('Grey'): field 'srgb': not a hex colour" in err

@@ -96,10 +96,10 @@ PAINT = '[[paint]]\nname = "White"\nsrgb = "#ffffff"\n'
         ('paint = "White"\n', r"kit\.toml: 'paint' must be a list of \[\[paint\]\] tables"),
         ("title = 3\n" + PAINT, r"'title' must be text"),
         (PAINT + '\n[[paint]]\nsrgb = "#000000"\n', r"kit\.toml: line 5: paint 2: field 'name': missing"),
-        (PAINT + '\n[[paint]]\nname = "  "\nsrgb = "#000000"\n', r"line 5: paint 2: field 'name': must be non-empty"),
+        (PAINT + '\n[[paint]]\nname = "  "\nsrgb = "#000000"\n', r"line 6: paint 2: field 'name': must be non-empty"),
         ('[[paint]]\nname = "A=B"\nsrgb = "#000000"\n', r"field 'name': may not contain '='"),
         (PAINT + '\n[[paint]]\nname = "Black"\nsrgb = "#00zz00"\n',
-         r"kit\.toml: line 5: paint 2 \('Black'\): field 'srgb': not a hex colour \(#rrggbb\): '#00zz00'"),
+         r"kit\.toml: line 7: paint 2 \('Black'\): field 'srgb': not a hex colour \(#rrggbb\): '#00zz00'"),
         ('[[paint]]\nname = "Black"\nsrgb = 0\n', r"field 'srgb': must be a text hex colour"),
         ('[[paint]]\nname = "Black"\n', r"paint 1 \('Black'\): field 'srgb': give exactly one of 'srgb'"),
         ('[[paint]]\nname = "Black"\nsrgb = "#000"\nlab = [0, 0, 0]\n', r"give exactly one of 'srgb'"),
@@ -116,7 +116,7 @@ PAINT = '[[paint]]\nname = "White"\nsrgb = "#ffffff"\n'
         ('[[paint]]\nname = "Grey"\nsrgb = "#808080"\ntinting_strenght = 2\n',
          r"paint 1 \('Grey'\): field 'tinting_strenght': unknown field"),
         (PAINT + '\n[[paint]]\nname = "white"\nsrgb = "#fefefe"\n',
-         r"line 5: paint 2 \('white'\): field 'name': 'white' is already used by paint 1 \(line 1\)"),
+         r"line 6: paint 2 \('white'\): field 'name': 'white' is already used by paint 1 \(line 1\)"),
         ('paint = [{name = "White", srgb = "#fff"}, {name = "Black", srgb = "black"}]\n',
          r"kit\.toml: paint 2 \('Black'\): field 'srgb': not a hex colour"),
     ],
@@ -124,6 +124,20 @@ PAINT = '[[paint]]\nname = "White"\nsrgb = "#ffffff"\n'
 def test_each_documented_error_names_file_line_entry_and_field(text, message):
     with pytest.raises(InventoryError, match=message):
         _bad(text)
+
+
+def test_errors_point_at_the_line_of_the_faulty_field():
+    # The line counted as a text editor counts it (1-based; TOML 1.0 allows CRLF line ends, and a
+    # browser's textarea sends them: HTML Living Standard, "textarea" form submission value).
+    # A field missing altogether has no line of its own: the paint's [[paint]] header is named.
+    text = 'title = "Hall kit"\r\n\r\n[[paint]]\r\nname = "Chalk"\r\n# a comment\r\nsrgb = "#f2f0zz"\r\n'
+    with pytest.raises(InventoryError, match=r"^edited: line 6: paint 1 \('Chalk'\): field 'srgb': not a hex"):
+        loads_inventory(text, source="edited")
+    text = PAINT + '\n[[paint]]\n"name" = "Grey"\nsrgb = "#808080"\ntinting_strength = 0\n'
+    with pytest.raises(InventoryError, match=r"line 8: paint 2 \('Grey'\): field 'tinting_strength'"):
+        loads_inventory(text, source="kit.toml")
+    with pytest.raises(InventoryError, match=r"line 5: paint 2 \('Grey'\): field 'srgb': give exactly one"):
+        loads_inventory(PAINT + '\n[[paint]]\nname = "Grey"\n', source="kit.toml")
 
 
 def test_too_many_paints_are_refused():

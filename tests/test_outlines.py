@@ -248,3 +248,58 @@ def test_a_given_canvas_gives_the_same_map_and_a_wrong_one_is_named():
     assert layer_outlines(plan, 2, canvas=layer_canvas(plan, 2)) == layer_outlines(plan, 2)
     with pytest.raises(ValueError, match=r"canvas must be the plan's raster, 250 × 400 px, got shape \(10, 10\)"):
         layer_outlines(plan, 1, canvas=np.zeros((10, 10), np.int16))
+
+
+# ------------------------------------------------------------------ labels
+def _area(paint, x, y, area, room=50.0):
+    return {"paint": paint, "area_mm2": area, "contours_mm": [], "label_mm": [x, y], "label_room_mm": room,
+            "direction_deg": 0.0, "coherence": 1.0, "hint": "horizontal"}
+
+
+def _box(_a):  # every label 20 mm wide, 10 mm tall (half sizes)
+    return 10.0, 5.0
+
+
+def test_labels_keep_clear_of_each_other_and_skip_tiny_areas():
+    from layerplan.outlines import place_labels
+
+    # plane geometry on axis-aligned label boxes 20 × 10 mm
+    outline = {"layer": 1, "brush_width_mm": 20.0, "areas": [
+        _area("P2", 100, 100, 5000),  # the biggest: placed first
+        _area("P2", 130, 100, 4000),  # same paint, 30 mm off: boxes 10 mm apart, closer than a label's width
+        _area("P3", 100, 114, 3000),  # other paint, boxes 4 mm apart (more than 0.2 label heights = 2 mm)
+        _area("P3", 100, 122, 2500),  # same paint as the one above, 8 mm below it: the boxes overlap
+        _area("P4", 400, 400, 99),    # under the smallest labelled area (100 mm²)
+        _area("P4", 600, 600, 2000, room=2.0),  # 4 mm thin: under 0.6 of the 10 mm label height
+        _area("P2", 800, 100, 1000),  # same paint far away: labelled
+    ]}
+    got = place_labels(outline, _box, min_area_mm2=100.0)
+    assert [a["label"] for a in got["areas"]] == [True, False, True, False, False, False, True]
+    assert "label" not in outline["areas"][0]  # the input is left as it was
+    assert got["areas"][0]["contours_mm"] is outline["areas"][0]["contours_mm"]
+    with pytest.raises(ValueError, match=r"min_area_mm2 must be a number >= 0, got -1"):
+        place_labels(outline, _box, min_area_mm2=-1)
+    with pytest.raises(ValueError, match=r"gap must be a number >= 0, got nan"):
+        place_labels(outline, _box, min_area_mm2=1, gap=float("nan"))
+
+
+def test_direction_ticks_leave_the_label_clear():
+    # one horizontal stroke: its two ticks lie on the stroke's axis and start outside the
+    # label's box (plane geometry: the label is centred on the label point)
+    import xml.etree.ElementTree as ET
+
+    from layerplan.svg import label_box_mm, outline_map_svg
+
+    plan = _plan([Layer(80.0, [Stroke("P2", 80.0, np.array([[200.0, 600.0], [1800.0, 600.0]]))])])
+    outline = layer_outlines(plan, 1)
+    (area,) = outline["areas"]
+    x, y = area["label_mm"]
+    half_w, _ = label_box_mm(plan, area)
+    root = ET.fromstring(outline_map_svg(plan, outline))
+    lines = [e for e in root.iter() if e.tag.endswith("line")]
+    assert len(lines) == 2
+    for ln in lines:
+        x1, y1, x2, y2 = (float(ln.get(k)) for k in ("x1", "y1", "x2", "y2"))
+        assert y1 == pytest.approx(y, abs=0.01) and y2 == pytest.approx(y, abs=0.01)
+        assert min(abs(x1 - x), abs(x2 - x)) > half_w
+    assert {x1 < x for x1 in [float(ln.get("x1")) for ln in lines]} == {True, False}  # one each side

@@ -243,3 +243,24 @@ def test_bad_recipe_and_stroke_are_named():
     bad = _plan([Layer(50.0, [Stroke("P9", 50.0, np.array([[10.0, 10.0]]))])])
     with pytest.raises(ValueError, match=r"stroke paint 'P9' is not in the palette"):
         paint_use(bad)
+
+
+def test_trace_amounts_are_flagged_and_litres_stay_numbers():
+    # hand-worked: a 100 mm stroke of a 10 mm brush covers 100 × 10 + π·5² = 1078.5 mm²;
+    # at 10 m²/L plus 15 % that is 1.0785e-3 × 1.15 / 10 = 1.24e-4 L, under 10 mL: a trace.
+    # The ground, 10 m² × 2 coats, needs 2.3 L: not a trace; an unused paint needs nothing.
+    from layerplan.quantities import TRACE_LITRES
+
+    st = Stroke("P2", 10.0, np.array([[1000.0, 1000.0], [1100.0, 1000.0]]))
+    plan = _plan([Layer(10.0, [st])])
+    plan.palette[1].extra["recipe"] = {"parts": [{"paint": "White", "parts": 1}, {"paint": "Black", "parts": 1}]}
+    use = paint_use(plan)
+    by = {p["paint"]: p for p in use["paints"]}
+    assert TRACE_LITRES == 0.01
+    assert by["P2"]["litres"] == pytest.approx(0.000124, abs=5e-4) and isinstance(by["P2"]["litres"], float)
+    assert [by[k]["trace"] for k in ("P1", "P2", "P3")] == [False, True, False]
+    # the smallest container is still worked out (the report says "trace" instead of prescribing it)
+    assert by["P2"]["containers"] == [{"litres": 0.25, "count": 1}]
+    # each stock paint gets half of 0.124 mL: rounds to 0 L, yet flagged as a trace, not as nothing
+    assert [(s["paint"], s["litres"], s["trace"]) for s in use["stock"]] == [("Black", 0.0, True),
+                                                                             ("White", 0.0, True)]

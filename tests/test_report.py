@@ -121,8 +121,11 @@ def test_paint_card_shows_every_id_colour_recipe_and_flag(plan_and_html):
     assert "out of reach" in rows["P4"] and "#406a40" in rows["P4"]  # flagged, with the nearest mix shown
     assert all("out of reach" not in rows[k] for k in ("P1", "P2", "P3"))
     use = paint_use(plan)
-    for p in use["paints"]:
-        assert f"{p['litres']:.2f}".rstrip("0").rstrip(".") + " L" in card
+    for p in use["paints"]:  # litres from 0.1 L up, millilitres below (SI: 1 L = 1000 mL)
+        if p["litres"] >= 0.1:
+            assert f"{p['litres']:.2f}".rstrip("0").rstrip(".") + " L" in card
+        else:
+            assert f"{p['litres'] * 1000:.0f} mL" in card
 
 
 def test_shopping_list_names_stock_paints_and_containers(plan_and_html):
@@ -168,9 +171,22 @@ def test_layer_pages_have_picture_paints_brush_and_outline_map(plan_and_html):
         body = text[text.index(f'id="{sid}"'):]
         body = body[:body.index("</section>")]
         assert body.count("<img") == 1 and body.count("<svg") == 1
-        # the outline map labels every area with its paint id
-        labels = re.findall(r"<text[^>]*>(P\d+)</text>", body)
-        assert sorted(labels) == sorted(a["paint"] for a in maps[n - 1]["areas"])
+        # the outline map labels areas with their paint id: only paints of areas there, and
+        # no two label boxes overlap (plane geometry; text about 0.62 em per character)
+        texts = [(float(x), float(y), float(f), t) for x, y, f, t in re.findall(
+            r'<text font-size="([\d.]+)"[^>]*x="([\d.]+)" y="([\d.]+)"[^>]*>(P\d+)</text>', body)]
+        texts = [(x, y, f, t) for f, x, y, t in texts]
+        assert texts and {t for *_, t in texts} <= {a["paint"] for a in maps[n - 1]["areas"]}
+        for i, (x, y, f, t) in enumerate(texts):
+            for x2, y2, f2, t2 in texts[i + 1:]:
+                apart_x = abs(x - x2) >= 0.31 * (f * len(t) + f2 * len(t2))
+                apart_y = abs(y - y2) >= 0.5 * (f + f2)
+                assert apart_x or apart_y, (t, x, y, t2, x2, y2)
+        # the transfer grid, faint, with the transfer-grid page's letters and numbers (8 × 5 at 50 cm)
+        faint = body[body.index('class="faint"'):]
+        grid_labels = re.findall(r"<text[^>]*>([A-Z]+|\d+)</text>", faint)
+        assert grid_labels[:8] == list("ABCDEFGH") and grid_labels[8:13] == ["1", "2", "3", "4", "5"]
+        assert ("the ground, P1, stays showing" if n == 1 else f"what layer {n - 1} left stays") in page
 
 
 def test_transfer_grid_is_at_the_real_spacing(plan_and_html):
@@ -267,3 +283,90 @@ def test_colour_names(srgb, word):
 
     name = colour_name(srgb_to_lab(np.array(srgb, np.uint8)))
     assert word in name.split() or name.endswith(word), name
+
+
+def _board():
+    """A 60 × 40 cm board: ground P1, one short 10 mm stroke of P2 (mixed 1 White + 1 Black)."""
+    palette = [Paint("P1", "#f0e8d8", (92.6, 1.5, 7.5)), Paint("P2", "#c03020", (44.0, 56.0, 46.0))]
+    palette[1].extra["recipe"] = {"target": "#c03020", "predicted_srgb": "#c03020", "delta_e": 0.5,
+                                  "in_gamut": True, "parts": [{"paint": "White", "parts": 1},
+                                                              {"paint": "Black", "parts": 1}]}
+    st = Stroke("P2", 10.0, np.array([[100.0, 100.0], [200.0, 100.0]]))
+    return Plan(600.0, 400.0, 300, 200, 2.0, palette, "P1", [Layer(10.0, [st])],
+                {"settings": {"wall_unit": "cm"}})
+
+
+def test_small_amounts_in_millilitres_and_trace_amounts_not_tins():
+    # hand-worked: ground 0.6 × 0.4 m = 0.24 m², 2 coats at 10 m²/L plus 15 %: 0.0552 L = 55 mL;
+    # the stroke 100 × 10 + π·5² mm² = 1.08e-3 m²: 0.124 mL, each stock paint half of it
+    plan = _board()
+    use = paint_use(plan)
+    assert use["paints"][0]["litres"] == pytest.approx(0.055, abs=1e-3)  # plan.json keeps litres
+    doc = _parse(plan_html(plan, paint_use=use))
+    shop, card = doc.section_text("shopping"), doc.section_text("paint-card")
+    assert "55 mL" in shop and "55 mL" in card and "under 1 mL" in card
+    assert " 0 L" not in shop and " 0 L" not in card
+    # stock paints of a trace amount: no tin prescribed, a trace said, the smallest named as a fallback
+    assert shop.count("trace: use what you have, or 1 × 0.25 L (the smallest)") == 2
+    assert "trace amount" in shop and "under 10 mL" in shop
+    # the ground paint, 55 mL, is more than a trace: one 0.25 L tin (common sizes, common practice)
+    assert "1 × 0.25 L" in shop.replace("or 1 × 0.25 L", "")
+
+
+def test_paint_card_shows_the_colour_the_photo_wanted_beside_the_mix():
+    # snapped palette: the plan's colour is the mix (white), the photo wanted pale blue
+    plan = _plan()
+    p1 = plan.palette[0]
+    p1.extra["recipe"] = {"target": "#a8c8f0", "predicted_srgb": p1.srgb, "delta_e": 19.0, "in_gamut": False,
+                          "parts": [{"paint": "White", "parts": 1}]}
+    text = plan_html(plan)
+    row = re.search(r'<tr id="paint-P1">(.*?)</tr>', text, re.S).group(1)
+    assert "background:#a8c8f0" in row and f"background:{p1.srgb}" in row
+    assert row.index("background:#a8c8f0") < row.index(f"background:{p1.srgb}")  # photo, then mix
+    assert ">photo<" in row and ">mix<" in row and "out of reach" in row
+    # #a8c8f0 has CIELAB hue angle about 260° (CIE 15:2004): a blue
+    assert re.search(r"photo: [a-z ]*blue <", row)
+    card = _parse(text).section_text("paint-card")
+    assert "difference between the two" in card and "the colour the photo wanted" in card
+    assert "planned colour" not in card
+
+
+def test_walls_in_feet_get_feet_square_feet_and_a_2_ft_grid():
+    # 1 ft = 0.3048 m exactly (1959 agreement); 1 US gal = 3.785411784 L (NIST Handbook 44, App. C)
+    from layerplan.export import build_files
+    from layerplan.report import default_grid_mm
+
+    assert default_grid_mm("ft") == pytest.approx(609.6) and default_grid_mm("in") == pytest.approx(609.6)
+    assert default_grid_mm("m") == 500.0 and default_grid_mm("cm") == 500.0
+    plan = _plan(unit="ft", w=12 * 304.8, h=8 * 304.8)
+    plan.extra["settings"].update(wall_width_mm=12 * 304.8, wall_height_mm=8 * 304.8)
+    doc = _parse(plan_html(plan))  # no grid given: 2 ft
+    grid = doc.section_text("transfer-grid")
+    assert "2 ft × 2 ft" in grid and "6 columns (A–F" in grid and "4 rows (1–4" in grid
+    cover, shop = doc.section_text("cover"), doc.section_text("shopping")
+    assert "96 ft² (8.92 m²)" in cover  # 12 × 8 ft = 96 ft² = 8.918 m²
+    assert "12 ft wide, 8 ft tall" in cover and "3657.6" not in cover and "(mm)" not in cover
+    # 10 m²/L = 10 / 0.3048² ft² per L × 3.785411784 L/gal = 407.5 ft² per US gallon
+    assert "10 m² per litre (about 407 ft² per US gallon)" in shop
+    assert re.search(r"\d ft² \([\d.]+ m²\)", shop)
+    files = build_files(plan)  # the export default follows the unit too
+    assert 'data-spacing-mm="609.6"' in files["overlay.svg"].decode()
+
+
+def test_settings_are_in_plain_words():
+    plan = _plan()
+    plan.extra["settings"] = {"wall_width_mm": 4000.0, "wall_height_mm": None, "wall_unit": "m", "fit": "cover",
+                              "paints": 5, "brushes_mm": [100.0, 50.0], "mm_per_px": None, "seed": 0,
+                              "stroke_cost": 5.0, "inventory": None, "free_palette": False, "mix_paints": 3,
+                              "max_parts": 10, "tolerance_de": 3.0}
+    rows = dict(re.findall(r"<tr><td>([^<]*)</td><td>([^<]*)</td></tr>",
+                           re.search(r"Settings used.*?</table>", plan_html(plan), re.S).group(0)))
+    assert rows["paints mixed from"] == "basic acrylic set (built in)"
+    assert rows["palette"] == "snapped to mixable colours"
+    assert rows["mix tolerance"] == "ΔE00 3"
+    assert rows["mixes"] == "at most 3 paints and 10 parts per mix"
+    assert rows["paints"] == "5 asked, 4 after merging colours that mix the same"  # the plan has 4
+    assert rows["surface as given"] == "4 m wide, height from the photo"
+    for raw in ("inventory", "free palette", "tolerance de", "mix paints", "max parts", "wall width (mm)"):
+        assert raw not in rows, raw
+    assert "automatic" not in rows.get("inventory", "")

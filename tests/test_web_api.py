@@ -134,6 +134,8 @@ def test_height_follows_the_photo_when_blank(client):
 
 
 # ------------------------------------------------------------------------------- refusals
+# Messages name each field by the label the start page shows for it (layerplan/web/forms.py LABELS);
+# the bounds are the planner's own (layerplan/settings.py, recipes.check_options, quantities.check_options).
 BAD_REQUESTS = [
     # (what, form overrides, image bytes or None, status, message pattern)
     ("text file named .png", {}, b"this is just some text, not a picture\n" * 20, 415, r"not an image"),
@@ -141,23 +143,43 @@ BAD_REQUESTS = [
      400, r"truncated or corrupt"),
     ("decompression bomb", {}, _bomb_png(), 400, r"decompression bomb"),
     ("1×1 image", {}, png_bytes(np.zeros((1, 1, 3), np.uint8)), 400, r"1×1 px.*at least 16 px"),
-    ("negative wall", {"wall_width": "-2"}, None, 400, r"wall_width must be > 0, got -2 m"),
-    ("zero wall", {"wall_height": "0"}, None, 400, r"wall_height must be > 0, got 0 m"),
-    ("absurd wall", {"wall_width": "5000"}, None, 400, r"wall_width must be at most 100 m"),
-    ("not a number", {"wall_width": "wide"}, None, 400, r"wall_width must be a number, got 'wide'"),
-    ("infinite wall", {"wall_width": "inf"}, None, 400, r"wall_width must be a finite number"),
-    ("500 paints", {"paints": "500"}, None, 400, r"paints must be a whole number from 2 to 32, got 500"),
-    ("fractional paints", {"paints": "4.5"}, None, 400, r"paints must be a whole number, got '4.5'"),
-    ("unknown unit", {"unit": "furlong"}, None, 400, r"unknown unit 'furlong'; valid units: m, cm, mm, ft, in"),
-    ("bad brushes", {"brushes": "40,,20"}, None, 400, r"entry 2 is empty"),
-    ("same brush twice", {"brushes": "40,40"}, None, 400, r"brush widths must differ"),
-    ("unknown kit", {"brushes": None, "kit": "spray"}, None, 400, r"unknown brush kit 'spray'"),
-    ("unknown fit", {"fit": "stretch"}, None, 400, r"fit must be one of cover, contain, got 'stretch'"),
-    ("negative seed", {"seed": "-1"}, None, 400, r"seed must be a whole number >= 0"),
+    ("negative wall", {"wall_width": "-2"}, None, 400, r"^Width must be > 0, got -2 m$"),
+    ("zero wall", {"wall_height": "0"}, None, 400, r"^Height must be > 0, got 0 m$"),
+    ("absurd wall", {"wall_width": "5000"}, None, 400, r"^Width must be at most 100 m"),
+    ("not a number", {"wall_width": "wide"}, None, 400, r"^Width must be a number, got 'wide'"),
+    ("infinite wall", {"wall_width": "inf"}, None, 400, r"^Width must be a finite number"),
+    ("500 paints", {"paints": "500"}, None, 400, r"^Number of paints must be a whole number from 2 to 32, got 500"),
+    ("fractional paints", {"paints": "4.5"}, None, 400, r"^Number of paints must be a whole number .*got '4.5'"),
+    ("unknown unit", {"unit": "furlong"}, None, 400, r"^Unit must be one of m, cm, mm, ft, in, got 'furlong'"),
+    ("bad brushes", {"brushes": "40,,20"}, None, 400, r"^Brush widths: .*entry 2 is empty"),
+    ("same brush twice", {"brushes": "40,40"}, None, 400, r"^Brush widths: brush widths must differ"),
+    ("unknown kit", {"brushes": None, "kit": "spray"}, None, 400, r"^Brush kit must be one of .*got 'spray'"),
+    ("unknown fit", {"fit": "stretch"}, None, 400, r"^Fit must be one of cover, contain, got 'stretch'"),
+    ("negative seed", {"seed": "-1"}, None, 400, r"^Seed must be a whole number from 0 to \d+, got -1"),
+    ("zero pixel", {"pixel_mm": "0"}, None, 400, r"^Pixel size \(mm\) must be > 0, got 0"),
     ("raster too big", {"wall_width": "90", "wall_height": "90", "pixel_mm": "1"}, None, 400,
      r"working raster of 90000x90000 px is too large"),
     ("raster too small", {"pixel_mm": "500"}, None, 400, r"working raster of 2x1 px is too small"),
     ("unknown inventory choice", {"inventory": "borrowed"}, None, 400, r"inventory must be one of default"),
+    # recipe options (CLI --mix-paints, --max-parts, --tolerance, --stroke-cost)
+    ("5 paints per mix", {"mix_paints": "5"}, None, 400, r"^Most paints per mix must be a whole number from 1 to 4, got 5"),
+    ("0 parts", {"max_parts": "0"}, None, 400, r"^Max parts per mix must be a whole number from 1 to 30, got 0"),
+    ("fractional parts", {"max_parts": "2.5"}, None, 400, r"^Max parts per mix must be a whole number .*got '2.5'"),
+    ("negative tolerance", {"tolerance": "-1"}, None, 400, r"^Tolerance ΔE00 must be from 0 to 100, got -1"),
+    ("tolerance not a number", {"tolerance": "close"}, None, 400, r"^Tolerance ΔE00 must be a number, got 'close'"),
+    ("negative stroke cost", {"stroke_cost": "-0.5"}, None, 400, r"^Stroke cost must be >= 0, got -0.5"),
+    ("NaN stroke cost", {"stroke_cost": "nan"}, None, 400, r"^Stroke cost must be a finite number"),
+    # quantity options (CLI --coverage, --ground-coats, --stroke-coats, --waste, --grid)
+    ("zero coverage", {"coverage": "0"}, None, 400, r"^Coverage m²/L must be > 0, got 0"),
+    ("negative ground coats", {"ground_coats": "-1"}, None, 400, r"^Ground coats must be a whole number >= 0, got -1"),
+    ("no stroke coats", {"stroke_coats": "0"}, None, 400, r"^Stroke coats must be a whole number >= 1, got 0"),
+    ("waste over 100 %", {"waste": "150"}, None, 400, r"^Waste % must be from 0 to 100, got 150"),
+    ("waste not a number", {"waste": "lots%"}, None, 400, r"^Waste % must be a number, got 'lots%'"),
+    ("zero grid", {"grid": "0"}, None, 400, r"^Transfer-grid spacing must be > 0, got '0'"),
+    ("grid not a length", {"grid": "big"}, None, 400, r"^Transfer-grid spacing must be a length such as 50cm"),
+    # 800 mm / 1 mm = 800 squares across the 0.8 m side, over the 200 the overlay allows (layerplan/svg.py)
+    ("grid too fine", {"grid": "1mm"}, None, 400,
+     r"^Transfer-grid spacing of 1 mm gives 800 squares along the 0.8 m side \(at most 200\); use at least 4 mm"),
 ]
 
 
@@ -183,6 +205,43 @@ def test_parse_plan_request_raises(what, fields, image, status, pattern):
     with pytest.raises(RequestError, match=pattern) as info:
         parse_plan_request(MultiDict(data), {"image": FileStorage(stream, filename=name)})
     assert info.value.status == status
+
+
+@pytest.mark.parametrize("fields,field", [
+    ({"wall_width": "0"}, "wall_width"), ({"max_parts": "99"}, "max_parts"), ({"waste": "-5"}, "waste"),
+    ({"grid": "1mm"}, "grid"), ({"brushes": "40,40"}, "brushes"),
+])
+def test_refusal_names_the_form_field(client, fields, field):
+    r = _post(client, **fields)
+    assert r.status_code == 400
+    assert r.get_json()["field"] == field
+
+
+def test_recipe_and_quantity_options_reach_the_plan(client):
+    options = {"mix_paints": "2", "max_parts": "4", "tolerance": "5", "stroke_cost": "8", "coverage": "8",
+               "ground_coats": "1", "stroke_coats": "2", "waste": "10%", "grid": "20cm"}
+    r = _post(client, **options)
+    assert r.status_code == 202, r.get_json()
+    final = wait_for_plan(client, r.get_json()["id"])[-1]
+    assert final["state"] == "done", final["message"]
+    doc = json.loads(client.get(final["files"]["plan.json"]).data)
+    s = doc["settings"]
+    assert (s["mix_paints"], s["max_parts"], s["tolerance_de"], s["stroke_cost"]) == (2, 4, 5.0, 8.0)
+    assert "web" not in s  # the web app's own bookkeeping stays out of plan.json
+    for paint in doc["palette"]:  # every recipe keeps within the limits asked for
+        parts = [part["parts"] for part in paint["recipe"]["parts"]]
+        assert len(parts) <= 2 and sum(parts) <= 4, paint["recipe"]
+    use = doc["paint_use"]
+    assert (use["coverage_m2_per_litre"], use["ground_coats"], use["stroke_coats"]) == (8.0, 1, 2)
+    assert use["waste"] == pytest.approx(0.10)
+    # the transfer grid is drawn at 20 cm = 200 mm (SI), so 4 columns across the 0.8 m wall
+    root = ET.fromstring(client.get(final["files"]["overlay.svg"]).data)
+    grid = next(g for g in root.iter("{http://www.w3.org/2000/svg}g") if g.get("id") == "grid")
+    assert float(grid.get("data-spacing-mm")) == 200.0
+    # the stepper names the plan's own number of ground coats
+    page = client.get(final["page"]).get_data(as_text=True)
+    steps = json.loads(page.split('id="steps-data">', 1)[1].split("</script>", 1)[0])
+    assert steps[0]["detail"] == f"one flat coat of {doc['ground']['paint']} everywhere"
 
 
 def test_missing_photo(client):
@@ -294,9 +353,164 @@ def test_form_error_rerenders_the_form_with_the_message(client):
     r = client.post("/plans", data=data, content_type="multipart/form-data")
     assert r.status_code == 400
     html = r.get_data(as_text=True)
-    assert "paints must be a whole number from 2 to 32, got 500" in html
+    assert "Number of paints must be a whole number from 2 to 32, got 500" in html
     assert 'value="2.5"' in html and 'value="500"' in html  # what was typed is kept
     assert client.get("/api/plans").get_json()["plans"] == []
+    # the field at fault is marked for the browser and for screen readers (WAI-ARIA 1.2, aria-invalid)
+    paints = re.search(r'<input[^>]*id="paints"[^>]*>', html).group(0)
+    assert 'aria-invalid="true"' in paints
+    width = re.search(r'<input[^>]*id="wall_width"[^>]*>', html).group(0)
+    assert "aria-invalid" not in width
+
+
+def _kept_token(html: str) -> str | None:
+    m = re.search(r'name="upload_token"[^>]*value="([0-9a-f]+)"', html)
+    return m.group(1) if m else None
+
+
+def test_a_refused_form_keeps_the_photo_for_the_next_try(client, app):
+    photo = png_bytes(quadrants())
+    r = client.post("/plans", data=plan_form(image=photo, name="hall-wall.png", wall_width="0"),
+                    content_type="multipart/form-data")
+    assert r.status_code == 400
+    html = r.get_data(as_text=True)
+    assert "Width must be &gt; 0, got 0 m" in html  # Jinja escapes ">"
+    token = _kept_token(html)
+    assert token, "the photo was not kept"
+    assert re.search(r"using <strong[^>]*>hall-wall.png</strong> &mdash;\s*<label[^>]*>choose another</label>", html)
+    assert 'id="image" name="image" required' not in html  # no need to choose it again
+    kept = client.get(f"/kept-photo/{token}")
+    assert kept.status_code == 200 and kept.mimetype == "image/png" and kept.data == photo
+
+    # the second try sends the token instead of the file, and is refused again: the same token stays
+    fields = {k: v for k, v in plan_form(wall_width="0").items() if k != "image"}
+    r = client.post("/plans", data={**fields, "upload_token": token}, content_type="multipart/form-data")
+    assert r.status_code == 400 and _kept_token(r.get_data(as_text=True)) == token
+
+    fields = {k: v for k, v in plan_form().items() if k != "image"}
+    r = client.post("/plans", data={**fields, "upload_token": token}, content_type="multipart/form-data")
+    assert r.status_code == 303, r.get_data(as_text=True)
+    plan_id = r.headers["Location"].rsplit("/", 1)[-1]
+    store = app.extensions["layerplan"].store
+    assert store.upload_path(plan_id).read_bytes() == photo
+    assert store.get(plan_id).source_name == "hall-wall.png"
+    assert client.get(f"/kept-photo/{token}").status_code == 404  # used, so gone
+    assert not any((store.data_dir / "uploads").iterdir())
+
+
+def test_a_new_photo_replaces_the_kept_one(client, app):
+    r = client.post("/plans", data=plan_form(wall_width="0"), content_type="multipart/form-data")
+    token = _kept_token(r.get_data(as_text=True))
+    other = png_bytes(quadrants(40, 40))
+    r = client.post("/plans", data={**plan_form(image=other, name="other.png"), "upload_token": token},
+                    content_type="multipart/form-data")
+    assert r.status_code == 303
+    plan_id = r.headers["Location"].rsplit("/", 1)[-1]
+    assert app.extensions["layerplan"].store.upload_path(plan_id).read_bytes() == other
+    assert client.get(f"/kept-photo/{token}").status_code == 404
+
+
+def test_a_photo_that_is_refused_is_not_kept(client, app):
+    r = client.post("/plans", data=plan_form(image=b"not a picture at all\n" * 10, name="notes.png"),
+                    content_type="multipart/form-data")
+    assert r.status_code == 415
+    assert _kept_token(r.get_data(as_text=True)) is None
+    assert not (app.extensions["layerplan"].store.data_dir / "uploads").exists() or \
+        not any((app.extensions["layerplan"].store.data_dir / "uploads").iterdir())
+
+
+@pytest.mark.parametrize("token", ["0" * 32, "../../layerplan.sqlite3", "ZZ"])
+def test_an_unknown_or_expired_token_asks_for_the_photo_again(client, token):
+    fields = {k: v for k, v in plan_form().items() if k != "image"}
+    r = client.post("/plans", data={**fields, "upload_token": token}, content_type="multipart/form-data")
+    assert r.status_code == 400
+    assert "the photo chosen earlier is no longer kept" in r.get_data(as_text=True)
+    assert client.get(f"/kept-photo/{token}").status_code == 404
+
+
+def test_kept_photos_expire(tmp_path):
+    import time
+
+    from layerplan.web.uploads import UploadStash
+
+    stash = UploadStash(tmp_path, keep_s=0.2)
+    old = stash.put(b"old photo", "old.png")
+    assert stash.get(old) == (b"old photo", "old.png")
+    time.sleep(0.3)
+    assert stash.get(old) is None
+    fresh = stash.put(b"new", "new.png")  # putting sweeps out what expired
+    assert sorted(p.name for p in (tmp_path / "uploads").iterdir()) == [fresh, fresh + ".name"]
+    with pytest.raises(ValueError, match=r"keep_s must be > 0, got 0"):
+        UploadStash(tmp_path, keep_s=0)
+
+
+def test_start_page_options_and_positive_minimums(client):
+    html = client.get("/").get_data(as_text=True)
+    inputs = {m.group(1): m.group(0) for m in re.finditer(r'<input[^>]*name="(\w+)"[^>]*>', html)}
+    for name in ("mix_paints", "max_parts", "tolerance", "stroke_cost", "coverage", "ground_coats",
+                 "stroke_coats", "waste", "grid"):
+        assert name in inputs, name
+    # a zero width or height is caught by the browser too (HTML Living Standard: min and rangeUnderflow)
+    for name in ("wall_width", "wall_height", "pixel_mm", "coverage"):
+        assert float(re.search(r'min="([^"]+)"', inputs[name]).group(1)) > 0, name
+    # the form starts from the planner's and the export's own defaults (layerplan/settings.py, quantities.py)
+    from layerplan import quantities
+    from layerplan.settings import Settings
+
+    def value(name):
+        return re.search(r'value="([^"]*)"', inputs[name]).group(1)
+
+    assert int(value("max_parts")) == Settings().max_parts and int(value("mix_paints")) == Settings().mix_paints
+    assert float(value("tolerance")) == Settings().tolerance_de
+    assert int(value("ground_coats")) == quantities.GROUND_COATS
+    assert float(value("waste")) == pytest.approx(quantities.WASTE * 100)
+
+
+def test_recent_plans_tell_two_plans_of_one_photo_apart(client):
+    a = _post(client, wall_width="0.8", wall_height="", paints="4").get_json()["id"]
+    b = _post(client, wall_width="1.6", wall_height="1.2", paints="5").get_json()["id"]
+    html = client.get("/").get_data(as_text=True)
+    items = re.findall(r'<li class="plan-item[^"]*">(.*?)</li>', html, re.S)
+    assert len(items) == 2
+    facts = [re.sub(r"\s+", " ", re.search(r'class="plan-facts"[^>]*>(.*?)</span>', i, re.S).group(1)) for i in items]
+    # newest first; a blank height follows the photo (80 × 60 px, so 0.8 m wide is 0.6 m high)
+    assert facts == ["1.6 × 1.2 m &middot; 5 paints &middot; 2 brushes &middot; seed 1",
+                     "0.8 × 0.6 m &middot; 4 paints &middot; 2 brushes &middot; seed 1"]
+    assert all(re.search(r'class="when"[^>]*>\d\d \w{3} \d{4}, \d\d:\d\d UTC<', i) for i in items)
+    for plan_id in (a, b):
+        wait_for_plan(client, plan_id)
+
+
+def test_progress_page_shows_what_is_being_planned(tmp_path):
+    class Idle:
+        def submit(self, plan_id): pass
+        def cancel(self, plan_id): pass
+        def shutdown(self, *, wait=False): pass
+
+    app = make_web_app(tmp_path / "data", JOB_RUNNER=lambda app, store: Idle())
+    try:
+        client = app.test_client()
+        plan_id = _post(client, max_parts="4", waste="20", grid="1ft", wall_height="").get_json()["id"]
+        html = client.get(f"/plans/{plan_id}").get_data(as_text=True)
+        block = html.split('id="planning-facts"', 1)[1].split("</dl>", 1)[0]
+        facts = dict(re.findall(r"<dt>(.*?)</dt><dd>(.*?)</dd>", block))
+        # 1 ft = 304.8 mm exactly (NIST SP 811 App. B) = 30.48 cm
+        assert facts == {"Surface": "0.8 × 0.6 m", "Paints": "4", "Brushes": "40 / 20 mm", "Pixel size": "10 mm",
+                         "Seed": "1", "Max parts per mix": "4", "Waste": "20 %", "Grid": "30.48 cm"}
+    finally:
+        app.extensions["layerplan"].close()
+
+
+def test_ground_step_and_container_text():
+    from layerplan.web.pages import _ground_text, containers_text
+
+    assert _ground_text("P5", 2) == "two flat coats of P5 everywhere"
+    assert _ground_text("P1", 1) == "one flat coat of P1 everywhere"
+    assert _ground_text("P1", 0).startswith("P1 everywhere: no coat planned")
+    # no-break spaces (U+00A0) hold one container size together; a line may break only at "+"
+    text = containers_text([{"litres": 0.5, "count": 1}, {"litres": 4, "count": 2}])
+    assert text == "1\u00a0×\u00a00.5\u00a0L + 2\u00a0×\u00a04\u00a0L"
+    assert all(" " not in part for part in text.split(" + "))  # plain spaces only around "+"
 
 
 def test_form_upload_too_large_rerenders_the_form(tmp_path):

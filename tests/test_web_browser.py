@@ -119,6 +119,7 @@ def made_plan(browser, server):
     assert pg.input_value("#brushes").replace(" ", "") == "100.0,50.0,25.0,12.0"  # the kit's widths shown
     pg.click("#submit")
     pg.wait_for_selector("#progress, #stepper")
+    facts = pg.inner_text("#planning-facts") if pg.query_selector("#planning-facts") else None
     readings = []
     for _ in range(PLAN_TIMEOUT_MS // 100):
         try:
@@ -133,11 +134,11 @@ def made_plan(browser, server):
     pg.wait_for_selector("#stepper", timeout=PLAN_TIMEOUT_MS)
     url = pg.url
     context.close()
-    return url, readings
+    return url, readings, facts
 
 
 def test_bar_moves_while_planning(made_plan):
-    url, readings = made_plan
+    url, readings, facts = made_plan
     values = [v for v, _ in readings]
     assert values, "the progress view was never shown"
     assert values == sorted(values), f"the bar went backwards: {values}"
@@ -147,10 +148,14 @@ def test_bar_moves_while_planning(made_plan):
     # the stage line follows the planner (which stages are caught depends on the poll timing)
     assert len(stages) >= 2 and any(s.startswith(("choosing", "measuring", "mixing", "layer", "finishing"))
                                     for s in stages), stages
+    # while it waits, the page says what is being planned: the 2 × 1 m surface, 8 paints, the hall kit
+    if facts is not None:  # (a very fast plan may be done before the progress view is read)
+        text = " ".join(facts.split())
+        assert "SURFACE 2 × 1 m" in text and "PAINTS 8" in text and "BRUSHES 100 / 50 / 25 / 12 mm" in text, text
 
 
 def test_step_through_the_layers(page, made_plan):
-    url, _ = made_plan
+    url = made_plan[0]
     page.goto(url)
     _wait_image(page, "#step-image")
     # 2 m wide at 8 mm a pixel = 250 px (layerplan/settings.py raster_size)
@@ -165,7 +170,12 @@ def test_step_through_the_layers(page, made_plan):
     assert "25 mm brush" in page.text_content("#step-detail")
 
     page.locator("#step-slider").fill("0")
-    assert page.text_content("#step-label") == "Ground coat"
+    assert page.text_content("#step-label") == "Ground"
+    # the plan's own ground coats (2 by default, layerplan/quantities.py GROUND_COATS; common practice)
+    ground = page.evaluate("""[...document.querySelectorAll('.paint-card tbody tr')]
+        .find(tr => [...tr.querySelectorAll('.tag')].some(t => t.textContent.trim() === 'ground'))
+        .querySelector('strong').textContent.trim()""")
+    assert page.text_content("#step-detail") == f"two flat coats of {ground} everywhere"
     _wait_image(page, "#step-image")
     page.wait_for_function("document.querySelector('#step-image').src.endsWith('/steps/00.png')")
     page.wait_for_function("document.querySelector('#step-image').complete")
@@ -184,8 +194,21 @@ def test_step_through_the_layers(page, made_plan):
     assert len(set(swatches)) == len(swatches)
 
 
+def test_shopping_list_sizes_stay_on_one_line(page, made_plan):
+    page.goto(made_plan[0])
+    cells = page.eval_on_selector_all(".shopping td.buy", """els => els.map(td => {
+        const r = document.createRange(); r.selectNodeContents(td);
+        const tops = new Set([...r.getClientRects()].map(x => Math.round(x.top)));
+        return [td.textContent.trim(), tops.size];
+    })""")
+    assert cells, "no shopping list"
+    for text, lines in cells:
+        if "+" not in text:  # one container size ("1 × 0.5 L") is never split across lines
+            assert lines == 1, (text, lines)
+
+
 def test_download_the_svg(page, made_plan):
-    url, _ = made_plan
+    url = made_plan[0]
     page.goto(url)
     with page.expect_download() as info:
         page.click("#dl-overlay-svg")
@@ -198,7 +221,7 @@ def test_download_the_svg(page, made_plan):
 
 
 def test_open_the_print_plan(page, made_plan):
-    url, _ = made_plan
+    url = made_plan[0]
     page.goto(url)
     if not page.query_selector("#dl-plan-html"):
         pytest.skip("this build writes no plan.html (printable plan, issue 5)")
@@ -222,6 +245,34 @@ def test_refused_upload_is_explained_on_the_form(page, server):
     message = page.text_content("#form-error")
     assert "wall-notes.png" in message and "not an image" in message
     assert page.input_value("#wall_width") == "4.5"  # what was typed is kept
+
+
+def test_zero_width_is_caught_in_the_browser(page, server):
+    page.goto(server.url + "/")
+    page.set_input_files("#image", str(SAMPLE))
+    page.fill("#wall_width", "0")
+    page.click("#submit")
+    # constraint validation (HTML Living Standard, "min" attribute: rangeUnderflow) keeps the form here
+    assert page.evaluate("document.querySelector('#wall_width').validity.rangeUnderflow")
+    assert page.url == server.url + "/" and not page.query_selector("#form-error")
+
+
+def test_a_refused_form_keeps_the_photo(page, server):
+    _fill_plan_form(page, server, kit="quick", pixel_mm="20")
+    page.fill("#grid", "1mm")  # too fine for a 2 m wall: only the server can tell
+    page.click("#submit")
+    page.wait_for_selector("#form-error")
+    assert "Transfer-grid spacing of 1 mm gives 2000 squares" in page.text_content("#form-error")
+    assert page.get_attribute("#grid", "aria-invalid") == "true"
+    assert " ".join(page.text_content("#photo-info").split()) == "using community-wall.png — choose another"
+    _wait_image(page, "#photo-preview")
+    assert page.evaluate("document.querySelector('#photo-preview').naturalWidth") == 900  # the kept photo
+    assert not page.evaluate("document.querySelector('#image').required")
+    assert page.input_value("#wall_width") == "2" and page.input_value("#grid") == "1mm"
+    page.fill("#grid", "50cm")
+    page.click("#submit")
+    page.wait_for_selector("#progress, #stepper")
+    assert page.text_content("h1") == "community-wall.png"  # planned from the kept photo
 
 
 def test_delete_a_plan(page, server):

@@ -150,6 +150,25 @@ def test_core_error_becomes_failed_with_its_message(store):
         runner.shutdown()
 
 
+def test_stored_output_options_reach_the_export(store):
+    # the web app keeps the export options beside the settings (key "web"); a bad one that slipped
+    # past the form still ends as a failed plan with the export's own message, not a crash
+    runner = LocalProcessRunner(store.data_dir, max_workers=1)
+    try:
+        good = store.create({**TINY_SETTINGS, "web": {"output": {"ground_coats": 3, "grid_mm": 100.0}}},
+                            png_bytes(quadrants()))
+        bad = store.create({**TINY_SETTINGS, "web": {"output": {"grid_mm": 1.0}}}, png_bytes(quadrants()))
+        runner.submit(good)
+        runner.submit(bad)
+        assert _wait_state(store, good, ("done", "failed")) == "done", store.get(good).message
+        doc = json.loads((store.out_dir(good) / "plan.json").read_text())
+        assert doc["paint_use"]["ground_coats"] == 3 and "web" not in doc["settings"]
+        assert _wait_state(store, bad, ("done", "failed")) == "failed"
+        assert "grid spacing 1 mm" in store.get(bad).message
+    finally:
+        runner.shutdown()
+
+
 def test_a_worker_that_dies_is_marked_failed(store):
     runner = LocalProcessRunner(store.data_dir, max_workers=1, target=_crashing_target)
     try:

@@ -18,6 +18,8 @@ JOB_TIMEOUT_S
     A plan running longer is stopped and marked failed.
 JOB_RUNNER
     Optional factory ``f(app, store) -> JobRunner`` to plug in another job system.
+UPLOAD_KEEP_S
+    How long the photo of a refused form is kept for the next try, seconds.
 """
 
 from __future__ import annotations
@@ -35,6 +37,7 @@ from werkzeug.exceptions import HTTPException, InternalServerError
 from .forms import size_text
 from .jobs import JobRunner, LocalProcessRunner, recover
 from .store import PlanStore
+from .uploads import KEEP_S, UploadStash
 
 log = logging.getLogger(__name__)
 
@@ -55,6 +58,7 @@ class WebState:
     store: PlanStore
     runner: JobRunner
     lock_file: object | None = None
+    uploads: UploadStash | None = None
 
     def close(self, *, wait: bool = False) -> None:
         """Stop the runner and release the data directory (safe to call twice)."""
@@ -100,6 +104,7 @@ def create_app(test_config: dict | None = None, *, overrides: dict | None = None
         JOB_START_METHOD=None,
         JOB_RUNNER=None,
         RECENT_PLANS=30,
+        UPLOAD_KEEP_S=KEEP_S,
     )
     if test_config is None:
         app.config.from_pyfile("config.py", silent=True)
@@ -121,7 +126,9 @@ def create_app(test_config: dict | None = None, *, overrides: dict | None = None
                                     start_method=app.config["JOB_START_METHOD"])
     else:
         runner = factory(app, store)
-    state = WebState(store=store, runner=runner, lock_file=lock_file)
+    uploads = UploadStash(data_dir, keep_s=float(app.config["UPLOAD_KEEP_S"]))
+    uploads.sweep()
+    state = WebState(store=store, runner=runner, lock_file=lock_file, uploads=uploads)
     app.extensions["layerplan"] = state
     atexit.register(state.close)
     for plan_id in recover(store):

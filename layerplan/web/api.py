@@ -7,7 +7,41 @@
 ``GET /api/plans/<id>/files/<name>``    one of the plan's output files
 ``GET /api/kits``                       the brush kits offered on the start page
 
-Errors are ``{"error": "<message>"}`` with 400, 404, 405, 413, 415 or 503.
+Fields of ``POST /api/plans`` (multipart/form-data; the start page's form sends the same)
+-------------------------------------------------------------------------------------------
+``image``          the photo file (JPEG, PNG, WebP, TIFF); required
+``wall_width``     width of the surface in ``unit``; required unless ``wall`` is given
+``wall_height``    height in ``unit``; blank or absent follows the photo's shape
+``unit``           m, cm, mm, ft or in (default m)
+``wall``           instead of the three above: one text such as ``4x2.5m``
+``paints``         number of paints, 2–32 (default 8)
+``brushes``        brush widths, comma-separated, mm unless a unit is given (``4in, 2in``)
+``kit``            instead of ``brushes``: a brush kit id from ``GET /api/kits``
+``fit``            cover (fill the surface, crop) or contain (fit the photo, pad with ground)
+``seed``           whole number >= 0 (default 0): same inputs and seed, same plan
+``pixel_mm``       size of one working pixel in mm (default: chosen from the narrowest brush)
+``free_palette``   1 keeps the photo's own colours instead of the colours the recipes reach
+``inventory``      default, upload (with file ``inventory_file``) or edit (with ``inventory_text``)
+
+Recipe options (as ``layerplan plan``'s options of the same meaning):
+
+``mix_paints``     most inventory paints in one mix, 1–4 (``--mix-paints``, default 3)
+``max_parts``      whole parts of a recipe add up to at most this, 1–30 (``--max-parts``, default 10)
+``tolerance``      a paint counts as mixable within this CIEDE2000, 0–100 (``--tolerance``, default 3)
+``stroke_cost``    what a stroke must earn, >= 0 (``--stroke-cost``, default 5)
+
+Quantity options (passed to :func:`layerplan.export.write_outputs`):
+
+``coverage``       spreading rate of one coat, m² per litre, > 0 (``--coverage``, default 10)
+``ground_coats``   coats of the ground, whole number >= 0 (``--ground-coats``, default 2)
+``stroke_coats``   coats of each stroke, whole number >= 1 (``--stroke-coats``, default 1)
+``waste``          extra paint to buy in percent, 0–100, e.g. ``15`` or ``15%`` (``--waste``, default 15 %)
+``grid``           transfer-grid square, a length such as ``50cm`` or ``2ft``; plain numbers are mm
+                   (``--grid``, default 50 cm; at most 200 squares along the longest side)
+
+Errors are ``{"error": "<message>"}`` with 400, 404, 405, 413, 415 or 503. A refused plan
+request also carries ``"field"``: the form field at fault (or null); its message names the
+field by the label the start page gives it (``Width``, ``Max parts per mix``, ...).
 """
 
 from __future__ import annotations
@@ -19,8 +53,8 @@ from . import forms, service
 bp = Blueprint("api", __name__, url_prefix="/api")
 
 
-def _error(message: str, status: int):
-    response = jsonify(error=message)
+def _error(message: str, status: int, **more):
+    response = jsonify(error=message, **more)
     response.status_code = status
     return response
 
@@ -37,7 +71,7 @@ def create_plan():
     try:
         plan_id = service.submit(request.form, request.files)
     except forms.RequestError as exc:
-        return _error(str(exc), exc.status)
+        return _error(str(exc), exc.status, field=exc.field)
     except service.Busy as exc:
         response = _error(str(exc), 503)
         response.headers["Retry-After"] = "60"

@@ -28,7 +28,7 @@ import traceback
 from pathlib import Path
 from typing import Any, Callable
 
-from .store import WAITING_MESSAGE, PlanStore
+from .store import WAITING_MESSAGE, WEB_KEY, PlanStore
 
 log = logging.getLogger(__name__)
 
@@ -92,7 +92,9 @@ def run_plan(data_dir: str, plan_id: str) -> None:
         record = store.get(plan_id)
         if record is None:
             return
-        settings = _with_inventory(settings_from_dict(record.settings), store.inventory_path(plan_id))
+        stored = dict(record.settings)
+        options = dict((stored.pop(WEB_KEY, None) or {}).get("output") or {})
+        settings = _with_inventory(settings_from_dict(stored), store.inventory_path(plan_id))
         image = load_image(store.upload_path(plan_id).read_bytes())
         report = _ProgressWriter(store, plan_id)
         report(0.0, "loading the photo")
@@ -103,7 +105,7 @@ def run_plan(data_dir: str, plan_id: str) -> None:
         out = store.out_dir(plan_id)
         if out.exists():  # leftovers of an attempt a restart interrupted
             shutil.rmtree(out)
-        write_outputs(plan, out)
+        write_outputs(plan, out, **options)
         store.mark_done(plan_id, f"plan ready: {len(plan.palette)} paints, {len(plan.layers)} layers, "
                                  f"{plan.stroke_count()} strokes")
     except BaseException as exc:  # noqa: BLE001 - the worker must always leave a verdict

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import io
 import math
+import time
 from typing import Any
 
 from flask import (Blueprint, abort, current_app, redirect, render_template, request, send_file,
@@ -11,31 +12,51 @@ from flask import (Blueprint, abort, current_app, redirect, render_template, req
 from PIL import Image
 from werkzeug.exceptions import RequestEntityTooLarge
 
+from layerplan import quantities
+from layerplan.settings import Settings
 from layerplan.units import UNITS_MM
 
 from . import forms, service
+from .store import WEB_KEY
 
 bp = Blueprint("pages", __name__)
 
+_S = Settings()
+#: the recipe and quantity options the form starts with: the planner's and the export's own defaults
+OPTION_DEFAULTS = {"mix_paints": str(_S.mix_paints), "max_parts": str(_S.max_parts), "tolerance": f"{_S.tolerance_de:g}",
+                   "stroke_cost": f"{_S.stroke_cost:g}", "coverage": f"{quantities.COVERAGE_M2_PER_L:g}",
+                   "ground_coats": str(quantities.GROUND_COATS), "stroke_coats": str(quantities.STROKE_COATS),
+                   "waste": f"{quantities.WASTE * 100:g}", "grid": "50cm"}  # grid: layerplan.report.GRID_MM
 #: what the start page's form holds before anyone types
 FORM_DEFAULTS = {"wall_width": "3", "wall_height": "", "unit": "m", "paints": "8", "kit": forms.DEFAULT_KIT,
                  "brushes": "", "fit": "cover", "seed": "0", "pixel_mm": "", "inventory": "default",
-                 "inventory_text": "", "free_palette": ""}
+                 "inventory_text": "", "free_palette": "", **OPTION_DEFAULTS}
 #: mimetypes of the photo formats we accept, by Pillow format id
 _PHOTO_TYPES = {"JPEG": "image/jpeg", "MPO": "image/jpeg", "PNG": "image/png", "WEBP": "image/webp",
                 "TIFF": "image/tiff"}
 
 
-def _start_page(values: dict[str, str] | None = None, error: str | None = None, status: int = 200):
+def _start_page(values: dict[str, str] | None = None, error: str | None = None, status: int = 200, *,
+                error_field: str | None = None, kept: dict[str, str] | None = None):
     merged = dict(FORM_DEFAULTS)
     if values:
         merged.update({k: v for k, v in values.items() if k in FORM_DEFAULTS})
+    # options the painter changed open the "more options" part
+    changed = any(merged.get(k, "").strip() != v for k, v in OPTION_DEFAULTS.items())
+    changed = changed or merged["seed"] not in ("", "0") or bool(merged["pixel_mm"] or merged["free_palette"])
     limit = int(current_app.config["RECENT_PLANS"])
-    recent = service.store().recent(limit)
+    recent = [{"record": r, "summary": plan_summary(r.settings)} for r in service.store().recent(limit)]
     limit = current_app.config.get("MAX_CONTENT_LENGTH")
     max_size = forms.size_text(limit) if limit else ""
-    return render_template("start.html", values=merged, error=error, recent=recent, kits=forms.BRUSH_KITS,
+    return render_template("start.html", values=merged, error=error, error_field=error_field, kept=kept,
+                           more_open=changed or error_field in OPTION_DEFAULTS, recent=recent,
+                           kits=forms.BRUSH_KITS, labels=forms.LABELS, limits=_limits(),
                            units=forms.UNIT_CHOICES, max_size=max_size, inventory=_inventory_view()), status
+
+
+def _limits() -> dict[str, Any]:
+    return {"max_mix_paints": forms.MAX_MIX_PAINTS, "max_parts": forms.MAX_PARTS,
+            "max_tolerance": f"{forms.MAX_TOLERANCE_DE:g}"}
 
 
 def _inventory_view() -> dict[str, Any] | None:
@@ -60,14 +81,48 @@ def create():
         form, files = request.form, request.files
     except RequestEntityTooLarge:
         limit = forms.size_text(current_app.config["MAX_CONTENT_LENGTH"])
-        return _start_page(None, f"the photo is too large: at most {limit}", 413)
+        return _start_page(None, f"the photo is too large: at most {limit}", 413, error_field="image")
+    stash = service.uploads()
+    token = (form.get("upload_token") or "").strip()
+    upload = files.get("image")
+    photo = None
     try:
-        plan_id = service.submit(form, files)
-    except forms.RequestError as exc:
-        return _start_page(form.to_dict(), str(exc), exc.status)
-    except service.Busy as exc:
-        return _start_page(form.to_dict(), str(exc), 503)
+        if upload is not None and upload.filename:  # a newly chosen photo replaces a kept one
+            stash.discard(token)
+            token = ""
+            photo = forms.read_photo(files)
+        elif token:
+            photo = stash.get(token)
+            if photo is None:
+                token = ""
+                raise forms.RequestError("the photo chosen earlier is no longer kept (photos wait an hour); "
+                                         "choose it again", field="image")
+        else:
+            photo = forms.read_photo(files)
+        plan_id = service.submit(form, files, photo=photo)
+    except (forms.RequestError, service.Busy) as exc:
+        status = exc.status if isinstance(exc, forms.RequestError) else 503
+        field = getattr(exc, "field", None)
+        kept = None
+        if photo is not None and field != "image" and forms.looks_like_photo(photo[0]):
+            token = token or stash.put(*photo)  # so the next try need not choose the photo again
+            kept = {"token": token, "name": photo[1] or "the photo",
+                    "url": url_for("pages.kept_photo", token=token)}
+        elif token:
+            stash.discard(token)
+        return _start_page(form.to_dict(), str(exc), status, error_field=field, kept=kept)
+    if token:
+        stash.discard(token)
     return redirect(url_for("pages.plan_page", plan_id=plan_id), code=303)
+
+
+@bp.get("/kept-photo/<token>")
+def kept_photo(token: str):
+    """The photo kept from a refused try of the form (its token is 128 random bits)."""
+    kept = service.uploads().get(token)
+    if kept is None:
+        abort(404, description="that photo is no longer kept")
+    return _photo_response(kept[0], max_age=0)
 
 
 @bp.get("/plans/<plan_id>")
@@ -75,7 +130,8 @@ def plan_page(plan_id: str):
     record = service.store().get(plan_id)
     if record is None:
         abort(404, description=f"there is no plan {plan_id!r} (it may have been deleted)")
-    view: dict[str, Any] = {"record": record, "status": service.status(record)}
+    view: dict[str, Any] = {"record": record, "status": service.status(record),
+                            "summary": plan_summary(record.settings)}
     if record.state == "done":
         doc = service.plan_document(plan_id)
         if doc is None:
@@ -98,11 +154,18 @@ def photo(plan_id: str):
     path = service.store().upload_path(plan_id)
     try:
         data = path.read_bytes()
+    except OSError:
+        abort(404, description="the uploaded photo is not available")
+    return _photo_response(data, max_age=3600)
+
+
+def _photo_response(data: bytes, *, max_age: int):
+    try:
         with Image.open(io.BytesIO(data)) as img:
             mimetype = _PHOTO_TYPES.get(img.format, "application/octet-stream")
     except (OSError, ValueError):
         abort(404, description="the uploaded photo is not available")
-    return send_file(io.BytesIO(data), mimetype=mimetype, max_age=3600)
+    return send_file(io.BytesIO(data), mimetype=mimetype, max_age=max_age)
 
 
 # ---------------------------------------------------------------------- plan view model
@@ -121,7 +184,7 @@ def _plan_view(plan_id: str, doc: dict[str, Any], files: dict[str, str]) -> dict
     layers = doc.get("layers", [])
     for n, name in enumerate(step_names):
         if n == 0:
-            label, detail = "Ground coat", f"one flat coat of {doc.get('ground', {}).get('paint', '')} everywhere"
+            label, detail = "Ground", _ground_text(doc.get("ground", {}).get("paint", ""), use.get("ground_coats"))
         elif n <= len(layers):
             layer = layers[n - 1]
             used = sorted({s["paint"] for s in layer.get("strokes", [])}, key=_paint_key)
@@ -153,6 +216,68 @@ def _plan_view(plan_id: str, doc: dict[str, Any], files: dict[str, str]) -> dict
     }
 
 
+#: coats in words, as a person says them ("two flat coats")
+_COUNT_WORDS = ("no", "one", "two", "three", "four", "five", "six", "seven", "eight", "nine", "ten")
+
+
+def _ground_text(paint: str, coats) -> str:
+    """What the ground step asks for, with the plan's own number of ground coats."""
+    if not isinstance(coats, int) or isinstance(coats, bool) or coats < 0:
+        return f"{paint} everywhere"
+    if coats == 0:
+        return f"{paint} everywhere: no coat planned (the surface is taken to be {paint} already)"
+    words = _COUNT_WORDS[coats] if coats < len(_COUNT_WORDS) else str(coats)
+    return f"{words} flat coat{'s' if coats != 1 else ''} of {paint} everywhere"
+
+
+def plan_summary(settings: dict[str, Any]) -> dict[str, Any]:
+    """What a plan is being made with, for the plan list and the progress page.
+
+    Returns ``{"surface": "3 × 1.5 m", "paints": 8, "brushes": "100 / 50 / 25 / 12 mm",
+    "facts": [(label, text), ...]}``: the main settings first, then the options that differ
+    from their defaults.
+    """
+    web = settings.get(WEB_KEY) or {}
+    unit = settings.get("wall_unit", "m")
+    wall = web.get("wall_mm") or [settings.get("wall_width_mm"), settings.get("wall_height_mm")]
+    surface = _size_text(*(list(wall) + [None, None])[:2], unit) or _width_text(settings.get("wall_width_mm"), unit)
+    brushes = settings.get("brushes_mm") or []
+    brushes_text = " / ".join(f"{b:g}" for b in brushes) + " mm" if brushes else ""
+    facts = [("Surface", surface), ("Paints", str(settings.get("paints", ""))), ("Brushes", brushes_text)]
+    pixel = settings.get("mm_per_px") or web.get("mm_per_px")
+    if isinstance(pixel, (int, float)):
+        facts.append(("Pixel size", f"{pixel:g} mm" + ("" if settings.get("mm_per_px") else " (automatic)")))
+    if settings.get("fit") == "contain":
+        facts.append(("Fit", "whole photo"))
+    if settings.get("seed"):
+        facts.append(("Seed", str(settings["seed"])))
+    if settings.get("free_palette"):
+        facts.append(("Colours", "the photo's own"))
+    for key, label, fmt in (("mix_paints", "Most paints per mix", "{:g}"), ("max_parts", "Max parts per mix", "{:g}"),
+                            ("tolerance_de", "Tolerance ΔE00", "{:g}"), ("stroke_cost", "Stroke cost", "{:g}")):
+        value, default = settings.get(key), getattr(_S, key)
+        if isinstance(value, (int, float)) and value != default:
+            facts.append((label, fmt.format(value)))
+    output = web.get("output") or {}
+    shown = {"coverage_m2_per_litre": ("Coverage", "{:g} m²/L", quantities.COVERAGE_M2_PER_L),
+             "ground_coats": ("Ground coats", "{:g}", quantities.GROUND_COATS),
+             "stroke_coats": ("Stroke coats", "{:g}", quantities.STROKE_COATS),
+             "waste": ("Waste", "{:g} %", quantities.WASTE), "grid_mm": ("Grid", "{:g} cm", 500.0)}
+    for key, (label, fmt, default) in shown.items():
+        value = output.get(key)
+        if isinstance(value, (int, float)) and value != default:
+            value = value * 100 if key == "waste" else value / 10 if key == "grid_mm" else value
+            facts.append((label, fmt.format(round(value, 6))))
+    return {"surface": surface, "paints": settings.get("paints"), "brushes": brushes_text,
+            "brush_count": len(brushes), "seed": settings.get("seed", 0), "facts": facts}
+
+
+def _width_text(width_mm, unit: str) -> str:
+    if not isinstance(width_mm, (int, float)):
+        return ""
+    return f"{width_mm / UNITS_MM.get(unit, 1000.0):.3g} {unit} wide"
+
+
 def _paint_key(paint_id: str):
     digits = "".join(c for c in paint_id if c.isdigit())
     return (int(digits) if digits else math.inf, paint_id)
@@ -177,7 +302,17 @@ def containers_text(containers) -> str:
     """``[{"litres": 4, "count": 1}, {"litres": 1, "count": 2}]`` -> ``"1 × 4 L + 2 × 1 L"``."""
     if not isinstance(containers, list) or not containers:
         return ""
-    return " + ".join(f"{c.get('count', 1)} × {c.get('litres', 0):g} L" for c in containers if isinstance(c, dict))
+    # no-break spaces inside one container size, so "1 × 0.5 L" never splits; a line may break at "+"
+    return " + ".join(f"{c.get('count', 1)}\u00a0×\u00a0{c.get('litres', 0):g}\u00a0L"
+                      for c in containers if isinstance(c, dict))
+
+
+@bp.app_template_filter("datetime")
+def datetime_text(timestamp) -> str:
+    """A Unix time as UTC text (the page's script shows it in the reader's own time zone)."""
+    if not isinstance(timestamp, (int, float)):
+        return ""
+    return time.strftime("%d %b %Y, %H:%M UTC", time.gmtime(timestamp))
 
 
 def _size_text(width_mm, height_mm, unit: str) -> str:

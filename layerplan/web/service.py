@@ -8,7 +8,7 @@ from typing import Any
 from flask import current_app, url_for
 
 from . import forms
-from .store import PlanRecord, PlanStore
+from .store import WEB_KEY, PlanRecord, PlanStore
 
 
 class Busy(Exception):
@@ -23,8 +23,15 @@ def store() -> PlanStore:
     return state().store
 
 
-def submit(form, files) -> str:
+def uploads():
+    """The :class:`~layerplan.web.uploads.UploadStash` of photos kept between tries of the form."""
+    return state().uploads
+
+
+def submit(form, files, *, photo: tuple[bytes, str] | None = None) -> str:
     """Check a plan request, store it and queue it; return the new plan's id.
+
+    ``photo`` (bytes, original name) replaces the form's ``image`` file when given.
 
     Raises
     ------
@@ -33,11 +40,12 @@ def submit(form, files) -> str:
     Busy
         The queue is full.
     """
-    req = forms.parse_plan_request(form, files)
+    req = forms.parse_plan_request(form, files, photo=photo)
     limit = int(current_app.config["MAX_QUEUED"])
     if store().count_in_state("queued") >= limit:
         raise Busy(f"{limit} plans are already waiting; try again in a few minutes")
     settings = req.settings.to_dict()
+    settings[WEB_KEY] = {"output": req.output_options, "wall_mm": list(req.wall_mm), "mm_per_px": req.mm_per_px}
     plan_id = store().create(settings, req.image_bytes, source_name=req.source_name,
                              inventory_text=req.inventory_text)
     state().runner.submit(plan_id)

@@ -39,6 +39,9 @@ UPLOAD_NAME = "upload"
 INVENTORY_NAME = "inventory.toml"
 WAITING_MESSAGE = "waiting for a free worker"
 OUT_DIR = "out"
+#: key in a record's settings holding what the web app adds to the planner's settings:
+#: ``{"output": export options, "wall_mm": [width, height], "mm_per_px": working pixel}``
+WEB_KEY = "web"
 
 _SCHEMA = """
 CREATE TABLE IF NOT EXISTS plans (
