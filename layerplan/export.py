@@ -57,7 +57,9 @@ def build_files(plan: Plan, *, grid_mm: float | None = None, **options) -> dict[
     if unknown:
         raise ValueError(f"unknown export option(s) {', '.join(unknown)}; valid: grid_mm, {', '.join(QUANTITY_OPTIONS)}")
     unit = str((plan.extra.get("settings") or {}).get("wall_unit", "m"))
-    grid_mm = check_grid(plan, default_grid_mm(unit) if grid_mm is None else grid_mm)
+    if grid_mm is None:
+        grid_mm = default_grid_mm(unit, shorter_side_mm=min(plan.wall_width_mm, plan.wall_height_mm))
+    grid_mm = check_grid(plan, grid_mm)
     plan.extra["paint_use"] = paint_use(plan, **options)
     files: dict[str, bytes] = {}
     rgb = plan.palette_rgb()

@@ -201,9 +201,23 @@ def _fit_box(plan: Plan, max_w_mm: float, max_h_mm: float) -> float:
     return min(max_w_mm, max_h_mm * aspect)
 
 
-def default_grid_mm(unit: str) -> float:
-    """The default transfer-grid square for a wall measured in ``unit``: 50 cm, or 2 ft for ft/in."""
-    return GRID_MM_US if unit in US_UNITS else GRID_MM
+#: a surface whose shorter side is under this many default squares gets the small-surface grid
+SMALL_SURFACE_SQUARES = 3
+#: grid square for small boards and sheets: 10 cm, or 4 in (common practice for squaring up a drawing)
+GRID_MM_SMALL, GRID_MM_SMALL_US = 100.0, 4 * 25.4
+
+
+def default_grid_mm(unit: str, *, shorter_side_mm: float | None = None) -> float:
+    """The default transfer-grid square: 50 cm, or 2 ft for walls measured in ft/in.
+
+    A surface whose shorter side holds fewer than ``SMALL_SURFACE_SQUARES`` such squares (a
+    classroom board, a sheet) gets 10 cm, or 4 in, so the grid still has squares to copy.
+    """
+    us = unit in US_UNITS
+    big = GRID_MM_US if us else GRID_MM
+    if shorter_side_mm is not None and shorter_side_mm < SMALL_SURFACE_SQUARES * big:
+        return GRID_MM_SMALL_US if us else GRID_MM_SMALL
+    return big
 
 
 def _length(mm: float, unit: str) -> str:
@@ -823,7 +837,9 @@ def plan_html(
     ISO 216 (A4); ANSI/ASME Y14.1 (Letter); W3C CSS Paged Media and Fragmentation.
     """
     unit = str((plan.extra.get("settings") or {}).get("wall_unit", "m"))
-    grid_mm = check_grid(plan, default_grid_mm(unit) if grid_mm is None else grid_mm)
+    if grid_mm is None:
+        grid_mm = default_grid_mm(unit, shorter_side_mm=min(plan.wall_width_mm, plan.wall_height_mm))
+    grid_mm = check_grid(plan, grid_mm)
     if steps is None:
         steps = render_steps(plan)
     elif len(steps) != len(plan.layers) + 1 or any(np.shape(c) != (plan.height_px, plan.width_px) for c in steps):

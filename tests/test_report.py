@@ -370,3 +370,15 @@ def test_settings_are_in_plain_words():
     for raw in ("inventory", "free palette", "tolerance de", "mix paints", "max parts", "wall width (mm)"):
         assert raw not in rows, raw
     assert "automatic" not in rows.get("inventory", "")
+
+
+def test_default_grid_is_finer_on_small_surfaces():
+    # 50 cm squares on walls, 10 cm on a 60 × 40 cm board (common practice: squaring up a drawing);
+    # 2 ft / 4 in for surfaces measured in feet (1 ft = 304.8 mm exactly, 1959 agreement)
+    from layerplan.report import default_grid_mm
+
+    assert default_grid_mm("m", shorter_side_mm=2000.0) == 500.0
+    assert default_grid_mm("cm", shorter_side_mm=400.0) == 100.0
+    assert default_grid_mm("ft", shorter_side_mm=2438.4) == 609.6
+    assert default_grid_mm("in", shorter_side_mm=600.0) == 101.6
+    assert default_grid_mm("m") == 500.0
