@@ -14,8 +14,6 @@ reported separately.
 
 from __future__ import annotations
 
-import os
-import platform
 import statistics
 import sys
 import time
@@ -37,18 +35,11 @@ TARGET_S = 2.0  # issue 3
 
 
 def _machine() -> str:
-    cpu = platform.processor() or "unknown CPU"
-    try:
-        for line in Path("/proc/cpuinfo").read_text().splitlines():
-            if line.startswith("model name"):
-                cpu = line.split(":", 1)[1].strip()
-                break
-    except OSError:
-        pass
-    import numba
+    from bench.__main__ import machine
 
-    return (f"{cpu}; {os.cpu_count()} logical CPUs; {platform.system()} {platform.release()}; "
-            f"Python {platform.python_version()}, numpy {np.__version__}, numba {numba.__version__}")
+    m = machine()
+    return (f"{m['cpu']}; {m['nproc']} logical CPUs; {m['ram']} RAM; {m['platform']}; "
+            f"Python {m['python']}, numpy {m['numpy']}, numba {m['numba']}")
 
 
 def main() -> int:
