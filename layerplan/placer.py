@@ -76,7 +76,7 @@ class BrushLimits:
             max_length_mm=9.0 * width_mm,
             min_segment_mm=0.5 * width_mm,
             max_segment_mm=1.5 * width_mm,
-            max_turn_deg=40.0,
+            max_turn_deg=60.0,
         )
 
 
