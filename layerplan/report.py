@@ -258,7 +258,7 @@ def _container_size(size: float, us: bool) -> str:
     return _num(size, 3) + " L"
 
 
-def _litres(litres: float, us: bool, *, used: bool = False) -> str:
+def format_litres(litres: float, us: bool, *, used: bool = False) -> str:
     """A volume to read: litres from 0.1 L up, millilitres below ("35 mL"); US fluid
     ounces or gallons beside for walls in ft/in. ``used``: more than nothing, even if it
     rounds to 0."""
@@ -284,7 +284,7 @@ def _litres(litres: float, us: bool, *, used: bool = False) -> str:
 
 def _volume(entry: dict[str, Any], us: bool) -> str:
     used = bool(entry.get("trace") or entry.get("for") or entry.get("strokes") or entry.get("ground_area_m2"))
-    return _litres(entry["litres"], us, used=used)
+    return format_litres(entry["litres"], us, used=used)
 
 
 def _area(m2: float, unit: str) -> str:
@@ -490,7 +490,7 @@ def _cover(plan: Plan, imgs, title: str, use: dict[str, Any], unit: str) -> str:
         facts.append(("match to the photo", f"mean ΔE00 {_num(stats['mean_delta_e_final'], 1)} "
                                             "(CIEDE2000; under about 2 reads as the same colour at a glance)"))
     total_l = sum(p["litres"] for p in use["paints"])
-    facts.append(("paint in all", f"about {_litres(total_l, us, used=True)}"))
+    facts.append(("paint in all", f"about {format_litres(total_l, us, used=True)}"))
     fact_rows = "".join(f"<tr><td>{_e(k)}</td><td>{_e(v)}</td></tr>" for k, v in facts)
     return f"""
 <section class="sheet" id="cover">
@@ -615,7 +615,7 @@ def _shopping(plan: Plan, use: dict[str, Any], unit: str) -> str:
     out.append("<h3>Each paint of the plan</h3><table class='mixed compact'><tr><th>paint</th><th class='num'>area</th>"
                f"<th class='num'>amount</th><th>how</th><th>containers</th></tr>{''.join(rows)}</table>")
     if any(_is_trace(e) for e in list(use.get("stock") or []) + list(use["paints"])):
-        out.append(f"<p class='small'>A <b>trace amount</b> is under {_litres(TRACE_LITRES, us)}: too little to "
+        out.append(f"<p class='small'>A <b>trace amount</b> is under {format_litres(TRACE_LITRES, us)}: too little to "
                    "buy a container for. A squeeze from an artist's tube or what is left in a pot will do; buy "
                    "the smallest container only if you have none. Mix small amounts by measuring the parts "
                    "with a spoon or a syringe.</p>")

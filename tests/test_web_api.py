@@ -620,3 +620,13 @@ def test_bad_inventory_is_refused(client, how, extra, pattern):
     r = client.post("/api/plans", data=data, content_type="multipart/form-data")
     assert r.status_code == 400
     assert re.search(pattern, r.get_json()["error"]), r.get_json()["error"]
+
+
+def test_amounts_on_the_plan_page_read_as_on_the_printed_plan():
+    # litres from 0.1 L, millilitres below (1 L = 1000 mL, SI); a trace is not shown as 0
+    from layerplan.web.pages import litres_text
+
+    assert litres_text(1.8434) == "1.84 L"
+    assert litres_text(0.035) == "35 mL"
+    assert litres_text(0.0002) == "under 1 mL"
+    assert litres_text(None) == ""

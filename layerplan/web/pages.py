@@ -291,10 +291,12 @@ def _stock_list(use: dict[str, Any]) -> list[dict[str, Any]]:
 
 @bp.app_template_filter("litres")
 def litres_text(value) -> str:
-    """Litres to two decimals; a trace shows as "< 0.01" rather than a misleading 0.00."""
+    """A volume as the printed plan writes it: litres from 0.1 L, millilitres below ("35 mL")."""
     if not isinstance(value, (int, float)):
         return ""
-    return "< 0.01" if 0 < value < 0.005 else f"{value:.2f}"
+    from ..report import format_litres
+
+    return format_litres(float(value), False, used=value > 0)
 
 
 @bp.app_template_global()
