@@ -11,13 +11,16 @@ from .ground import choose_ground
 from .layers import layer_specs
 from .order import painting_order
 from .palette import palette_from_image
-from .placer import orientation_field, place_layer, prune_strokes
+from .placer import orientation_field, place_layer, prune_strokes, relax_strokes
 from .plan import Layer, Paint, Plan, Stroke, rgb_to_hex
 from .raster import render_steps
 from .settings import Settings, choose_mm_per_px, raster_size
 
 #: share of the progress bar given to each phase (planning strokes dominates)
-_P_PREP, _P_LAYERS = 0.12, 0.8
+_P_PREP, _P_LAYERS = 0.12, 0.75
+#: relaxation passes over all strokes after the last layer, and moves tried per stroke and pass; deleting
+#: strokes by their cost is off: on the bench it gave worse pictures for the same stroke count (issue 4)
+RELAX_PASSES, RELAX_TRIES, RELAX_DELETE = 2, 30, False
 
 
 def _noop(fraction: float, message: str) -> None:
@@ -159,12 +162,14 @@ def make_plan(image: np.ndarray, settings: Settings, *, progress=None) -> Plan:
     ]
     specs = layer_specs(settings.brushes_mm, s, settings.stroke_cost)
     placed = []
+    thetas = []
     span = _P_LAYERS / len(specs)
     for n, spec in enumerate(specs):
         base = _P_PREP + n * span
         label = f"layer {spec.number} of {len(specs)} ({spec.limits.width_mm:g} mm brush)"
         report(base, label)
         theta = orientation_field(target_lab, spec.direction_sigma_px)
+        thetas.append(theta)
 
         def sub(fraction, message, base=base, label=label):
             report(base + span * min(1.0, fraction), f"{label}: {message}")
@@ -174,13 +179,27 @@ def make_plan(image: np.ndarray, settings: Settings, *, progress=None) -> Plan:
             cost=spec.cost, seed=settings.seed * 7919 + spec.number, progress=sub,
             tries=spec.tries, patience=spec.patience,
         ))
-    report(_P_PREP + _P_LAYERS, "taking away strokes later ones hid")
+    report(_P_PREP + _P_LAYERS, "relaxing strokes against the finished picture")
     layer_of = np.concatenate([np.full(len(r.points), n) for n, r in enumerate(placed)]).astype(int)
-    keep = prune_strokes(
-        planes, ground, [p for r in placed for p in r.points],
-        np.array([specs[n].limits.width_mm for n in layer_of]), np.concatenate([r.paints for r in placed]),
-        mm_per_px=s,
+    all_points, all_paints, alive, _ = relax_strokes(
+        planes, ground, [p for r in placed for p in r.points], layer_of, np.concatenate([r.paints for r in placed]),
+        [spec.limits for spec in specs], [spec.cost for spec in specs], thetas, mm_per_px=s,
+        wall_mm=(wall_w, wall_h), seed=settings.seed * 7919, passes=RELAX_PASSES, tries=RELAX_TRIES,
+        delete=RELAX_DELETE,
     )
+    report(_P_PREP + _P_LAYERS + 0.08, "taking away strokes later ones hid")
+    live = np.flatnonzero(alive)
+    keep = np.zeros(len(alive), dtype=bool)
+    keep[live] = prune_strokes(
+        planes, ground, [all_points[i] for i in live], np.array([specs[n].limits.width_mm for n in layer_of[live]]),
+        all_paints[live], mm_per_px=s,
+    )
+    offset = 0
+    for result in placed:
+        m = len(result.points)
+        result.points = all_points[offset : offset + m]
+        result.paints = all_paints[offset : offset + m]
+        offset += m
     report(0.97, "ordering strokes for painting")
     layers = []
     offset = 0

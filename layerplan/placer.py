@@ -237,6 +237,115 @@ def _angle_at(theta, x, y, s):
 
 
 @njit(cache=True, nogil=True)
+def _propose(cur, n, cand, theta, s, step, max_turn):
+    """One random local move of the stroke cur[:n] into cand (which holds a copy of cur).
+
+    Lengthen at either end turning toward the isophote, shorten, shift, turn, or bend a
+    vertex. Returns the candidate's vertex count, or 0 when the move does not apply.
+    """
+    m = n
+    move = np.random.randint(0, 6)
+    if move <= 1:
+        # lengthen at one end, turning toward the isophote there
+        if n >= MAX_POINTS:
+            return 0
+        at_end = np.random.randint(0, 2) == 1 or n == 1
+        if n == 1:
+            ang = _angle_at(theta, cur[0, 0], cur[0, 1], s)
+            ex = cur[0, 0]
+            ey = cur[0, 1]
+            dirx = math.cos(ang)
+            diry = math.sin(ang)
+        elif at_end:
+            ex = cur[n - 1, 0]
+            ey = cur[n - 1, 1]
+            dirx = cur[n - 1, 0] - cur[n - 2, 0]
+            diry = cur[n - 1, 1] - cur[n - 2, 1]
+        else:
+            ex = cur[0, 0]
+            ey = cur[0, 1]
+            dirx = cur[0, 0] - cur[1, 0]
+            diry = cur[0, 1] - cur[1, 1]
+        ln = math.sqrt(dirx * dirx + diry * diry)
+        if ln <= 0.0:
+            return 0
+        dirx /= ln
+        diry /= ln
+        ang = _angle_at(theta, ex, ey, s)
+        tx = math.cos(ang)
+        ty = math.sin(ang)
+        if tx * dirx + ty * diry < 0.0:
+            tx = -tx
+            ty = -ty
+        # blend toward the isophote with a random wobble, then clamp the turn
+        cur_a = math.atan2(diry, dirx)
+        want = math.atan2(ty, tx)
+        d = want - cur_a
+        while d > math.pi:
+            d -= 2 * math.pi
+        while d < -math.pi:
+            d += 2 * math.pi
+        d += np.random.normal() * 0.3
+        d = max(-max_turn, min(max_turn, d))
+        na = cur_a + d
+        seg_len = step * (0.75 + 0.5 * np.random.random())
+        nx = _round_grid(ex + seg_len * math.cos(na))
+        ny = _round_grid(ey + seg_len * math.sin(na))
+        if at_end:
+            cand[n, 0] = nx
+            cand[n, 1] = ny
+        else:
+            for p in range(n, 0, -1):
+                cand[p, 0] = cand[p - 1, 0]
+                cand[p, 1] = cand[p - 1, 1]
+            cand[0, 0] = nx
+            cand[0, 1] = ny
+        m = n + 1
+    elif move == 2:
+        # shorten: drop one end vertex
+        if n <= 1:
+            return 0
+        if np.random.randint(0, 2) == 1:
+            m = n - 1
+        else:
+            for p in range(n - 1):
+                cand[p, 0] = cur[p + 1, 0]
+                cand[p, 1] = cur[p + 1, 1]
+            m = n - 1
+    elif move == 3:
+        # shift the whole stroke
+        dx = np.random.normal() * 0.3 * step
+        dy = np.random.normal() * 0.3 * step
+        for p in range(n):
+            cand[p, 0] = _round_grid(cur[p, 0] + dx)
+            cand[p, 1] = _round_grid(cur[p, 1] + dy)
+    elif move == 4:
+        # turn about the centroid
+        if n <= 1:
+            return 0
+        mx = 0.0
+        my = 0.0
+        for p in range(n):
+            mx += cur[p, 0]
+            my += cur[p, 1]
+        mx /= n
+        my /= n
+        da = np.random.normal() * 0.25
+        ca = math.cos(da)
+        sa = math.sin(da)
+        for p in range(n):
+            ox = cur[p, 0] - mx
+            oy = cur[p, 1] - my
+            cand[p, 0] = _round_grid(mx + ca * ox - sa * oy)
+            cand[p, 1] = _round_grid(my + sa * ox + ca * oy)
+    else:
+        # bend: move one vertex
+        p = np.random.randint(0, n)
+        cand[p, 0] = _round_grid(cur[p, 0] + np.random.normal() * 0.25 * step)
+        cand[p, 1] = _round_grid(cur[p, 1] + np.random.normal() * 0.25 * step)
+    return m
+
+@njit(cache=True, nogil=True)
 def _place_layer(planes, best_err, canvas, err, stamp, theta, births, width_mm, s, cost,
                  min_len, max_len, min_seg, max_seg, max_turn, wall_w, wall_h,
                  tries, patience, probe, give_up, seed, start_dab, out_pts, out_n, out_paint, out_gain, start_count):
@@ -302,110 +411,10 @@ def _place_layer(planes, best_err, canvas, err, stamp, theta, births, width_mm, 
             for p in range(n):
                 cand[p, 0] = cur[p, 0]
                 cand[p, 1] = cur[p, 1]
-            m = n
-            move = np.random.randint(0, 6)
-            if move <= 1:
-                # lengthen at one end, turning toward the isophote there
-                if n >= MAX_POINTS:
-                    fails += 1
-                    continue
-                at_end = np.random.randint(0, 2) == 1 or n == 1
-                if n == 1:
-                    ang = _angle_at(theta, cur[0, 0], cur[0, 1], s)
-                    ex = cur[0, 0]
-                    ey = cur[0, 1]
-                    dirx = math.cos(ang)
-                    diry = math.sin(ang)
-                elif at_end:
-                    ex = cur[n - 1, 0]
-                    ey = cur[n - 1, 1]
-                    dirx = cur[n - 1, 0] - cur[n - 2, 0]
-                    diry = cur[n - 1, 1] - cur[n - 2, 1]
-                else:
-                    ex = cur[0, 0]
-                    ey = cur[0, 1]
-                    dirx = cur[0, 0] - cur[1, 0]
-                    diry = cur[0, 1] - cur[1, 1]
-                ln = math.sqrt(dirx * dirx + diry * diry)
-                if ln <= 0.0:
-                    fails += 1
-                    continue
-                dirx /= ln
-                diry /= ln
-                ang = _angle_at(theta, ex, ey, s)
-                tx = math.cos(ang)
-                ty = math.sin(ang)
-                if tx * dirx + ty * diry < 0.0:
-                    tx = -tx
-                    ty = -ty
-                # blend toward the isophote with a random wobble, then clamp the turn
-                cur_a = math.atan2(diry, dirx)
-                want = math.atan2(ty, tx)
-                d = want - cur_a
-                while d > math.pi:
-                    d -= 2 * math.pi
-                while d < -math.pi:
-                    d += 2 * math.pi
-                d += np.random.normal() * 0.3
-                d = max(-max_turn, min(max_turn, d))
-                na = cur_a + d
-                seg_len = step * (0.75 + 0.5 * np.random.random())
-                nx = _round_grid(ex + seg_len * math.cos(na))
-                ny = _round_grid(ey + seg_len * math.sin(na))
-                if at_end:
-                    cand[n, 0] = nx
-                    cand[n, 1] = ny
-                else:
-                    for p in range(n, 0, -1):
-                        cand[p, 0] = cand[p - 1, 0]
-                        cand[p, 1] = cand[p - 1, 1]
-                    cand[0, 0] = nx
-                    cand[0, 1] = ny
-                m = n + 1
-            elif move == 2:
-                # shorten: drop one end vertex
-                if n <= 1:
-                    fails += 1
-                    continue
-                if np.random.randint(0, 2) == 1:
-                    m = n - 1
-                else:
-                    for p in range(n - 1):
-                        cand[p, 0] = cur[p + 1, 0]
-                        cand[p, 1] = cur[p + 1, 1]
-                    m = n - 1
-            elif move == 3:
-                # shift the whole stroke
-                dx = np.random.normal() * 0.3 * step
-                dy = np.random.normal() * 0.3 * step
-                for p in range(n):
-                    cand[p, 0] = _round_grid(cur[p, 0] + dx)
-                    cand[p, 1] = _round_grid(cur[p, 1] + dy)
-            elif move == 4:
-                # turn about the centroid
-                if n <= 1:
-                    fails += 1
-                    continue
-                mx = 0.0
-                my = 0.0
-                for p in range(n):
-                    mx += cur[p, 0]
-                    my += cur[p, 1]
-                mx /= n
-                my /= n
-                da = np.random.normal() * 0.25
-                ca = math.cos(da)
-                sa = math.sin(da)
-                for p in range(n):
-                    ox = cur[p, 0] - mx
-                    oy = cur[p, 1] - my
-                    cand[p, 0] = _round_grid(mx + ca * ox - sa * oy)
-                    cand[p, 1] = _round_grid(my + sa * ox + ca * oy)
-            else:
-                # bend: move one vertex
-                p = np.random.randint(0, n)
-                cand[p, 0] = _round_grid(cur[p, 0] + np.random.normal() * 0.25 * step)
-                cand[p, 1] = _round_grid(cur[p, 1] + np.random.normal() * 0.25 * step)
+            m = _propose(cur, n, cand, theta, s, step, max_turn)
+            if m == 0:
+                fails += 1
+                continue
             if not _valid(cand, m, width_mm, min_len, max_len, min_seg, max_seg, cos_max_turn, wall_w, wall_h):
                 fails += 1
                 continue
@@ -665,3 +674,313 @@ def prune_strokes(planes, ground: int, points, widths, paints, *, mm_per_px: flo
             for other in partners.get(int(k), ()):
                 blocked[other] = True
     return alive
+
+
+@njit(cache=True, nogil=True)
+def _footprint_px(pts, n, width_mm, s, h, w, stamp, stamp_id, buf_i, buf_j):
+    """Pixels the stroke covers (the rendering rule's set, as in `_footprint_gain`); returns their count.
+
+    Each pixel found is marked ``stamp[i, j] = stamp_id``.
+    """
+    half_w = 0.5 * width_mm
+    half_w2 = half_w * half_w
+    c = 0
+    nseg = max(1, n - 1)
+    for sidx in range(nseg):
+        if n > 1:
+            ax = pts[sidx, 0]
+            ay = pts[sidx, 1]
+            bx = pts[sidx + 1, 0]
+            by = pts[sidx + 1, 1]
+            seg = pts[sidx : sidx + 2]
+            m = 2
+        else:
+            ax = pts[0, 0]
+            ay = pts[0, 1]
+            bx = ax
+            by = ay
+            seg = pts[0:1]
+            m = 1
+        ymin = min(ay, by)
+        ymax = max(ay, by)
+        i0 = max(0, int(math.floor((ymin - half_w) / s - 0.5)))
+        i1 = min(h, int(math.ceil((ymax + half_w) / s - 0.5)) + 1)
+        for i in range(i0, i1):
+            cy = (i + 0.5) * s
+            x0, x1 = _row_span(ax, ay, bx, by, half_w, cy)
+            if x0 > x1 + 2 * _EDGE_MM:
+                continue
+            j0 = max(0, int(math.ceil((x0 - _EDGE_MM) / s - 0.5)))
+            j1 = min(w - 1, int(math.floor((x1 + _EDGE_MM) / s - 0.5)))
+            for j in range(j0, j1 + 1):
+                if stamp[i, j] == stamp_id:
+                    continue
+                cx = (j + 0.5) * s
+                if cx - x0 < _EDGE_MM or x1 - cx < _EDGE_MM:
+                    if not covers(seg, m, half_w2, cx, cy):
+                        continue
+                stamp[i, j] = stamp_id
+                buf_i[c] = i
+                buf_j[c] = j
+                c += 1
+    return c
+
+
+@njit(cache=True, nogil=True)
+def _relax_pass(planes, top_idx, top_paint, under_idx, under_paint, stale, all_pts, counts, paints, alive,
+                layer_of, thetas, widths, costs, min_len, max_len, min_seg, max_seg, max_turn, wall_w, wall_h,
+                s, tries, seed, delete):
+    """One relaxation pass over every live stroke, in file order; returns the energy change (≤ 0).
+
+    For stroke k, a candidate geometry F' with paint q changes the finished picture only where
+    k is on top after or before the move: pixels of F' not covered by a later stroke take q, and
+    pixels of the old footprint F where k was on top but F' no longer covers show the paint just
+    under k. The (top, under) stack is kept exact after each accepted move except for the
+    "under" of pixels k uncovered (or had been directly under the top): those are marked stale,
+    and a candidate needing a stale "under" is refused until the next pass rebuilds the stack.
+    Deleting k (energy change: the error it uncovers minus its cost) is tried first.
+    """
+    np.random.seed(seed)
+    h, w, k = planes.shape
+    n_strokes = counts.shape[0]
+    stamp = np.zeros((h, w), np.int64)
+    stamp_id = 0
+    cap = 1
+    for t in range(n_strokes):
+        r_px = int(math.ceil(widths[layer_of[t]] / s)) + 2
+        cap = max(cap, (2 * r_px + 2) * (2 * r_px + 2) * MAX_POINTS * 2)
+    cap = min(cap, h * w)
+    old_i = np.empty(cap, np.int32)
+    old_j = np.empty(cap, np.int32)
+    new_i = np.empty(cap, np.int32)
+    new_j = np.empty(cap, np.int32)
+    best_i = np.empty(cap, np.int32)
+    best_j = np.empty(cap, np.int32)
+    sums = np.empty(k, np.float64)
+    cur = np.zeros((MAX_POINTS, 2), np.float64)
+    cand = np.zeros((MAX_POINTS, 2), np.float64)
+    total = 0.0
+    for st in range(n_strokes):
+        if not alive[st]:
+            continue
+        lay = layer_of[st]
+        width = widths[lay]
+        cos_max_turn = math.cos(max_turn[lay])
+        n = counts[st]
+        for p in range(n):
+            cur[p, 0] = all_pts[st, p, 0]
+            cur[p, 1] = all_pts[st, p, 1]
+        paint = paints[st]
+        stamp_id += 1
+        old_id = stamp_id
+        nold = _footprint_px(cur, n, width, s, h, w, stamp, old_id, old_i, old_j)
+        # delete: k's visible pixels show what is under them
+        uncover = 0.0
+        ok = True
+        for c in range(nold):
+            i = old_i[c]
+            j = old_j[c]
+            if top_idx[i, j] == st:
+                if stale[i, j]:
+                    ok = False
+                    break
+                uncover += planes[i, j, under_paint[i, j]] - planes[i, j, paint]
+        if delete and ok and uncover - costs[lay] < -1e-9:
+            for c in range(nold):
+                i = old_i[c]
+                j = old_j[c]
+                if top_idx[i, j] == st:
+                    top_idx[i, j] = under_idx[i, j]
+                    top_paint[i, j] = under_paint[i, j]
+                    stale[i, j] = True
+                elif under_idx[i, j] == st:
+                    stale[i, j] = True
+            alive[st] = False
+            total += uncover - costs[lay]
+            continue
+        # recolour in place, then random local moves; each candidate takes its best paint
+        best_n = -1
+        best_d = -1e-9
+        best_q = paint
+        best_np = 0
+        for t in range(tries + 1):
+            m = n
+            for p in range(n):
+                cand[p, 0] = cur[p, 0]
+                cand[p, 1] = cur[p, 1]
+            if t > 0:
+                m = _propose(cur, n, cand, thetas[lay], s, width, max_turn[lay])
+                if m == 0:
+                    continue
+                if not _valid(cand, m, width, min_len[lay], max_len[lay], min_seg[lay], max_seg[lay], cos_max_turn,
+                              wall_w, wall_h):
+                    continue
+            stamp_id += 1
+            new_id = stamp_id
+            nnew = _footprint_px(cand, m, width, s, h, w, stamp, new_id, new_i, new_j)
+            for q in range(k):
+                sums[q] = 0.0
+            base = 0.0
+            for c in range(nnew):
+                i = new_i[c]
+                j = new_j[c]
+                if top_idx[i, j] <= st:
+                    base -= planes[i, j, top_paint[i, j]]
+                    for q in range(k):
+                        sums[q] += planes[i, j, q]
+            ok = True
+            for c in range(nold):
+                i = old_i[c]
+                j = old_j[c]
+                if top_idx[i, j] == st and stamp[i, j] != new_id:
+                    if stale[i, j]:
+                        ok = False
+                        break
+                    base += planes[i, j, under_paint[i, j]] - planes[i, j, paint]
+            if not ok:
+                continue
+            bq = 0
+            bd = 1e300
+            for q in range(k):
+                if sums[q] < bd:
+                    bd = sums[q]
+                    bq = q
+            d = base + bd
+            if d < best_d:
+                best_d = d
+                best_q = bq
+                best_n = m
+                best_np = nnew
+                for p in range(m):
+                    all_pts[st, p, 0] = cand[p, 0]
+                    all_pts[st, p, 1] = cand[p, 1]
+                best_i[:nnew] = new_i[:nnew]
+                best_j[:nnew] = new_j[:nnew]
+                # climb from the better stroke
+                n = m
+                for p in range(m):
+                    cur[p, 0] = cand[p, 0]
+                    cur[p, 1] = cand[p, 1]
+                # the old footprint and the stack still describe the stroke as it was: apply now
+                _apply_move(st, best_q, paint, best_i, best_j, best_np, old_i, old_j, nold, stamp, top_idx,
+                            top_paint, under_idx, under_paint, stale, new_id)
+                total += d
+                paint = best_q
+                # the applied footprint is the stroke's footprint from here on
+                old_i[:nnew] = new_i[:nnew]
+                old_j[:nnew] = new_j[:nnew]
+                nold = nnew
+                best_d = -1e-9
+        counts[st] = n
+        paints[st] = paint
+    return total
+
+
+@njit(cache=True, nogil=True)
+def _apply_move(st, q, old_paint, new_i, new_j, nnew, old_i, old_j, nold, stamp, top_idx, top_paint, under_idx,
+                under_paint, stale, new_id):
+    """Update the (top, under) stack after stroke st moved from footprint old to new (stamped new_id) with paint q."""
+    for c in range(nold):
+        i = old_i[c]
+        j = old_j[c]
+        if stamp[i, j] == new_id:
+            continue
+        if top_idx[i, j] == st:
+            top_idx[i, j] = under_idx[i, j]
+            top_paint[i, j] = under_paint[i, j]
+            stale[i, j] = True
+        elif under_idx[i, j] == st:
+            stale[i, j] = True
+    for c in range(nnew):
+        i = new_i[c]
+        j = new_j[c]
+        t = top_idx[i, j]
+        if t == st:
+            top_paint[i, j] = q
+        elif t < st:
+            under_idx[i, j] = t
+            under_paint[i, j] = top_paint[i, j]
+            top_idx[i, j] = st
+            top_paint[i, j] = q
+            stale[i, j] = False
+        elif not stale[i, j]:
+            u = under_idx[i, j]
+            if u == st:
+                under_paint[i, j] = q
+            elif u < st:
+                under_idx[i, j] = st
+                under_paint[i, j] = q
+
+
+def relax_strokes(planes, ground: int, points, layer_of, paints, limits, costs, thetas, *, mm_per_px: float,
+                  wall_mm, seed: int, passes: int = 2, tries: int = 20, delete: bool = True):
+    """Revisit every stroke of the finished picture and keep local moves that lower its energy.
+
+    After all layers are placed, each stroke in turn (file order) may be deleted, recoloured,
+    shifted, turned, lengthened, shortened or bent; a change is kept only if it lowers the
+    energy of the *finished* picture, Σ ΔE00 + cost per stroke. Strokes are opaque and painted
+    in file order, so a change to stroke k shows only where no later stroke covers it; a
+    per-pixel stack (top stroke, and the stroke and paint just under it) gives the exact
+    change. The stack is rebuilt before each pass.
+
+    Parameters
+    ----------
+    planes : (H, W, K) float32 array
+    ground : int, palette position of the ground
+    points : list of (n_i, 2) arrays in wall mm, in file order over all layers
+    layer_of : (N,) int array, layer position of each stroke (into ``limits``, ``costs``, ``thetas``)
+    paints : (N,) int array
+    limits : list of BrushLimits, one per layer
+    costs : sequence of float, stroke cost per layer
+    thetas : list of (H, W) float arrays, stroke direction field per layer
+    mm_per_px : float
+    wall_mm : (float, float)
+    seed : int
+    passes : int
+        Relaxation passes over all strokes.
+    tries : int
+        Random local moves tried per stroke and pass.
+    delete : bool
+        Whether deleting a stroke is one of the moves.
+
+    Returns
+    -------
+    points : list of (n_i, 2) arrays
+    paints : (N,) int64 array
+    alive : (N,) bool array, False for deleted strokes
+    change : float, energy change (≤ 0)
+
+    References
+    ----------
+    Hertzmann (2001), "Paint by Relaxation".
+    """
+    n = len(points)
+    alive = np.ones(n, dtype=np.bool_)
+    paints = np.asarray(paints, dtype=np.int64).copy()
+    if n == 0:
+        return [], paints, alive, 0.0
+    h, w, _ = planes.shape
+    layer_of = np.asarray(layer_of, dtype=np.int64)
+    counts = np.array([len(p) for p in points], dtype=np.int64)
+    pts3 = np.zeros((n, MAX_POINTS, 2), dtype=np.float64)
+    for i, p in enumerate(points):
+        pts3[i, : len(p)] = p
+    widths = np.array([lim.width_mm for lim in limits], dtype=np.float64)
+    th = np.ascontiguousarray(np.stack(thetas), dtype=np.float64)
+    arr = lambda f: np.array([f(lim) for lim in limits], dtype=np.float64)  # noqa: E731
+    change = 0.0
+    for r in range(passes):
+        counts_c = counts.copy()
+        starts = np.zeros(n, dtype=np.int64)
+        starts[1:] = np.cumsum(counts_c)[:-1]
+        flat = np.ascontiguousarray(np.concatenate([pts3[i, : counts_c[i]] for i in range(n)]))
+        top_idx, top_paint, under_paint, under_idx = _stack_tops(
+            h, w, float(mm_per_px), flat, starts, counts_c, widths[layer_of], paints, alive, int(ground))
+        stale = np.zeros((h, w), dtype=np.bool_)
+        change += _relax_pass(
+            planes, top_idx, top_paint, under_idx, under_paint, stale, pts3, counts, paints, alive, layer_of, th,
+            widths, np.asarray(costs, dtype=np.float64), arr(lambda lim: lim.min_length_mm),
+            arr(lambda lim: lim.max_length_mm), arr(lambda lim: lim.min_segment_mm),
+            arr(lambda lim: lim.max_segment_mm), np.radians(arr(lambda lim: lim.max_turn_deg)),
+            float(wall_mm[0]), float(wall_mm[1]), float(mm_per_px), int(tries), int(seed * 1000 + r), bool(delete))
+    return [pts3[i, : counts[i]].copy() for i in range(n)], paints, alive, float(change)

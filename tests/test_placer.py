@@ -144,3 +144,81 @@ def json_copy(doc):
     import json
 
     return json.loads(json.dumps(doc))
+
+
+def _two_layers(seed):
+    """Strokes of two layers placed on the noisy blobs, as the pipeline does before clean-up."""
+    img = _noisy_blobs(seed=seed)
+    pal = [[230, 220, 200], [180, 40, 40], [40, 90, 170], [60, 140, 60]]
+    lab, planes = _setup(img, pal)
+    s = 4.0
+    wall = (img.shape[1] * s, img.shape[0] * s)
+    canvas = np.zeros(img.shape[:2], np.int16)
+    err = np.ascontiguousarray(planes[:, :, 0])
+    limits, costs, thetas, points, paints, layer_of = [], [], [], [], [], []
+    for n, width in enumerate((24.0, 12.0)):
+        lim = BrushLimits.for_brush(width)
+        theta = orientation_field(lab, 0.5 * width / s)
+        cost = 5.0 * (width / s) ** 2
+        res = place_layer(planes, canvas, err, theta, lim, mm_per_px=s, wall_mm=wall, cost=cost, seed=n)
+        limits.append(lim)
+        costs.append(cost)
+        thetas.append(theta)
+        points += res.points
+        paints += list(res.paints)
+        layer_of += [n] * len(res.points)
+    return planes, s, wall, limits, costs, thetas, points, np.array(paints), np.array(layer_of)
+
+
+def _energy(planes, s, limits, costs, points, paints, layer_of, alive):
+    """Energy of Hertzmann (2001), "Paint by Relaxation", from scratch: render in file order, sum ΔE00, add costs."""
+    idx = np.zeros(planes.shape[:2], np.int64)
+    e = 0.0
+    for pts, q, lay, a in zip(points, paints, layer_of, alive):
+        if a:
+            idx[stroke_mask(pts, limits[lay].width_mm, s, idx.shape)] = q
+            e += costs[lay]
+    rows, cols = np.indices(idx.shape)
+    return planes[rows, cols, idx].sum(dtype=float) + e
+
+
+@pytest.mark.parametrize("delete", [True, False])
+def test_relaxation_lowers_the_finished_energy_by_what_it_reports(delete):
+    from layerplan.placer import relax_strokes
+
+    planes, s, wall, limits, costs, thetas, points, paints, layer_of = _two_layers(seed=6)
+    assert len(points) > 10
+    before = _energy(planes, s, limits, costs, points, paints, layer_of, np.ones(len(points), bool))
+    new_pts, new_paints, alive, change = relax_strokes(
+        planes, 0, points, layer_of, paints, limits, costs, thetas, mm_per_px=s, wall_mm=wall, seed=1,
+        passes=2, tries=30, delete=delete)
+    after = _energy(planes, s, limits, costs, new_pts, new_paints, layer_of, alive)
+    assert change < 0.0
+    assert after - before == pytest.approx(change, rel=1e-4, abs=1e-2)
+    if not delete:
+        assert alive.all()
+    # the moved strokes still obey their brush (same checks as test_brush_limits_hold_for_every_stroke)
+    for p, lay in zip(new_pts, layer_of):
+        lim = limits[lay]
+        seg = np.diff(p, axis=0)
+        lens = np.hypot(seg[:, 0], seg[:, 1])
+        assert lim.min_length_mm - 1e-6 <= lens.sum() + lim.width_mm <= lim.max_length_mm + 1e-6
+        assert ((lens >= lim.min_segment_mm - 1e-6) & (lens <= lim.max_segment_mm + 1e-6)).all()
+        cos_turn = math.cos(math.radians(lim.max_turn_deg))
+        for a, b in zip(seg[:-1], seg[1:]):
+            assert np.dot(a, b) >= cos_turn * np.linalg.norm(a) * np.linalg.norm(b) - 1e-6
+        assert (p >= 0).all() and (p[:, 0] <= wall[0]).all() and (p[:, 1] <= wall[1]).all()
+        assert np.allclose(p * 10, np.round(p * 10), atol=1e-9)
+
+
+def test_relaxation_is_deterministic_under_a_seed():
+    from layerplan.placer import relax_strokes
+
+    planes, s, wall, limits, costs, thetas, points, paints, layer_of = _two_layers(seed=7)
+    runs = []
+    for seed in (2, 2, 3):
+        p, q, alive, _ = relax_strokes(planes, 0, points, layer_of, paints, limits, costs, thetas, mm_per_px=s,
+                                       wall_mm=wall, seed=seed, passes=1, tries=20)
+        runs.append((np.concatenate(p).tobytes(), q.tobytes(), alive.tobytes()))
+    assert runs[0] == runs[1]
+    assert runs[0] != runs[2]
