@@ -799,7 +799,6 @@ def _relax_pass(planes, top_idx, top_paint, under_idx, under_paint, stale, all_p
             total += uncover - costs[lay]
             continue
         # recolour in place, then random local moves; each candidate takes its best paint
-        best_n = -1
         best_d = -1e-9
         best_q = paint
         best_np = 0
@@ -849,7 +848,6 @@ def _relax_pass(planes, top_idx, top_paint, under_idx, under_paint, stale, all_p
             if d < best_d:
                 best_d = d
                 best_q = bq
-                best_n = m
                 best_np = nnew
                 for p in range(m):
                     all_pts[st, p, 0] = cand[p, 0]

@@ -16,7 +16,7 @@ import uuid
 
 import pytest
 
-from conftest import LiveServer, make_web_app, plan_form, png_bytes, quadrants, wait_for_plan
+from conftest import make_web_app, plan_form, png_bytes, quadrants, wait_for_plan
 from layerplan.settings import Settings
 from layerplan.web.jobs import LocalProcessRunner, recover, settings_from_dict
 from layerplan.web.store import PlanStore
