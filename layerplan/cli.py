@@ -158,6 +158,7 @@ def cmd_plan(args) -> int:
     from .load import load_image
     from .pipeline import make_plan
     from .progress import TerminalBar
+    from .svg import MAX_GRID_LINES
 
     settings = _settings_from_args(args)
     options = _output_options(args)
@@ -165,10 +166,10 @@ def cmd_plan(args) -> int:
         settings = settings.validated()
     except ValueError as exc:
         raise UsageError(cli_paints.name_option(str(exc))) from exc
-    # layerplan.svg.MAX_GRID_LINES; height checked later
-    if options["grid_mm"] is not None and settings.wall_width_mm / options["grid_mm"] > 200:
+    # the height may come from the photo: checked at export
+    if options["grid_mm"] is not None and settings.wall_width_mm / options["grid_mm"] > MAX_GRID_LINES:
         raise UsageError(f"--grid {args.grid} is too fine for a {settings.wall_width_mm / 1000:g} m wide wall "
-                         f"(at most 200 squares across)")
+                         f"(at most {MAX_GRID_LINES} squares across)")
     try:
         out = check_destination(args.out)  # before the long work, not after it
     except ValueError as exc:

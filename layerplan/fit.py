@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 from PIL import Image
 
-FITS = ("cover", "contain")
+from .settings import FITS
 
 
 def fit_to_wall(image: np.ndarray, width_px: int, height_px: int, *, fit: str = "cover"):

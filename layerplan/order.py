@@ -14,21 +14,7 @@ import heapq
 import numpy as np
 from numba import njit
 
-from .raster import covers, push_pair, stroke_bbox
-
-
-@njit(cache=True, nogil=True)
-def _last_cover(h, w, all_pts, starts, counts, width, s):
-    last = np.full((h, w), -1, np.int64)
-    half2 = 0.25 * width * width
-    for k in range(len(starts)):
-        pts = all_pts[starts[k] : starts[k] + counts[k]]
-        i0, i1, j0, j1 = stroke_bbox(pts, counts[k], 0.5 * width, s, h, w)
-        for i in range(i0, i1):
-            for j in range(j0, j1):
-                if covers(pts, counts[k], half2, (j + 0.5) * s, (i + 0.5) * s):
-                    last[i, j] = k
-    return last
+from .raster import covers, push_pair, stack_tops, stroke_bbox
 
 
 @njit(cache=True, nogil=True)
@@ -87,7 +73,9 @@ def painting_order(points, paints, width_mm: float, mm_per_px: float, shape) -> 
     starts = np.zeros(n, dtype=np.int64)
     starts[1:] = np.cumsum(counts)[:-1]
     all_pts = np.ascontiguousarray(np.concatenate(points).reshape(-1, 2), dtype=np.float64)
-    last = _last_cover(shape[0], shape[1], all_pts, starts, counts, float(width_mm), float(mm_per_px))
+    # the last stroke over each pixel: the one whose paint shows there after the layer
+    last = stack_tops(shape[0], shape[1], float(mm_per_px), all_pts, starts, counts, np.full(n, float(width_mm)),
+                      paints, np.ones(n, dtype=np.bool_), -1)[0]
     edges = _must_precede(last, all_pts, starts, counts, paints, float(width_mm), float(mm_per_px))
     if len(edges):
         edges = np.unique(edges, axis=0)

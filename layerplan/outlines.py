@@ -42,7 +42,7 @@ import numpy as np
 from numba import njit
 
 from .plan import Plan
-from .raster import pack_strokes, paint_strokes
+from .raster import paint_layer
 
 #: default contour simplification, as a fraction of the layer's brush width ...
 TOLERANCE_BRUSH_FRACTION = 1 / 10
@@ -443,12 +443,7 @@ def layer_canvas(plan: Plan, n: int) -> np.ndarray:
         If ``n`` is not a layer number of the plan.
     """
     _check_layer(plan, n)
-    canvas = np.full((plan.height_px, plan.width_px), -1, dtype=np.int16)
-    layer = plan.layers[n - 1]
-    if layer.strokes:
-        pts, starts, counts, widths, paints = pack_strokes(layer.strokes, plan.paint_index())
-        paint_strokes(canvas, np.ascontiguousarray(pts), starts, counts, widths, paints, float(plan.mm_per_px))
-    return canvas
+    return paint_layer(np.full((plan.height_px, plan.width_px), -1, dtype=np.int16), plan, plan.layers[n - 1])
 
 
 def _check_layer(plan: Plan, n) -> None:

@@ -52,12 +52,18 @@ def kmeans_lab(sample: np.ndarray, k: int, *, seed: int) -> np.ndarray:
     return km.cluster_centers_.astype(float)
 
 
-def palette_from_image(target: np.ndarray, inside: np.ndarray, k: int, *, seed: int):
+def lightest_first(rgb: np.ndarray, lab: np.ndarray):
+    """Palette colours ordered lightest first (then by a*, b*), as palette ids run P1 = lightest."""
+    order = np.lexsort((lab[:, 2], lab[:, 1], -lab[:, 0]))
+    return rgb[order], lab[order], order
+
+
+def palette_from_image(target_lab: np.ndarray, inside: np.ndarray, k: int, *, seed: int):
     """The plan's paints: k-means in CIELAB over the photo's pixels.
 
     Parameters
     ----------
-    target : (H, W, 3) uint8 array
+    target_lab : (H, W, 3) float array, the photo on the raster in CIELAB
     inside : (H, W) bool array, pixels that belong to the photo
     k : int
         Number of paints wanted.
@@ -74,11 +80,8 @@ def palette_from_image(target: np.ndarray, inside: np.ndarray, k: int, *, seed: 
     ----------
     Lloyd (1982); Arthur & Vassilvitskii (2007); CIE 15:2004 for CIELAB.
     """
-    pixels = target[inside].reshape(-1, 3)
-    lab = srgb_to_lab(pixels)
+    lab = target_lab[inside].reshape(-1, 3)
     centres = kmeans_lab(sample_pixels(lab, seed=seed), k, seed=seed)
-    rgb = lab_to_srgb(centres)
-    rgb = np.unique(rgb, axis=0)
-    lab = srgb_to_lab(rgb)
-    order = np.lexsort((lab[:, 2], lab[:, 1], -lab[:, 0]))
-    return rgb[order], lab[order]
+    rgb = np.unique(lab_to_srgb(centres), axis=0)
+    rgb, lab, _ = lightest_first(rgb, srgb_to_lab(rgb))
+    return rgb, lab

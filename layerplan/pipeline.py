@@ -10,11 +10,11 @@ from .fit import fit_to_wall
 from .ground import choose_ground
 from .layers import layer_specs
 from .order import painting_order
-from .palette import palette_from_image
+from .palette import lightest_first, palette_from_image
 from .placer import orientation_field, place_layer, prune_strokes, relax_strokes
 from .plan import Layer, Paint, Plan, Stroke, rgb_to_hex
 from .raster import render_steps
-from .settings import Settings, choose_mm_per_px, raster_size
+from .settings import HARD_MAX_RASTER_PX, MAX_WALL_MM, MIN_RASTER_SIDE_PX, Settings, working_raster
 
 #: share of the progress bar given to each phase (planning strokes dominates)
 _P_PREP, _P_LAYERS = 0.12, 0.75
@@ -25,15 +25,6 @@ RELAX_PASSES, RELAX_TRIES, RELAX_DELETE = 2, 30, False
 
 def _noop(fraction: float, message: str) -> None:
     pass
-
-
-def wall_size(settings: Settings, image_shape) -> tuple[float, float]:
-    """Wall width and height in mm; a missing height follows the photo's aspect."""
-    h, w = image_shape[:2]
-    height = settings.wall_height_mm
-    if height is None:
-        height = settings.wall_width_mm * h / w
-    return float(settings.wall_width_mm), float(height)
 
 
 def mix_palette(pal_rgb: np.ndarray, pal_lab: np.ndarray, settings: Settings):
@@ -87,9 +78,8 @@ def mix_palette(pal_rgb: np.ndarray, pal_lab: np.ndarray, settings: Settings):
         keep.setdefault(r.predicted_srgb, i)
     chosen = list(keep.values())
     rgb = np.array([hex_to_rgb(found[i].predicted_srgb) for i in chosen], dtype=np.uint8).reshape(-1, 3)
-    lab = srgb_to_lab(rgb)
-    order = np.lexsort((lab[:, 2], lab[:, 1], -lab[:, 0]))  # lightest first, as palette_from_image
-    return rgb[order], lab[order], [found[chosen[i]].to_dict() for i in order], stock
+    rgb, lab, order = lightest_first(rgb, srgb_to_lab(rgb))
+    return rgb, lab, [found[chosen[i]].to_dict() for i in order], stock
 
 
 def make_plan(image: np.ndarray, settings: Settings, *, progress=None) -> Plan:
@@ -120,27 +110,24 @@ def make_plan(image: np.ndarray, settings: Settings, *, progress=None) -> Plan:
     image = np.asarray(image)
     if image.ndim != 3 or image.shape[2] != 3 or image.dtype != np.uint8:
         raise ValueError(f"image must be an (H, W, 3) uint8 array, got {image.dtype} {image.shape}")
-    wall_w, wall_h = wall_size(settings, image.shape)
-    settings = settings.validated() if settings.wall_height_mm else settings
-    if wall_h > 100_000.0:
-        raise ValueError(f"wall height must be at most 100 m, got {wall_h / 1000:g} m")
-    s = settings.mm_per_px or choose_mm_per_px(wall_w, wall_h, min(settings.brushes_mm))
-    width_px, height_px = raster_size(wall_w, wall_h, s)
-    if width_px * height_px > 8_000_000:
+    wall_w, wall_h, s, width_px, height_px = working_raster(settings, image.shape)
+    if wall_h > MAX_WALL_MM:
+        raise ValueError(f"wall height must be at most {MAX_WALL_MM / 1000:g} m, got {wall_h / 1000:g} m")
+    if width_px * height_px > HARD_MAX_RASTER_PX:
         raise ValueError(
-            f"working raster of {width_px}x{height_px} px is too large (at most 8 megapixels); "
-            f"use a coarser pixel size than {s:g} mm"
+            f"working raster of {width_px}x{height_px} px is too large (at most {HARD_MAX_RASTER_PX / 1e6:g} "
+            f"megapixels); use a coarser pixel size than {s:g} mm"
         )
-    if width_px < 8 or height_px < 8:
+    if min(width_px, height_px) < MIN_RASTER_SIDE_PX:
         raise ValueError(f"working raster of {width_px}x{height_px} px is too small; use a finer pixel size than {s:g} mm")
     report(0.0, "fitting the photo to the wall")
     target, inside = fit_to_wall(image, width_px, height_px, fit=settings.fit)
 
     report(0.03, "choosing paints")
-    pal_rgb, pal_lab = palette_from_image(target, inside, settings.paints, seed=settings.seed)
+    target_lab = srgb_to_lab(target)
+    pal_rgb, pal_lab = palette_from_image(target_lab, inside, settings.paints, seed=settings.seed)
     report(0.045, "mixing recipes from the paints")
     pal_rgb, pal_lab, recipes, inventory = mix_palette(pal_rgb, pal_lab, settings)
-    target_lab = srgb_to_lab(target)
 
     report(0.06, "measuring colour error")
     planes = error_planes(target_lab, pal_lab)

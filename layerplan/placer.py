@@ -31,7 +31,7 @@ from dataclasses import dataclass
 import numpy as np
 from numba import njit
 
-from .raster import covers, push_pair, stroke_bbox
+from .raster import covers, push_pair, stack_tops
 
 #: stroke points are kept on a 0.1 mm grid so plan.json holds them exactly
 POINT_GRID_MM = 0.1
@@ -139,19 +139,15 @@ _EDGE_MM = 1e-6
 
 
 @njit(cache=True, nogil=True)
-def _footprint_gain(pts, n, width_mm, s, planes, err, stamp, stamp_id, sums, buf_i, buf_j):
-    """Gain of painting the stroke with each paint; returns (best gain, best paint, pixel count).
+def _footprint_px(pts, n, width_mm, s, h, w, stamp, stamp_id, buf_i, buf_j):
+    """Pixels the stroke covers, exactly the rendering rule's set; returns their count.
 
     Pixels are found row by row from the exact section of each segment's capsule; only the
-    pixels within _EDGE_MM of an edge go through `raster.covers`, so the set is exactly the
-    rendering rule's.
+    pixels within _EDGE_MM of an edge go through `raster.covers`. Each pixel found is marked
+    ``stamp[i, j] = stamp_id`` (so segments sharing a pixel count it once).
     """
-    h, w, k = planes.shape
     half_w = 0.5 * width_mm
     half_w2 = half_w * half_w
-    base = 0.0
-    for q in range(k):
-        sums[q] = 0.0
     c = 0
     nseg = max(1, n - 1)
     for sidx in range(nseg):
@@ -188,12 +184,29 @@ def _footprint_gain(pts, n, width_mm, s, planes, err, stamp, stamp_id, sums, buf
                     if not covers(seg, m, half_w2, cx, cy):
                         continue
                 stamp[i, j] = stamp_id
-                base += err[i, j]
-                for q in range(k):
-                    sums[q] += planes[i, j, q]
                 buf_i[c] = i
                 buf_j[c] = j
                 c += 1
+    return c
+
+
+@njit(cache=True, nogil=True)
+def _footprint_gain(pts, n, width_mm, s, planes, err, stamp, stamp_id, sums, buf_i, buf_j):
+    """Gain of painting the stroke with each paint; returns (best gain, best paint, pixel count).
+
+    The pixels are `_footprint_px`'s (exactly the rendering rule's set), left in buf_i/buf_j.
+    """
+    h, w, k = planes.shape
+    c = _footprint_px(pts, n, width_mm, s, h, w, stamp, stamp_id, buf_i, buf_j)
+    base = 0.0
+    for q in range(k):
+        sums[q] = 0.0
+    for t in range(c):
+        i = buf_i[t]
+        j = buf_j[t]
+        base += err[i, j]
+        for q in range(k):
+            sums[q] += planes[i, j, q]
     best = -1e30
     bq = 0
     for q in range(k):
@@ -564,30 +577,6 @@ def place_layer(planes, canvas, err, theta, limits: BrushLimits, *, mm_per_px: f
 
 
 @njit(cache=True, nogil=True)
-def _stack_tops(h, w, s, all_pts, starts, counts, widths, paints, alive, ground):
-    """Per pixel: the top stroke, its paint, and the stroke and paint just under it."""
-    top_idx = np.full((h, w), -1, np.int64)
-    top_paint = np.full((h, w), ground, np.int64)
-    under_paint = np.full((h, w), ground, np.int64)
-    under_idx = np.full((h, w), -1, np.int64)
-    for k in range(len(starts)):
-        if not alive[k]:
-            continue
-        pts = all_pts[starts[k] : starts[k] + counts[k]]
-        half = 0.5 * widths[k]
-        i0, i1, j0, j1 = stroke_bbox(pts, counts[k], half, s, h, w)
-        for i in range(i0, i1):
-            cy = (i + 0.5) * s
-            for j in range(j0, j1):
-                if covers(pts, counts[k], half * half, (j + 0.5) * s, cy):
-                    under_paint[i, j] = top_paint[i, j]
-                    under_idx[i, j] = top_idx[i, j]
-                    top_paint[i, j] = paints[k]
-                    top_idx[i, j] = k
-    return top_idx, top_paint, under_paint, under_idx
-
-
-@njit(cache=True, nogil=True)
 def _contributions(planes, top_idx, top_paint, under_paint, n):
     """Error each stroke removes from the final picture: what would show without it, minus what shows."""
     h, w, _ = planes.shape
@@ -654,7 +643,7 @@ def prune_strokes(planes, ground: int, points, widths, paints, *, mm_per_px: flo
     widths = np.asarray(widths, dtype=np.float64)
     paints = np.asarray(paints, dtype=np.int64)
     for _ in range(max_passes):
-        top_idx, top_paint, under_paint, under_idx = _stack_tops(
+        top_idx, top_paint, under_paint, under_idx = stack_tops(
             h, w, float(mm_per_px), all_pts, starts, counts, widths, paints, alive, int(ground))
         gain = _contributions(planes, top_idx, top_paint, under_paint, n)
         candidate = alive & (gain <= 0.0)
@@ -674,56 +663,6 @@ def prune_strokes(planes, ground: int, points, widths, paints, *, mm_per_px: flo
             for other in partners.get(int(k), ()):
                 blocked[other] = True
     return alive
-
-
-@njit(cache=True, nogil=True)
-def _footprint_px(pts, n, width_mm, s, h, w, stamp, stamp_id, buf_i, buf_j):
-    """Pixels the stroke covers (the rendering rule's set, as in `_footprint_gain`); returns their count.
-
-    Each pixel found is marked ``stamp[i, j] = stamp_id``.
-    """
-    half_w = 0.5 * width_mm
-    half_w2 = half_w * half_w
-    c = 0
-    nseg = max(1, n - 1)
-    for sidx in range(nseg):
-        if n > 1:
-            ax = pts[sidx, 0]
-            ay = pts[sidx, 1]
-            bx = pts[sidx + 1, 0]
-            by = pts[sidx + 1, 1]
-            seg = pts[sidx : sidx + 2]
-            m = 2
-        else:
-            ax = pts[0, 0]
-            ay = pts[0, 1]
-            bx = ax
-            by = ay
-            seg = pts[0:1]
-            m = 1
-        ymin = min(ay, by)
-        ymax = max(ay, by)
-        i0 = max(0, int(math.floor((ymin - half_w) / s - 0.5)))
-        i1 = min(h, int(math.ceil((ymax + half_w) / s - 0.5)) + 1)
-        for i in range(i0, i1):
-            cy = (i + 0.5) * s
-            x0, x1 = _row_span(ax, ay, bx, by, half_w, cy)
-            if x0 > x1 + 2 * _EDGE_MM:
-                continue
-            j0 = max(0, int(math.ceil((x0 - _EDGE_MM) / s - 0.5)))
-            j1 = min(w - 1, int(math.floor((x1 + _EDGE_MM) / s - 0.5)))
-            for j in range(j0, j1 + 1):
-                if stamp[i, j] == stamp_id:
-                    continue
-                cx = (j + 0.5) * s
-                if cx - x0 < _EDGE_MM or x1 - cx < _EDGE_MM:
-                    if not covers(seg, m, half_w2, cx, cy):
-                        continue
-                stamp[i, j] = stamp_id
-                buf_i[c] = i
-                buf_j[c] = j
-                c += 1
-    return c
 
 
 @njit(cache=True, nogil=True)
@@ -972,7 +911,7 @@ def relax_strokes(planes, ground: int, points, layer_of, paints, limits, costs, 
         starts = np.zeros(n, dtype=np.int64)
         starts[1:] = np.cumsum(counts_c)[:-1]
         flat = np.ascontiguousarray(np.concatenate([pts3[i, : counts_c[i]] for i in range(n)]))
-        top_idx, top_paint, under_paint, under_idx = _stack_tops(
+        top_idx, top_paint, under_paint, under_idx = stack_tops(
             h, w, float(mm_per_px), flat, starts, counts_c, widths[layer_of], paints, alive, int(ground))
         stale = np.zeros((h, w), dtype=np.bool_)
         change += _relax_pass(

@@ -4,8 +4,8 @@ The raster pixel at row i, column j stands for the wall point
 ((j + 0.5)·mm_per_px, (i + 0.5)·mm_per_px). A stroke covers it when that point
 lies within width_mm / 2 of the stroke's polyline (round ends and joins). The
 ground covers every pixel; strokes are opaque and applied in file order, layer
-after layer. The placer uses :func:`stroke_pixels` too, so what it optimises is
-exactly what is rendered.
+after layer. The placer finds footprints with the same coverage test (`covers`), so
+what it optimises is exactly what is rendered.
 """
 
 from __future__ import annotations
@@ -69,25 +69,31 @@ def covers(pts, n, half_w2, cx, cy):
 
 
 @njit(cache=True, nogil=True)
-def stroke_pixels(pts, n, width_mm, s, h, w, out_i, out_j):
-    """Write the covered pixels of a stroke into out_i/out_j; return their count.
+def stack_tops(h, w, s, all_pts, starts, counts, widths, paints, alive, ground):
+    """Per pixel: the top stroke, its paint, and the stroke and paint just under it.
 
-    ``pts`` holds at least ``n`` (x, y) points in wall mm; ``s`` is mm per pixel.
-    ``out_i``/``out_j`` must be large enough for the stroke's bounding box.
+    Strokes are applied in order (those with ``alive[k]`` False are skipped); -1 and ``ground``
+    stand for "no stroke". Used by the painting order and by the placer's clean-up and relaxation.
     """
-    half_w = 0.5 * width_mm
-    half_w2 = half_w * half_w
-    i0, i1, j0, j1 = stroke_bbox(pts, n, half_w, s, h, w)
-    c = 0
-    for i in range(i0, i1):
-        cy = (i + 0.5) * s
-        for j in range(j0, j1):
-            cx = (j + 0.5) * s
-            if covers(pts, n, half_w2, cx, cy):
-                out_i[c] = i
-                out_j[c] = j
-                c += 1
-    return c
+    top_idx = np.full((h, w), -1, np.int64)
+    top_paint = np.full((h, w), ground, np.int64)
+    under_paint = np.full((h, w), ground, np.int64)
+    under_idx = np.full((h, w), -1, np.int64)
+    for k in range(len(starts)):
+        if not alive[k]:
+            continue
+        pts = all_pts[starts[k] : starts[k] + counts[k]]
+        half = 0.5 * widths[k]
+        i0, i1, j0, j1 = stroke_bbox(pts, counts[k], half, s, h, w)
+        for i in range(i0, i1):
+            cy = (i + 0.5) * s
+            for j in range(j0, j1):
+                if covers(pts, counts[k], half * half, (j + 0.5) * s, cy):
+                    under_paint[i, j] = top_paint[i, j]
+                    under_idx[i, j] = top_idx[i, j]
+                    top_paint[i, j] = paints[k]
+                    top_idx[i, j] = k
+    return top_idx, top_paint, under_paint, under_idx
 
 
 @njit(cache=True, nogil=True)
@@ -136,6 +142,24 @@ def pack_strokes(strokes, paint_index):
     return pts, starts, counts, widths, paints
 
 
+def paint_layer(canvas: np.ndarray, plan: Plan, layer, paint_index=None) -> np.ndarray:
+    """Apply one layer's strokes, in file order, to an (H, W) int16 canvas of palette positions, in place."""
+    if layer.strokes:
+        idx = plan.paint_index() if paint_index is None else paint_index
+        pts, starts, counts, widths, paints = pack_strokes(layer.strokes, idx)
+        paint_strokes(canvas, np.ascontiguousarray(pts), starts, counts, widths, paints, float(plan.mm_per_px))
+    return canvas
+
+
+def _walls(plan: Plan, layers):
+    """The wall after the ground, then after each of ``layers``: one canvas, updated in place."""
+    idx = plan.paint_index()
+    canvas = np.full((plan.height_px, plan.width_px), idx[plan.ground], dtype=np.int16)
+    yield canvas
+    for layer in layers:
+        yield paint_layer(canvas, plan, layer, idx)
+
+
 def render_indices(plan: Plan, *, upto_layer: int | None = None) -> np.ndarray:
     """Paint index of every raster pixel after the ground and the first layers.
 
@@ -149,13 +173,8 @@ def render_indices(plan: Plan, *, upto_layer: int | None = None) -> np.ndarray:
     -------
     canvas : (H, W) int16 array of palette positions
     """
-    idx = plan.paint_index()
-    canvas = np.full((plan.height_px, plan.width_px), idx[plan.ground], dtype=np.int16)
-    layers = plan.layers if upto_layer is None else plan.layers[:upto_layer]
-    for layer in layers:
-        if layer.strokes:
-            pts, starts, counts, widths, paints = pack_strokes(layer.strokes, idx)
-            paint_strokes(canvas, pts, starts, counts, widths, paints, float(plan.mm_per_px))
+    for canvas in _walls(plan, plan.layers if upto_layer is None else plan.layers[:upto_layer]):
+        pass
     return canvas
 
 
@@ -171,15 +190,7 @@ def render(plan: Plan, *, upto_layer: int | None = None) -> np.ndarray:
 
 def render_steps(plan: Plan) -> list[np.ndarray]:
     """Cumulative (H, W) index canvases: ground only, then after each layer."""
-    idx = plan.paint_index()
-    canvas = np.full((plan.height_px, plan.width_px), idx[plan.ground], dtype=np.int16)
-    out = [canvas.copy()]
-    for layer in plan.layers:
-        if layer.strokes:
-            pts, starts, counts, widths, paints = pack_strokes(layer.strokes, idx)
-            paint_strokes(canvas, pts, starts, counts, widths, paints, float(plan.mm_per_px))
-        out.append(canvas.copy())
-    return out
+    return [canvas.copy() for canvas in _walls(plan, plan.layers)]
 
 
 def stroke_mask(stroke_path_mm, width_mm: float, mm_per_px: float, shape) -> np.ndarray:

@@ -21,6 +21,8 @@ MIN_PAINTS, MAX_PAINTS = 2, 32
 MAX_BRUSHES = 8
 #: largest wall side we accept, mm (100 m: bigger than any mural wall we expect)
 MAX_WALL_MM = 100_000.0
+#: smallest working raster side, px (below it a plan cannot show anything)
+MIN_RASTER_SIDE_PX = 8
 FITS = ("cover", "contain")
 #: ΔE00 a stroke must remove per (brush width)² of wall. Our choice between fidelity and work on the
 #: ladder: on the bench photos it keeps plans near 1.1 × the palette's floor with a fifth or less of the
@@ -154,3 +156,18 @@ def choose_mm_per_px(wall_width_mm: float, wall_height_mm: float, narrowest_brus
 def raster_size(wall_width_mm: float, wall_height_mm: float, mm_per_px: float) -> tuple[int, int]:
     """(width_px, height_px) of the working raster: the wall divided into whole pixels."""
     return max(1, int(round(wall_width_mm / mm_per_px))), max(1, int(round(wall_height_mm / mm_per_px)))
+
+
+def working_raster(settings: Settings, image_shape) -> tuple[float, float, float, int, int]:
+    """Wall size and working raster for a photo: ``(wall_w_mm, wall_h_mm, mm_per_px, width_px, height_px)``.
+
+    A missing wall height follows the photo's aspect ratio; a missing pixel size comes from
+    :func:`choose_mm_per_px`. The limits (``MAX_WALL_MM``, ``HARD_MAX_RASTER_PX``,
+    ``MIN_RASTER_SIDE_PX``) are checked by the callers, each in its own words.
+    """
+    h, w = image_shape[:2]
+    wall_w = float(settings.wall_width_mm)
+    wall_h = float(settings.wall_height_mm) if settings.wall_height_mm is not None else wall_w * h / w
+    s = settings.mm_per_px or choose_mm_per_px(wall_w, wall_h, min(settings.brushes_mm))
+    width_px, height_px = raster_size(wall_w, wall_h, s)
+    return wall_w, wall_h, s, width_px, height_px

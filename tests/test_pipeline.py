@@ -66,7 +66,7 @@ def test_palette_matches_scikit_learn_kmeans_on_the_same_sample():
     order_a = np.lexsort(ours.T[::-1])
     order_b = np.lexsort(ref.T[::-1])
     np.testing.assert_allclose(ours[order_a], ref[order_b], atol=1e-6)
-    rgb, pal_lab = palette_from_image(img, np.ones(img.shape[:2], bool), 6, seed=11)
+    rgb, pal_lab = palette_from_image(srgb_to_lab(img), np.ones(img.shape[:2], bool), 6, seed=11)
     assert len(rgb) == 6 and np.all(np.diff(pal_lab[:, 0]) <= 0)  # lightest first
 
 

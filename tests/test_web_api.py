@@ -318,14 +318,21 @@ def test_file_route_serves_only_the_plans_outputs(client, app):
     assert (store.plan_dir(plan_id) / "upload").read_bytes() == png_bytes(quadrants())
 
 
+class _IdleRunner:
+    """A job runner that never runs anything: plans stay queued."""
+
+    def submit(self, plan_id): pass
+    def cancel(self, plan_id): pass
+    def shutdown(self, *, wait=False): pass
+
+
+def _idle_app(tmp_path):
+    return make_web_app(tmp_path / "data", JOB_RUNNER=lambda app, store: _IdleRunner())
+
+
 def test_files_of_an_unfinished_plan_are_not_served(tmp_path):
     # no workers run here, so the plan stays queued
-    class Idle:
-        def submit(self, plan_id): pass
-        def cancel(self, plan_id): pass
-        def shutdown(self, *, wait=False): pass
-
-    app = make_web_app(tmp_path / "data", JOB_RUNNER=lambda app, store: Idle())
+    app = _idle_app(tmp_path)
     try:
         client = app.test_client()
         plan_id = _post(client).get_json()["id"]
@@ -482,12 +489,7 @@ def test_recent_plans_tell_two_plans_of_one_photo_apart(client):
 
 
 def test_progress_page_shows_what_is_being_planned(tmp_path):
-    class Idle:
-        def submit(self, plan_id): pass
-        def cancel(self, plan_id): pass
-        def shutdown(self, *, wait=False): pass
-
-    app = make_web_app(tmp_path / "data", JOB_RUNNER=lambda app, store: Idle())
+    app = _idle_app(tmp_path)
     try:
         client = app.test_client()
         plan_id = _post(client, max_parts="4", waste="20", grid="1ft", wall_height="").get_json()["id"]

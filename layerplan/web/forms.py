@@ -18,8 +18,9 @@ from layerplan import units
 from layerplan.load import ACCEPTED_FORMATS, ImageError, load_image
 from layerplan.recipes import MAX_MIX_PAINTS, MAX_TOLERANCE_DE
 from layerplan.recipes import MAX_PARTS_LIMIT as MAX_PARTS
+from layerplan.svg import MAX_GRID_LINES
 from layerplan.settings import (DEFAULT_BRUSHES_MM, HARD_MAX_RASTER_PX, MAX_PAINTS, MAX_WALL_MM, MIN_PAINTS,
-                                Settings, choose_mm_per_px, raster_size)
+                                MIN_RASTER_SIDE_PX, Settings, working_raster)
 
 #: brush kits offered on the start page: our own names, widths in mm, widest first.
 #: Widths follow common flat-brush sizes for wall work (4", 2", 1", 1/2" ≈ 100, 50, 25, 12 mm;
@@ -32,13 +33,11 @@ BRUSH_KITS: dict[str, dict[str, Any]] = {
 }
 DEFAULT_KIT = "hall"
 UNIT_CHOICES = ("m", "cm", "mm", "ft", "in")
-#: the working raster must be at least this many pixels on each side (as the planner requires)
-MIN_RASTER_SIDE_PX = 8
 #: upper bound on a seed, so it stays an ordinary integer everywhere
 MAX_SEED = 2**32 - 1
-#: most transfer-grid squares along the longest side (as layerplan.svg.MAX_GRID_LINES; checked here,
-#: before queueing, so a too-fine grid is refused at once rather than failing the plan at export)
-MAX_GRID_SQUARES = 200
+#: most transfer-grid squares along the longest side (checked here, before queueing, so a too-fine
+#: grid is refused at once rather than failing the plan at export)
+MAX_GRID_SQUARES = MAX_GRID_LINES
 
 #: the labels the start page shows for each form field; every message names a field by its label
 LABELS: dict[str, str] = {
@@ -120,14 +119,10 @@ def parse_plan_request(form, files, *, photo: tuple[bytes, str] | None = None) -
     options = _output_options(form)
     inventory_text = _inventory(form, files)
     image = _decode(data, name)
-    h, w = image.shape[:2]
-    wall_w = settings.wall_width_mm
-    wall_h = settings.wall_height_mm if settings.wall_height_mm is not None else wall_w * h / w
+    wall_w, wall_h, s, width_px, height_px = working_raster(settings, image.shape)
     if not math.isfinite(wall_h) or wall_h > MAX_WALL_MM:
         raise RequestError(f"the height from the photo's shape would be {wall_h / 1000:g} m, over the "
                            f"{MAX_WALL_MM / 1000:g} m limit; give the Height", field="wall_height")
-    s = settings.mm_per_px or choose_mm_per_px(wall_w, wall_h, min(settings.brushes_mm))
-    width_px, height_px = raster_size(wall_w, wall_h, s)
     if width_px * height_px > HARD_MAX_RASTER_PX:
         raise RequestError(f"working raster of {width_px}x{height_px} px is too large (at most "
                            f"{HARD_MAX_RASTER_PX / 1e6:g} megapixels); use a Pixel size (mm) coarser than {s:g} mm",
@@ -142,7 +137,7 @@ def parse_plan_request(form, files, *, photo: tuple[bytes, str] | None = None) -
         raise RequestError(f"{LABELS['grid']} of {grid:g} mm gives {math.ceil(longest / grid)} squares along the "
                            f"{longest / 1000:g} m side (at most {MAX_GRID_SQUARES}); use at least "
                            f"{math.ceil(longest / MAX_GRID_SQUARES):g} mm", field="grid")
-    return PlanRequest(image_bytes=data, source_name=name, settings=settings, image_shape=(h, w),
+    return PlanRequest(image_bytes=data, source_name=name, settings=settings, image_shape=image.shape[:2],
                        raster_px=(width_px, height_px), mm_per_px=s, inventory_text=inventory_text,
                        output_options=options, wall_mm=(float(wall_w), float(wall_h)))
 
