@@ -278,7 +278,9 @@ def test_a_refused_form_keeps_the_photo(page, server):
 def test_delete_a_plan(page, server):
     _fill_plan_form(page, server, kit="quick", pixel_mm="20")
     page.click("#submit")
-    page.wait_for_selector("#progress, #stepper")
+    # delete from the finished plan's page: the progress view reloads itself when the plan
+    # is done, and a click landing during that reload would be lost
+    page.wait_for_selector("#stepper", timeout=PLAN_TIMEOUT_MS)
     plan_url = page.url
     page.on("dialog", lambda dialog: dialog.accept())
     page.click("#delete")
