@@ -21,6 +21,7 @@ _P_PREP, _P_LAYERS = 0.12, 0.75
 #: relaxation passes over all strokes after the last layer, and moves tried per stroke and pass; deleting
 #: strokes by their cost is off: on the bench it gave worse pictures for the same stroke count (issue 4)
 RELAX_PASSES, RELAX_TRIES, RELAX_DELETE = 2, 30, False
+RELAX_PATIENCE = 1 << 30
 
 
 def _noop(fraction: float, message: str) -> None:
@@ -171,7 +172,8 @@ def make_plan(image: np.ndarray, settings: Settings, *, progress=None) -> Plan:
     all_points, all_paints, alive, _ = relax_strokes(
         planes, ground, [p for r in placed for p in r.points], layer_of, np.concatenate([r.paints for r in placed]),
         [spec.limits for spec in specs], [spec.cost for spec in specs], thetas, mm_per_px=s,
-        wall_mm=(wall_w, wall_h), seed=settings.seed * 7919, passes=RELAX_PASSES, tries=RELAX_TRIES,
+        wall_mm=(wall_w, wall_h), seed=settings.seed * 7919, passes=RELAX_PASSES,
+        tries=RELAX_TRIES, patience=RELAX_PATIENCE,
         delete=RELAX_DELETE,
     )
     report(_P_PREP + _P_LAYERS + 0.08, "taking away strokes later ones hid")

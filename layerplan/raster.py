@@ -4,8 +4,9 @@ The raster pixel at row i, column j stands for the wall point
 ((j + 0.5)·mm_per_px, (i + 0.5)·mm_per_px). A stroke covers it when that point
 lies within width_mm / 2 of the stroke's polyline (round ends and joins). The
 ground covers every pixel; strokes are opaque and applied in file order, layer
-after layer. The placer finds footprints with the same coverage test (`covers`), so
-what it optimises is exactly what is rendered.
+after layer. `paint_strokes` applies that test pixel by pixel (the reference); `footprint_runs`
+finds the same pixel set row by row, exactly and faster, for the placer and the
+stroke stack (`stack_tops`), so what is optimised is exactly what is rendered.
 """
 
 from __future__ import annotations
@@ -16,6 +17,9 @@ import numpy as np
 from numba import njit
 
 from .plan import Plan
+
+#: most vertices in one stroke's polyline (the placer's limit; sizes the footprint work arrays)
+MAX_POINTS = 10
 
 
 @njit(cache=True, nogil=True)
@@ -68,6 +72,134 @@ def covers(pts, n, half_w2, cx, cy):
     return False
 
 
+#: pixels whose centre is this close (mm) to a stroke's edge get the exact coverage test
+_EDGE_MM = 1e-6
+
+
+@njit(cache=True, nogil=True)
+def footprint_runs(pts, n, width_mm, s, h, w, runs, row_ab, row_n):
+    """Pixels the stroke covers, exactly the rendering rule's set, as row runs; returns the run count.
+
+    Run r is row ``runs[r, 0]``, columns ``runs[r, 1]`` to ``runs[r, 2]`` inclusive; runs are
+    disjoint and ordered by row. Each segment's capsule meets a pixel row in one interval,
+    found exactly (the hull of its end discs' and its middle slab's sections); only a
+    pixel within _EDGE_MM of an interval's end goes through `raster.covers`. The
+    intervals of a row are then merged. ``row_ab`` (h, MAX_POINTS, 2) and ``row_n`` (h,)
+    are scratch, all zero in ``row_n`` on entry and on return.
+    """
+    r = 0.5 * width_mm
+    r2 = r * r
+    nseg = max(1, n - 1)
+    m = min(n, 2)
+    ymin = pts[0, 1]
+    ymax = pts[0, 1]
+    for p in range(1, n):
+        ymin = min(ymin, pts[p, 1])
+        ymax = max(ymax, pts[p, 1])
+    i0 = max(0, int(math.floor((ymin - r) / s - 0.5)))
+    i1 = min(h, int(math.ceil((ymax + r) / s - 0.5)) + 1)
+    for sidx in range(nseg):
+        ax = pts[sidx, 0]
+        ay = pts[sidx, 1]
+        bx = ax
+        by = ay
+        if n > 1:
+            bx = pts[sidx + 1, 0]
+            by = pts[sidx + 1, 1]
+        vx = bx - ax
+        vy = by - ay
+        L = math.sqrt(vx * vx + vy * vy)
+        ux = 0.0
+        uy = 0.0
+        if L > 0.0:
+            ux = vx / L
+            uy = vy / L
+        ra = max(i0, int(math.floor((min(ay, by) - r) / s - 0.5)))
+        rb = min(i1, int(math.ceil((max(ay, by) + r) / s - 0.5)) + 1)
+        for i in range(ra, rb):
+            y = (i + 0.5) * s
+            x0 = 1e300
+            x1 = -1e300
+            dy = y - ay
+            if dy * dy <= r2:
+                half = math.sqrt(r2 - dy * dy)
+                x0 = min(x0, ax - half)
+                x1 = max(x1, ax + half)
+            dyb = y - by
+            if dyb * dyb <= r2:
+                half = math.sqrt(r2 - dyb * dyb)
+                x0 = min(x0, bx - half)
+                x1 = max(x1, bx + half)
+            if L > 0.0:
+                lo = -1e300
+                hi = 1e300
+                # along the segment: 0 <= ux (x - ax) + uy dy <= L
+                if abs(ux) > 1e-12:
+                    a = (0.0 - uy * dy) / ux
+                    b = (L - uy * dy) / ux
+                    lo = max(lo, min(a, b))
+                    hi = min(hi, max(a, b))
+                elif not (0.0 <= uy * dy <= L):
+                    hi = -1e300
+                # across it: -r <= ux dy - uy (x - ax) <= r
+                if abs(uy) > 1e-12:
+                    a = (ux * dy - r) / uy
+                    b = (ux * dy + r) / uy
+                    lo = max(lo, min(a, b))
+                    hi = min(hi, max(a, b))
+                elif abs(ux * dy) > r:
+                    hi = -1e300
+                if lo <= hi:
+                    x0 = min(x0, ax + lo)
+                    x1 = max(x1, ax + hi)
+            if x0 > x1 + 2 * _EDGE_MM:
+                continue
+            ja = max(0, int(math.ceil((x0 - _EDGE_MM) / s - 0.5)))
+            jb = min(w - 1, int(math.floor((x1 + _EDGE_MM) / s - 0.5)))
+            if ja <= jb:
+                cx = (ja + 0.5) * s
+                if (cx - x0 < _EDGE_MM or x1 - cx < _EDGE_MM) and not covers(pts[sidx : sidx + m], m, r2, cx, y):
+                    ja += 1
+            if ja <= jb:
+                cx = (jb + 0.5) * s
+                if (cx - x0 < _EDGE_MM or x1 - cx < _EDGE_MM) and not covers(pts[sidx : sidx + m], m, r2, cx, y):
+                    jb -= 1
+            if ja > jb:
+                continue
+            t = row_n[i]
+            while t > 0 and row_ab[i, t - 1, 0] > ja:
+                row_ab[i, t, 0] = row_ab[i, t - 1, 0]
+                row_ab[i, t, 1] = row_ab[i, t - 1, 1]
+                t -= 1
+            row_ab[i, t, 0] = ja
+            row_ab[i, t, 1] = jb
+            row_n[i] += 1
+    c = 0
+    for i in range(i0, i1):
+        k = row_n[i]
+        if k == 0:
+            continue
+        row_n[i] = 0
+        ca = row_ab[i, 0, 0]
+        cb = row_ab[i, 0, 1]
+        for t in range(1, k):
+            if row_ab[i, t, 0] <= cb + 1:
+                cb = max(cb, row_ab[i, t, 1])
+            else:
+                runs[c, 0] = i
+                runs[c, 1] = ca
+                runs[c, 2] = cb
+                c += 1
+                ca = row_ab[i, t, 0]
+                cb = row_ab[i, t, 1]
+        runs[c, 0] = i
+        runs[c, 1] = ca
+        runs[c, 2] = cb
+        c += 1
+    return c
+
+
+
 @njit(cache=True, nogil=True)
 def stack_tops(h, w, s, all_pts, starts, counts, widths, paints, alive, ground):
     """Per pixel: the top stroke, its paint, and the stroke and paint just under it.
@@ -79,20 +211,24 @@ def stack_tops(h, w, s, all_pts, starts, counts, widths, paints, alive, ground):
     top_paint = np.full((h, w), ground, np.int64)
     under_paint = np.full((h, w), ground, np.int64)
     under_idx = np.full((h, w), -1, np.int64)
+    most = 2
+    for k in range(len(starts)):
+        most = max(most, counts[k])
+    runs = np.empty((h * most, 3), np.int32)
+    row_ab = np.zeros((h, most, 2), np.int32)
+    row_n = np.zeros(h, np.int32)
     for k in range(len(starts)):
         if not alive[k]:
             continue
         pts = all_pts[starts[k] : starts[k] + counts[k]]
-        half = 0.5 * widths[k]
-        i0, i1, j0, j1 = stroke_bbox(pts, counts[k], half, s, h, w)
-        for i in range(i0, i1):
-            cy = (i + 0.5) * s
-            for j in range(j0, j1):
-                if covers(pts, counts[k], half * half, (j + 0.5) * s, cy):
-                    under_paint[i, j] = top_paint[i, j]
-                    under_idx[i, j] = top_idx[i, j]
-                    top_paint[i, j] = paints[k]
-                    top_idx[i, j] = k
+        nr = footprint_runs(pts, counts[k], widths[k], s, h, w, runs, row_ab, row_n)
+        for r in range(nr):
+            i = runs[r, 0]
+            for j in range(runs[r, 1], runs[r, 2] + 1):
+                under_paint[i, j] = top_paint[i, j]
+                under_idx[i, j] = top_idx[i, j]
+                top_paint[i, j] = paints[k]
+                top_idx[i, j] = k
     return top_idx, top_paint, under_paint, under_idx
 
 

@@ -26,16 +26,16 @@ def _noisy_blobs(seed=0, h=48, w=64):
     return img
 
 
-def test_every_stroke_lowers_the_energy_and_gains_are_exact():
-    # Energy of Hertzmann (2001) "Paint by Relaxation": summed colour error + cost per stroke.
+@pytest.mark.parametrize("s, width, cost", [(5.0, 20.0, 30.0), (2.0, 24.0, 400.0)])
+def test_every_stroke_lowers_the_energy_and_gains_are_exact(s, width, cost):
+    # Energy of Hertzmann (2001) "Paint by Relaxation": summed colour error + cost per stroke. The second case is
+    # a 12 px brush, refined on 2x2 pixel blocks before its exact check (placer.EVAL_BRUSH_PX)
     img = _noisy_blobs()
     pal = [[230, 220, 200], [180, 40, 40], [40, 90, 170], [60, 140, 60]]
     lab, planes = _setup(img, pal)
-    s, width = 5.0, 20.0
     canvas = np.zeros(img.shape[:2], np.int16)
     err = np.ascontiguousarray(planes[:, :, 0])
-    cost = 30.0
-    res = place_layer(planes, canvas, err, orientation_field(lab, 2.0), BrushLimits.for_brush(width),
+    res = place_layer(planes, canvas, err, orientation_field(lab, 0.1 * width / s), BrushLimits.for_brush(width),
                       mm_per_px=s, wall_mm=(img.shape[1] * s, img.shape[0] * s), cost=cost, seed=1)
     assert len(res.points) > 3
     # replay the strokes in placement order and recompute the energy from scratch
@@ -214,11 +214,11 @@ def test_relaxation_lowers_the_finished_energy_by_what_it_reports(delete):
 def test_relaxation_is_deterministic_under_a_seed():
     from layerplan.placer import relax_strokes
 
-    planes, s, wall, limits, costs, thetas, points, paints, layer_of = _two_layers(seed=7)
+    planes, s, wall, limits, costs, thetas, points, paints, layer_of = _two_layers(seed=8)
     runs = []
     for seed in (2, 2, 3):
         p, q, alive, _ = relax_strokes(planes, 0, points, layer_of, paints, limits, costs, thetas, mm_per_px=s,
-                                       wall_mm=wall, seed=seed, passes=1, tries=20)
+                                       wall_mm=wall, seed=seed, passes=2, tries=60)
         runs.append((np.concatenate(p).tobytes(), q.tobytes(), alive.tobytes()))
     assert runs[0] == runs[1]
     assert runs[0] != runs[2]
