@@ -20,7 +20,7 @@ from .settings import HARD_MAX_RASTER_PX, MAX_WALL_MM, MIN_RASTER_SIDE_PX, Setti
 _P_PREP, _P_LAYERS = 0.12, 0.75
 #: relaxation passes over all strokes after the last layer, and moves tried per stroke and pass; deleting
 #: strokes by their cost is off: on the bench it gave worse pictures for the same stroke count (issue 4)
-RELAX_PASSES, RELAX_TRIES, RELAX_DELETE = 2, 30, False
+RELAX_PASSES, RELAX_TRIES, RELAX_DELETE = 3, 60, False
 RELAX_PATIENCE = 1 << 30
 
 

@@ -27,7 +27,7 @@ FITS = ("cover", "contain")
 #: ΔE00 a stroke must remove per (brush width)² of wall. Our choice between fidelity and work on the
 #: ladder: on the bench photos it keeps plans near 1.1 × the palette's floor with a fifth or less of the
 #: strokes of the Hertzmann (1998) baseline (bench/results.md); lower it for more detail, raise it for fewer strokes
-DEFAULT_STROKE_COST = 5.0
+DEFAULT_STROKE_COST = 5.5
 
 
 @dataclass(frozen=True)
