@@ -17,11 +17,10 @@ from .raster import render_steps
 from .settings import HARD_MAX_RASTER_PX, MAX_WALL_MM, MIN_RASTER_SIDE_PX, Settings, working_raster
 
 #: share of the progress bar given to each phase (planning strokes dominates)
-_P_PREP, _P_LAYERS = 0.12, 0.75
+_P_PREP, _P_LAYERS, _P_RELAX = 0.12, 0.5, 0.3
 #: relaxation passes over all strokes after the last layer, and moves tried per stroke and pass; deleting
 #: strokes by their cost is off: on the bench it gave worse pictures for the same stroke count (issue 4)
 RELAX_PASSES, RELAX_TRIES, RELAX_DELETE = 3, 60, False
-RELAX_PATIENCE = 1 << 30
 
 
 def _noop(fraction: float, message: str) -> None:
@@ -167,16 +166,20 @@ def make_plan(image: np.ndarray, settings: Settings, *, progress=None) -> Plan:
             cost=spec.cost, seed=settings.seed * 7919 + spec.number, progress=sub,
             tries=spec.tries, patience=spec.patience,
         ))
-    report(_P_PREP + _P_LAYERS, "relaxing strokes against the finished picture")
+    relax_label = "relaxing strokes against the finished picture"
+    report(_P_PREP + _P_LAYERS, relax_label)
+
+    def relaxed(fraction, message):
+        report(_P_PREP + _P_LAYERS + _P_RELAX * fraction, f"{relax_label}: {message}")
+
     layer_of = np.concatenate([np.full(len(r.points), n) for n, r in enumerate(placed)]).astype(int)
     all_points, all_paints, alive, _ = relax_strokes(
         planes, ground, [p for r in placed for p in r.points], layer_of, np.concatenate([r.paints for r in placed]),
         [spec.limits for spec in specs], [spec.cost for spec in specs], thetas, mm_per_px=s,
-        wall_mm=(wall_w, wall_h), seed=settings.seed * 7919, passes=RELAX_PASSES,
-        tries=RELAX_TRIES, patience=RELAX_PATIENCE,
-        delete=RELAX_DELETE,
+        wall_mm=(wall_w, wall_h), seed=settings.seed * 7919, passes=RELAX_PASSES, tries=RELAX_TRIES,
+        delete=RELAX_DELETE, progress=relaxed,
     )
-    report(_P_PREP + _P_LAYERS + 0.08, "taking away strokes later ones hid")
+    report(_P_PREP + _P_LAYERS + _P_RELAX, "taking away strokes later ones hid")
     live = np.flatnonzero(alive)
     keep = np.zeros(len(alive), dtype=bool)
     keep[live] = prune_strokes(

@@ -630,7 +630,7 @@ def _visible(st, paint, old_i, old_j, nold, top_idx, under_paint, stale, planes,
 @njit(cache=True, nogil=True)
 def _relax_pass(planes, top_idx, top_paint, under_idx, under_paint, stale, all_pts, counts, paints, alive,
                 layer_of, thetas, widths, costs, min_len, max_len, min_seg, max_seg, max_turn, wall_w, wall_h,
-                s, tries, patience, seed, delete, moves, bend):
+                s, tries, seed, delete, moves, bend):
     """One relaxation pass over every live stroke, in file order; returns the energy change (≤ 0).
 
     For stroke k, a candidate geometry F' with paint q changes the finished picture only where
@@ -708,11 +708,7 @@ def _relax_pass(planes, top_idx, top_paint, under_idx, under_paint, stale, all_p
         best_d = -1e-9
         best_q = paint
         best_np = 0
-        fails = 0
         for t in range(tries[lay] + 1):
-            if fails >= patience:
-                break
-            fails += 1
             m = n
             for p in range(n):
                 cand[p, 0] = cur[p, 0]
@@ -779,7 +775,6 @@ def _relax_pass(planes, top_idx, top_paint, under_idx, under_paint, stale, all_p
                 nvis = _visible(st, paint, old_i, old_j, nold, top_idx, under_paint, stale, planes, vis_i, vis_j,
                                 vis_d, vis_s)
                 best_d = -1e-9
-                fails = 0
         counts[st] = n
         paints[st] = paint
     return total
@@ -822,7 +817,7 @@ def _apply_move(st, q, old_paint, new_i, new_j, nnew, old_i, old_j, nold, stamp,
 
 
 def relax_strokes(planes, ground: int, points, layer_of, paints, limits, costs, thetas, *, mm_per_px: float,
-                  wall_mm, seed: int, passes: int = 2, tries=20, patience: int = 1 << 30, delete: bool = True):
+                  wall_mm, seed: int, passes: int = 2, tries=20, delete: bool = True, progress=None):
     """Revisit every stroke of the finished picture and keep local moves that lower its energy.
 
     After all layers are placed, each stroke in turn (file order) may be deleted, recoloured,
@@ -847,10 +842,12 @@ def relax_strokes(planes, ground: int, points, layer_of, paints, limits, costs, 
     seed : int
     passes : int
         Relaxation passes over all strokes.
-    tries : int
-        Random local moves tried per stroke and pass.
+    tries : int or sequence of int
+        Random local moves tried per stroke and pass (one number, or one per layer).
     delete : bool
         Whether deleting a stroke is one of the moves.
+    progress : callable(fraction, message), optional
+        Called after each pass.
 
     Returns
     -------
@@ -886,15 +883,14 @@ def relax_strokes(planes, ground: int, points, layer_of, paints, limits, costs, 
         flat = np.ascontiguousarray(np.concatenate([pts3[i, : counts_c[i]] for i in range(n)]))
         top_idx, top_paint, under_paint, under_idx = stack_tops(
             h, w, float(mm_per_px), flat, starts, counts_c, widths[layer_of], paints, alive, int(ground))
-        # narrow types: the pass is bound by memory traffic over footprints
-        top_idx, under_idx = top_idx.astype(np.int32), under_idx.astype(np.int32)
-        top_paint, under_paint = top_paint.astype(np.int16), under_paint.astype(np.int16)
         stale = np.zeros((h, w), dtype=np.bool_)
         change += _relax_pass(
             planes, top_idx, top_paint, under_idx, under_paint, stale, pts3, counts, paints, alive, layer_of, th,
             widths, np.asarray(costs, dtype=np.float64), arr(lambda lim: lim.min_length_mm),
             arr(lambda lim: lim.max_length_mm), arr(lambda lim: lim.min_segment_mm),
             arr(lambda lim: lim.max_segment_mm), np.radians(arr(lambda lim: lim.max_turn_deg)),
-            float(wall_mm[0]), float(wall_mm[1]), float(mm_per_px), tries_arr, int(patience), int(seed * 1000 + r),
+            float(wall_mm[0]), float(wall_mm[1]), float(mm_per_px), tries_arr, int(seed * 1000 + r),
             bool(delete), _cumulative(RELAX_MOVES), RELAX_BEND)
+        if progress is not None:
+            progress((r + 1) / passes, f"pass {r + 1} of {passes}")
     return [pts3[i, : counts[i]].copy() for i in range(n)], paints, alive, float(change)

@@ -222,3 +222,16 @@ def test_relaxation_is_deterministic_under_a_seed():
         runs.append((np.concatenate(p).tobytes(), q.tobytes(), alive.tobytes()))
     assert runs[0] == runs[1]
     assert runs[0] != runs[2]
+
+
+def test_block_sums_add_up_every_pixel_once():
+    # the coarse grid wide brushes are refined on: plain sums over f x f blocks, partial blocks at the far edges
+    from layerplan.placer import block_sums
+
+    a = np.random.default_rng(3).random((11, 13, 3)).astype(np.float32)
+    b = block_sums(a, 4)
+    assert b.shape == (3, 4, 3) and b.dtype == np.float32
+    for i in range(3):
+        for j in range(4):
+            assert np.allclose(b[i, j], a[4 * i : 4 * i + 4, 4 * j : 4 * j + 4].sum(axis=(0, 1)), rtol=1e-6)
+    assert np.isclose(b.sum(dtype=np.float64), a.sum(dtype=np.float64), rtol=1e-6)
