@@ -138,6 +138,10 @@ def warm_up():
     tiny = (rng.random((40, 60, 3)) * 255).astype(np.uint8)
     tiny[:20] = (200, 40, 40)
     plan = make_plan(tiny, settings_for(60, 40, paints=4, brushes=(25.0, 12.0), mm_per_px=4.0))
+    # the clean-up's pair search runs only when strokes overlap; load it too
+    from layerplan.placer import _conflicts
+
+    _conflicts(np.full((2, 2), -1, np.int64), np.full((2, 2), -1, np.int64), np.zeros(1, np.bool_))
     from bench.hertzmann import baseline_plan
 
     baseline_plan(tiny, plan)

@@ -396,8 +396,12 @@ def _place_layer(planes, best_err, canvas, err, planes_c, err_c, f, theta, birth
 def block_sums(a: np.ndarray, f: int) -> np.ndarray:
     """Sums over f×f pixel blocks of the first two axes (partial blocks at the far edges), in a's dtype."""
     h, w = a.shape[:2]
-    rows = np.add.reduceat(a, np.arange(0, h, f), axis=0, dtype=np.float64)
-    return np.ascontiguousarray(np.add.reduceat(rows, np.arange(0, w, f), axis=1), dtype=a.dtype)
+    cols = np.arange(0, w, f)
+    out = np.empty((len(range(0, h, f)), len(cols)) + a.shape[2:], dtype=a.dtype)
+    for n, i in enumerate(range(0, h, f)):
+        # one band of rows at a time, in float64: no full-size float64 copy of the planes
+        out[n] = np.add.reduceat(a[i : i + f].sum(axis=0, dtype=np.float64), cols, axis=0)
+    return out
 
 
 def orientation_field(lab: np.ndarray, sigma_px: float) -> np.ndarray:

@@ -38,6 +38,7 @@ import numpy as np
 from numba import njit
 
 from .plan import Plan
+from .raster import capsule_chord
 
 #: spreading rate of one coat of wall paint, m² per litre (≈ 350–400 sq ft per US gallon; common practice)
 COVERAGE_M2_PER_L = 10.0
@@ -78,59 +79,6 @@ _SUBPIECES = 2
 
 # ----------------------------------------------------------------- stroke area
 @njit(cache=True, nogil=True)
-def _capsule_chord(ax, ay, bx, by, r, y):
-    """Interval [lo, hi] of the line at height y inside the capsule A–B of radius r."""
-    lo = np.inf
-    hi = -np.inf
-    r2 = r * r
-    dy = y - ay
-    if dy * dy <= r2:
-        h = math.sqrt(r2 - dy * dy)
-        lo = min(lo, ax - h)
-        hi = max(hi, ax + h)
-    dy = y - by
-    if dy * dy <= r2:
-        h = math.sqrt(r2 - dy * dy)
-        lo = min(lo, bx - h)
-        hi = max(hi, bx + h)
-    vx = bx - ax
-    vy = by - ay
-    seg = math.hypot(vx, vy)
-    if seg > 0.0:
-        ux = vx / seg
-        uy = vy / seg
-        # along: 0 <= (x - ax) ux + (y - ay) uy <= seg ; across: |-(x - ax) uy + (y - ay) ux| <= r
-        rlo = -np.inf
-        rhi = np.inf
-        ok = True
-        for c in range(2):
-            if c == 0:
-                a = ux
-                b = -ax * ux + (y - ay) * uy
-                clo = 0.0
-                chi = seg
-            else:
-                a = -uy
-                b = ax * uy + (y - ay) * ux
-                clo = -r
-                chi = r
-            if abs(a) < 1e-12:
-                if b < clo or b > chi:
-                    ok = False
-            else:
-                t0 = (clo - b) / a
-                t1 = (chi - b) / a
-                if t0 > t1:
-                    t0, t1 = t1, t0
-                rlo = max(rlo, t0)
-                rhi = min(rhi, t1)
-        if ok and rlo <= rhi:
-            lo = min(lo, rlo)
-            hi = max(hi, rhi)
-    return lo, hi
-
-
-@njit(cache=True, nogil=True)
 def _covered_length(pts, n, r, y, wall_w, los, his):
     """Length of the line at height y inside the stroke, clipped to [0, wall_w]."""
     m = 0
@@ -139,7 +87,7 @@ def _covered_length(pts, n, r, y, wall_w, los, his):
         k1 = min(k + 1, n - 1)
         if y < min(pts[k, 1], pts[k1, 1]) - r or y > max(pts[k, 1], pts[k1, 1]) + r:
             continue
-        lo, hi = _capsule_chord(pts[k, 0], pts[k, 1], pts[k1, 0], pts[k1, 1], r, y)
+        lo, hi = capsule_chord(pts[k, 0], pts[k, 1], pts[k1, 0], pts[k1, 1], r, y)
         lo = max(lo, 0.0)
         hi = min(hi, wall_w)
         if hi > lo:

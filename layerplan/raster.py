@@ -72,6 +72,55 @@ def covers(pts, n, half_w2, cx, cy):
     return False
 
 
+@njit(cache=True, nogil=True)
+def capsule_chord(ax, ay, bx, by, r, y):
+    """The x interval (x0, x1) where the line at height y meets the capsule A–B of radius r; x0 > x1 if it misses.
+
+    The capsule is convex, so its section is the hull of the sections of its two end discs and of its middle slab.
+    """
+    r2 = r * r
+    x0 = 1e300
+    x1 = -1e300
+    dy = y - ay
+    if dy * dy <= r2:
+        half = math.sqrt(r2 - dy * dy)
+        x0 = min(x0, ax - half)
+        x1 = max(x1, ax + half)
+    dyb = y - by
+    if dyb * dyb <= r2:
+        half = math.sqrt(r2 - dyb * dyb)
+        x0 = min(x0, bx - half)
+        x1 = max(x1, bx + half)
+    vx = bx - ax
+    vy = by - ay
+    L = math.sqrt(vx * vx + vy * vy)
+    if L > 0.0:
+        ux = vx / L
+        uy = vy / L
+        lo = -1e300
+        hi = 1e300
+        # along the segment: 0 <= ux (x - ax) + uy dy <= L
+        if abs(ux) > 1e-12:
+            a = (0.0 - uy * dy) / ux
+            b = (L - uy * dy) / ux
+            lo = max(lo, min(a, b))
+            hi = min(hi, max(a, b))
+        elif not (0.0 <= uy * dy <= L):
+            hi = -1e300
+        # across it: -r <= ux dy - uy (x - ax) <= r
+        if abs(uy) > 1e-12:
+            a = (ux * dy - r) / uy
+            b = (ux * dy + r) / uy
+            lo = max(lo, min(a, b))
+            hi = min(hi, max(a, b))
+        elif abs(ux * dy) > r:
+            hi = -1e300
+        if lo <= hi:
+            x0 = min(x0, ax + lo)
+            x1 = max(x1, ax + hi)
+    return x0, x1
+
+
 #: pixels whose centre is this close (mm) to a stroke's edge get the exact coverage test
 _EDGE_MM = 1e-6
 
@@ -106,52 +155,11 @@ def footprint_runs(pts, n, width_mm, s, h, w, runs, row_ab, row_n):
         if n > 1:
             bx = pts[sidx + 1, 0]
             by = pts[sidx + 1, 1]
-        vx = bx - ax
-        vy = by - ay
-        L = math.sqrt(vx * vx + vy * vy)
-        ux = 0.0
-        uy = 0.0
-        if L > 0.0:
-            ux = vx / L
-            uy = vy / L
         ra = max(i0, int(math.floor((min(ay, by) - r) / s - 0.5)))
         rb = min(i1, int(math.ceil((max(ay, by) + r) / s - 0.5)) + 1)
         for i in range(ra, rb):
             y = (i + 0.5) * s
-            x0 = 1e300
-            x1 = -1e300
-            dy = y - ay
-            if dy * dy <= r2:
-                half = math.sqrt(r2 - dy * dy)
-                x0 = min(x0, ax - half)
-                x1 = max(x1, ax + half)
-            dyb = y - by
-            if dyb * dyb <= r2:
-                half = math.sqrt(r2 - dyb * dyb)
-                x0 = min(x0, bx - half)
-                x1 = max(x1, bx + half)
-            if L > 0.0:
-                lo = -1e300
-                hi = 1e300
-                # along the segment: 0 <= ux (x - ax) + uy dy <= L
-                if abs(ux) > 1e-12:
-                    a = (0.0 - uy * dy) / ux
-                    b = (L - uy * dy) / ux
-                    lo = max(lo, min(a, b))
-                    hi = min(hi, max(a, b))
-                elif not (0.0 <= uy * dy <= L):
-                    hi = -1e300
-                # across it: -r <= ux dy - uy (x - ax) <= r
-                if abs(uy) > 1e-12:
-                    a = (ux * dy - r) / uy
-                    b = (ux * dy + r) / uy
-                    lo = max(lo, min(a, b))
-                    hi = min(hi, max(a, b))
-                elif abs(ux * dy) > r:
-                    hi = -1e300
-                if lo <= hi:
-                    x0 = min(x0, ax + lo)
-                    x1 = max(x1, ax + hi)
+            x0, x1 = capsule_chord(ax, ay, bx, by, r, y)
             if x0 > x1 + 2 * _EDGE_MM:
                 continue
             ja = max(0, int(math.ceil((x0 - _EDGE_MM) / s - 0.5)))

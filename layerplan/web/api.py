@@ -28,7 +28,7 @@ Recipe options (as ``layerplan plan``'s options of the same meaning):
 ``mix_paints``     most inventory paints in one mix, 1–4 (``--mix-paints``, default 3)
 ``max_parts``      whole parts of a recipe add up to at most this, 1–30 (``--max-parts``, default 10)
 ``tolerance``      a paint counts as mixable within this CIEDE2000, 0–100 (``--tolerance``, default 3)
-``stroke_cost``    what a stroke must earn, >= 0 (``--stroke-cost``, default 5)
+``stroke_cost``    what a stroke must earn, >= 0 (``--stroke-cost``, default 5.5)
 
 Quantity options (passed to :func:`layerplan.export.write_outputs`):
 
