@@ -712,7 +712,7 @@ def _relax_pass(planes, top_idx, top_paint, under_idx, under_paint, stale, all_p
         best_d = -1e-9
         best_q = paint
         best_np = 0
-        for t in range(tries[lay] + 1):
+        for t in range(tries + 1):
             m = n
             for p in range(n):
                 cand[p, 0] = cur[p, 0]
@@ -821,7 +821,7 @@ def _apply_move(st, q, old_paint, new_i, new_j, nnew, old_i, old_j, nold, stamp,
 
 
 def relax_strokes(planes, ground: int, points, layer_of, paints, limits, costs, thetas, *, mm_per_px: float,
-                  wall_mm, seed: int, passes: int = 2, tries=20, delete: bool = True, progress=None):
+                  wall_mm, seed: int, passes: int = 2, tries: int = 20, delete: bool = True, progress=None):
     """Revisit every stroke of the finished picture and keep local moves that lower its energy.
 
     After all layers are placed, each stroke in turn (file order) may be deleted, recoloured,
@@ -846,8 +846,8 @@ def relax_strokes(planes, ground: int, points, layer_of, paints, limits, costs, 
     seed : int
     passes : int
         Relaxation passes over all strokes.
-    tries : int or sequence of int
-        Random local moves tried per stroke and pass (one number, or one per layer).
+    tries : int
+        Random local moves tried per stroke and pass.
     delete : bool
         Whether deleting a stroke is one of the moves.
     progress : callable(fraction, message), optional
@@ -878,7 +878,6 @@ def relax_strokes(planes, ground: int, points, layer_of, paints, limits, costs, 
     widths = np.array([lim.width_mm for lim in limits], dtype=np.float64)
     th = np.ascontiguousarray(np.stack(thetas), dtype=np.float64)
     arr = lambda f: np.array([f(lim) for lim in limits], dtype=np.float64)  # noqa: E731
-    tries_arr = np.broadcast_to(np.asarray(tries, dtype=np.int64), (len(limits),)).copy()
     change = 0.0
     for r in range(passes):
         counts_c = counts.copy()
@@ -893,7 +892,7 @@ def relax_strokes(planes, ground: int, points, layer_of, paints, limits, costs, 
             widths, np.asarray(costs, dtype=np.float64), arr(lambda lim: lim.min_length_mm),
             arr(lambda lim: lim.max_length_mm), arr(lambda lim: lim.min_segment_mm),
             arr(lambda lim: lim.max_segment_mm), np.radians(arr(lambda lim: lim.max_turn_deg)),
-            float(wall_mm[0]), float(wall_mm[1]), float(mm_per_px), tries_arr, int(seed * 1000 + r),
+            float(wall_mm[0]), float(wall_mm[1]), float(mm_per_px), int(tries), int(seed * 1000 + r),
             bool(delete), _cumulative(RELAX_MOVES), RELAX_BEND)
         if progress is not None:
             progress((r + 1) / passes, f"pass {r + 1} of {passes}")
