@@ -10,9 +10,11 @@ i.e. removes more error than it costs.
 
 Data layout, chosen for speed: ``planes`` is (H, W, K) float32 so the K paint errors
 of a pixel are contiguous; a candidate's gain for every paint is one pass over its
-footprint. Footprints are found segment by segment with a stamp array, using the same
-coverage test as :mod:`layerplan.raster`, so what is optimised is exactly what is
-rendered.
+footprint. Footprints are the row runs of :func:`layerplan.raster.footprint_runs`,
+exactly the rendering rule's pixels, so what is optimised is exactly what is rendered.
+Brushes much wider than a few pixels are refined on block sums of the planes and
+checked exactly before they are painted. After the last layer, `relax_strokes`
+revisits every stroke against the finished picture.
 
 References
 ----------
@@ -97,7 +99,10 @@ def _round_grid(v):
 
 @njit(cache=True, nogil=True)
 def _footprint_px(pts, n, width_mm, s, h, w, stamp, stamp_id, buf_i, buf_j, runs, row_ab, row_n):
-    """`_footprint_runs` as a pixel list in buf_i/buf_j, each pixel marked ``stamp[i, j] = stamp_id``; returns its length."""
+    """`raster.footprint_runs` as a pixel list in buf_i/buf_j, each pixel marked ``stamp[i, j] = stamp_id``.
+
+    Returns the list's length.
+    """
     nr = footprint_runs(pts, n, width_mm, s, h, w, runs, row_ab, row_n)
     c = 0
     for r in range(nr):
