@@ -46,8 +46,10 @@ def fit_to_wall(image: np.ndarray, width_px: int, height_px: int, *, fit: str = 
     if fit == "cover":
         scale = max(width_px / w, height_px / h)
         box_w, box_h = width_px / scale, height_px / scale
-        x0, y0 = (w - box_w) / 2.0, (h - box_h) / 2.0
-        out = pil.resize((width_px, height_px), Image.Resampling.LANCZOS, box=(x0, y0, x0 + box_w, y0 + box_h))
+        # the crop box, kept inside the photo: along the side that fits exactly, rounding can put it a hair outside
+        x0, y0 = max(0.0, (w - box_w) / 2.0), max(0.0, (h - box_h) / 2.0)
+        box = (x0, y0, min(float(w), x0 + box_w), min(float(h), y0 + box_h))
+        out = pil.resize((width_px, height_px), Image.Resampling.LANCZOS, box=box)
         return np.asarray(out, dtype=np.uint8).copy(), inside
     scale = min(width_px / w, height_px / h)
     new_w = max(1, min(width_px, int(round(w * scale))))
