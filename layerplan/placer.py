@@ -296,7 +296,7 @@ def _place_layer(planes, best_err, canvas, err, planes_c, err_c, f, theta, birth
     """Place strokes for one layer from the given birth pixels; returns the stroke count.
 
     Moves are judged on the evaluation grid (planes_c, err_c: sums over f×f pixel blocks; the
-    full raster itself when f == 1); a stroke is painted only if its exact gain on the raster
+    full raster itself when f == 1, err_c then a float64 copy of err); a stroke is painted only if its exact gain on the raster
     beats its cost, and then with its exact best paint.
     """
     np.random.seed(seed)
@@ -386,6 +386,8 @@ def _place_layer(planes, best_err, canvas, err, planes_c, err_c, f, theta, birth
                 for j in range(runs[c, 1], runs[c, 2] + 1):
                     if f > 1:
                         err_c[i // f, j // f] += planes[i, j, paint] - err[i, j]
+                    else:
+                        err_c[i, j] = planes[i, j, paint]
                     canvas[i, j] = paint
                     err[i, j] = planes[i, j, paint]
             for p in range(n):
@@ -481,11 +483,12 @@ def place_layer(planes, canvas, err, theta, limits: BrushLimits, *, mm_per_px: f
     rng = np.random.default_rng(seed)
     w_px = limits.width_mm / mm_per_px
     f = max(1, int(w_px // EVAL_BRUSH_PX))
+    # one compiled form for both cases: the search grid's error is always float64
     if f > 1:
         planes_c = block_sums(planes, f)
         err_c = block_sums(err, f).astype(np.float64)
     else:
-        planes_c, err_c = planes, err
+        planes_c, err_c = planes, err.astype(np.float64)
     per_round = max(16, int(h * w / max(1.0, w_px * w_px)))
     max_strokes = per_round * rounds
     out_pts = np.zeros((max_strokes, MAX_POINTS, 2))
