@@ -332,3 +332,12 @@ def test_three_plans_at_once_on_a_live_server(live_server):
     docs = [_http(live_server.url + states[i]["files"]["plan.json"])[1] for i in ids]
     assert all(d["format"] == "layerplan.plan" for d in docs)
     assert len({json.dumps(d["layers"]) for d in docs}) == 3
+
+
+def test_fork_server_preloads_a_warm_planner():
+    # the fork server imports layerplan.web.warm, which plans and exports a tiny picture so that numba's code is
+    # loaded once there rather than in every worker; the warm-up itself must work (a failure is only logged)
+    from layerplan.web import jobs, warm
+
+    assert "layerplan.web.warm" in jobs.PRELOAD
+    warm.warm_up()
