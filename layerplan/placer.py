@@ -45,7 +45,7 @@ GIVE_UP = 0.7
 EVAL_BRUSH_PX = 5
 #: relative odds of the local moves (lengthen at the end, lengthen at the start, shorten, shift, turn, bend)
 #: and the bend size, when placing a stroke and when relaxing the finished picture; relaxation mostly
-#: needs small bends (on the bench: about 40 % more energy removed per move tried than uniform odds)
+#: needs small bends (on chelsea: about 40 % more energy removed per pass than uniform odds)
 PLACE_MOVES, PLACE_BEND = (2.0, 2.0, 0.5, 1.0, 1.0, 2.0), 0.6
 RELAX_MOVES, RELAX_BEND = (0.5, 0.5, 0.5, 1.0, 1.0, 8.0), 0.5
 
@@ -119,7 +119,7 @@ def _footprint_px(pts, n, width_mm, s, h, w, stamp, stamp_id, buf_i, buf_j, runs
 def _footprint_gain(pts, n, width_mm, s, planes, err, sums, runs, row_ab, row_n):
     """Gain of painting the stroke with each paint; returns (best gain, best paint, run count).
 
-    The pixels are `_footprint_runs`'s (exactly the rendering rule's set), left in ``runs``.
+    The pixels are `raster.footprint_runs`'s (exactly the rendering rule's set), left in ``runs``.
     """
     h, w, k = planes.shape
     c = footprint_runs(pts, n, width_mm, s, h, w, runs, row_ab, row_n)
@@ -296,8 +296,8 @@ def _place_layer(planes, best_err, canvas, err, planes_c, err_c, f, theta, birth
     """Place strokes for one layer from the given birth pixels; returns the stroke count.
 
     Moves are judged on the evaluation grid (planes_c, err_c: sums over f×f pixel blocks; the
-    full raster itself when f == 1, err_c then a float64 copy of err); a stroke is painted only if its exact gain on the raster
-    beats its cost, and then with its exact best paint.
+    full raster itself when f == 1, err_c then a float64 copy of err); a stroke is painted only
+    if its exact gain on the raster beats its cost, and then with its exact best paint.
     """
     np.random.seed(seed)
     h, w, k = planes.shape
@@ -667,8 +667,6 @@ def _relax_pass(planes, top_idx, top_paint, under_idx, under_paint, stale, all_p
     old_j = np.empty(cap, np.int32)
     new_i = np.empty(cap, np.int32)
     new_j = np.empty(cap, np.int32)
-    best_i = np.empty(cap, np.int32)
-    best_j = np.empty(cap, np.int32)
     vis_i = np.empty(cap, np.int32)
     vis_j = np.empty(cap, np.int32)
     vis_d = np.empty(cap, np.float64)
@@ -704,22 +702,12 @@ def _relax_pass(planes, top_idx, top_paint, under_idx, under_paint, stale, all_p
                 break
             uncover += vis_d[v]
         if delete and ok and uncover - costs[lay] < -1e-9:
-            for c in range(nold):
-                i = old_i[c]
-                j = old_j[c]
-                if top_idx[i, j] == st:
-                    top_idx[i, j] = under_idx[i, j]
-                    top_paint[i, j] = under_paint[i, j]
-                    stale[i, j] = True
-                elif under_idx[i, j] == st:
-                    stale[i, j] = True
+            # stamp ids are never negative: every pixel of the old footprint is uncovered
+            _uncover(st, old_i, old_j, nold, stamp, -1, top_idx, top_paint, under_idx, under_paint, stale)
             alive[st] = False
             total += uncover - costs[lay]
             continue
         # recolour in place, then random local moves; each candidate takes its best paint
-        best_d = -1e-9
-        best_q = paint
-        best_np = 0
         for t in range(tries + 1):
             m = n
             for p in range(n):
@@ -761,45 +749,41 @@ def _relax_pass(planes, top_idx, top_paint, under_idx, under_paint, stale, all_p
                     bd = sums[q]
                     bq = q
             d = base + bd
-            if d < best_d:
-                best_d = d
-                best_q = bq
-                best_np = nnew
-                for p in range(m):
-                    all_pts[st, p, 0] = cand[p, 0]
-                    all_pts[st, p, 1] = cand[p, 1]
-                best_i[:nnew] = new_i[:nnew]
-                best_j[:nnew] = new_j[:nnew]
-                # climb from the better stroke
+            if d < -1e-9:
+                # keep the move and climb from the better stroke
                 n = m
                 for p in range(m):
                     cur[p, 0] = cand[p, 0]
                     cur[p, 1] = cand[p, 1]
+                    all_pts[st, p, 0] = cand[p, 0]
+                    all_pts[st, p, 1] = cand[p, 1]
                 # the old footprint and the stack still describe the stroke as it was: apply now
-                _apply_move(st, best_q, paint, best_i, best_j, best_np, old_i, old_j, nold, stamp, top_idx,
-                            top_paint, under_idx, under_paint, stale, new_id)
+                _apply_move(st, bq, new_i, new_j, nnew, old_i, old_j, nold, stamp, top_idx, top_paint, under_idx,
+                            under_paint, stale, new_id)
                 total += d
-                paint = best_q
+                paint = bq
                 # the applied footprint is the stroke's footprint from here on
                 old_i[:nnew] = new_i[:nnew]
                 old_j[:nnew] = new_j[:nnew]
                 nold = nnew
                 nvis = _visible(st, paint, old_i, old_j, nold, top_idx, under_paint, stale, planes, vis_i, vis_j,
                                 vis_d, vis_s)
-                best_d = -1e-9
         counts[st] = n
         paints[st] = paint
     return total
 
 
 @njit(cache=True, nogil=True)
-def _apply_move(st, q, old_paint, new_i, new_j, nnew, old_i, old_j, nold, stamp, top_idx, top_paint, under_idx,
-                under_paint, stale, new_id):
-    """Update the (top, under) stack after stroke st moved from footprint old to new (stamped new_id) with paint q."""
+def _uncover(st, old_i, old_j, nold, stamp, keep_id, top_idx, top_paint, under_idx, under_paint, stale):
+    """Take stroke st off the stack at the old footprint's pixels not stamped keep_id.
+
+    Where st was on top, the stroke under it shows; its own "under" is then unknown, as is the
+    "under" of pixels where st was just under the top: both are marked stale.
+    """
     for c in range(nold):
         i = old_i[c]
         j = old_j[c]
-        if stamp[i, j] == new_id:
+        if stamp[i, j] == keep_id:
             continue
         if top_idx[i, j] == st:
             top_idx[i, j] = under_idx[i, j]
@@ -807,6 +791,13 @@ def _apply_move(st, q, old_paint, new_i, new_j, nnew, old_i, old_j, nold, stamp,
             stale[i, j] = True
         elif under_idx[i, j] == st:
             stale[i, j] = True
+
+
+@njit(cache=True, nogil=True)
+def _apply_move(st, q, new_i, new_j, nnew, old_i, old_j, nold, stamp, top_idx, top_paint, under_idx, under_paint,
+                stale, new_id):
+    """Update the (top, under) stack after stroke st moved from footprint old to new (stamped new_id) with paint q."""
+    _uncover(st, old_i, old_j, nold, stamp, new_id, top_idx, top_paint, under_idx, under_paint, stale)
     for c in range(nnew):
         i = new_i[c]
         j = new_j[c]
