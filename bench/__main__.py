@@ -131,19 +131,11 @@ def stage_times(events, t_end) -> dict:
 
 
 def warm_up():
-    """Load numba caches / compile once, outside every timing."""
-    from layerplan.pipeline import make_plan
-
-    rng = np.random.default_rng(1)
-    tiny = (rng.random((40, 60, 3)) * 255).astype(np.uint8)
-    tiny[:20] = (200, 40, 40)
-    plan = make_plan(tiny, settings_for(60, 40, paints=4, brushes=(25.0, 12.0), mm_per_px=4.0))
-    # the clean-up's pair search runs only when strokes overlap; load it too
-    from layerplan.placer import _conflicts
-
-    _conflicts(np.full((2, 2), -1, np.int64), np.full((2, 2), -1, np.int64), np.zeros(1, np.bool_))
+    """Load numba caches / compile once, outside every timing: the product's warm-up, then the baseline."""
     from bench.hertzmann import baseline_plan
+    from layerplan.warm import warm_up as warm_planner
 
+    tiny, plan = warm_planner()
     baseline_plan(tiny, plan)
 
 

@@ -337,7 +337,9 @@ def test_three_plans_at_once_on_a_live_server(live_server):
 def test_fork_server_preloads_a_warm_planner():
     # the fork server imports layerplan.web.warm, which plans and exports a tiny picture so that numba's code is
     # loaded once there rather than in every worker; the warm-up itself must work (a failure is only logged)
-    from layerplan.web import jobs, warm
+    from layerplan.warm import warm_up
+    from layerplan.web import jobs
 
     assert "layerplan.web.warm" in jobs.PRELOAD
-    warm.warm_up()
+    image, plan = warm_up()
+    assert plan.width_px == image.shape[1] and plan.height_px == image.shape[0] and plan.stroke_count() > 0
