@@ -33,7 +33,7 @@ from dataclasses import dataclass
 import numpy as np
 from numba import njit
 
-from .raster import MAX_POINTS, footprint_runs, push_pair, stack_tops
+from .raster import MAX_POINTS, footprint_runs, footprint_scratch, push_pair, stack_tops
 
 #: stroke points are kept on a 0.1 mm grid so plan.json holds them exactly
 POINT_GRID_MM = 0.1
@@ -304,13 +304,8 @@ def _place_layer(planes, best_err, canvas, err, planes_c, err_c, f, theta, birth
     cos_max_turn = math.cos(max_turn)
     step = width_mm
     s_c = s * f
-    runs = np.empty((h * MAX_POINTS, 3), np.int32)
-    row_ab = np.zeros((h, MAX_POINTS, 2), np.int32)
-    row_n = np.zeros(h, np.int32)
-    hc = planes_c.shape[0]
-    runs_c = np.empty((hc * MAX_POINTS, 3), np.int32)
-    row_ab_c = np.zeros((hc, MAX_POINTS, 2), np.int32)
-    row_n_c = np.zeros(hc, np.int32)
+    runs, row_ab, row_n = footprint_scratch(h, MAX_POINTS)
+    runs_c, row_ab_c, row_n_c = footprint_scratch(planes_c.shape[0], MAX_POINTS)
     sums = np.empty(k, np.float64)
     cur = np.zeros((MAX_POINTS, 2), np.float64)
     cand = np.zeros((MAX_POINTS, 2), np.float64)
@@ -672,9 +667,7 @@ def _relax_pass(planes, top_idx, top_paint, under_idx, under_paint, stale, all_p
     vis_d = np.empty(cap, np.float64)
     vis_s = np.empty(cap, np.bool_)
     sums = np.empty(k, np.float64)
-    runs = np.empty((h * MAX_POINTS, 3), np.int32)
-    row_ab = np.zeros((h, MAX_POINTS, 2), np.int32)
-    row_n = np.zeros(h, np.int32)
+    runs, row_ab, row_n = footprint_scratch(h, MAX_POINTS)
     cur = np.zeros((MAX_POINTS, 2), np.float64)
     cand = np.zeros((MAX_POINTS, 2), np.float64)
     total = 0.0

@@ -126,6 +126,16 @@ _EDGE_MM = 1e-6
 
 
 @njit(cache=True, nogil=True)
+def footprint_scratch(h, most):
+    """Work arrays for `footprint_runs` on a raster of h rows, for strokes of up to ``most`` vertices.
+
+    Returns (runs, row_ab, row_n): room for every run (at most one per segment and row), each
+    row's intervals, and their counts (zero).
+    """
+    return np.empty((h * most, 3), np.int32), np.zeros((h, most, 2), np.int32), np.zeros(h, np.int32)
+
+
+@njit(cache=True, nogil=True)
 def footprint_runs(pts, n, width_mm, s, h, w, runs, row_ab, row_n):
     """Pixels the stroke covers, exactly the rendering rule's set, as row runs; returns the run count.
 
@@ -133,8 +143,9 @@ def footprint_runs(pts, n, width_mm, s, h, w, runs, row_ab, row_n):
     disjoint and ordered by row. Each segment's capsule meets a pixel row in one interval,
     found exactly (the hull of its end discs' and its middle slab's sections); only a
     pixel within _EDGE_MM of an interval's end goes through `raster.covers`. The
-    intervals of a row are then merged. ``row_ab`` (h, MAX_POINTS, 2) and ``row_n`` (h,)
-    are scratch, all zero in ``row_n`` on entry and on return.
+    intervals of a row are then merged. ``runs``, ``row_ab`` and ``row_n`` are work arrays
+    from `footprint_scratch` for at least n vertices (``row_n`` is all zero on entry and on
+    return).
     """
     r = 0.5 * width_mm
     r2 = r * r
@@ -222,9 +233,7 @@ def stack_tops(h, w, s, all_pts, starts, counts, widths, paints, alive, ground):
     most = 2
     for k in range(len(starts)):
         most = max(most, counts[k])
-    runs = np.empty((h * most, 3), np.int32)
-    row_ab = np.zeros((h, most, 2), np.int32)
-    row_n = np.zeros(h, np.int32)
+    runs, row_ab, row_n = footprint_scratch(h, most)
     for k in range(len(starts)):
         if not alive[k]:
             continue

@@ -72,7 +72,7 @@ def test_strokes_are_opaque_and_applied_in_file_order():
 def test_row_runs_and_stroke_stack_match_independent_geometry():
     # footprint_runs (the placer's and the stroke stack's fast footprint) against the plain distance test, on
     # random strokes with vertices on the 0.1 mm grid, where pixel centres often sit exactly on a stroke's edge
-    from layerplan.raster import MAX_POINTS, footprint_runs, stack_tops
+    from layerplan.raster import MAX_POINTS, footprint_runs, footprint_scratch, stack_tops
 
     rng = np.random.default_rng(5)
     for case in range(60):
@@ -81,9 +81,7 @@ def test_row_runs_and_stroke_stack_match_independent_geometry():
         h, w = 24, 31
         n = int(rng.integers(1, MAX_POINTS + 1))
         pts = np.round(rng.uniform(0, [w * s, h * s], size=(n, 2)) * (2 if case % 2 else 10)) / (2 if case % 2 else 10)
-        runs = np.empty((h * MAX_POINTS, 3), np.int32)
-        row_ab = np.zeros((h, MAX_POINTS, 2), np.int32)
-        row_n = np.zeros(h, np.int32)
+        runs, row_ab, row_n = footprint_scratch(h, MAX_POINTS)
         c = footprint_runs(pts, n, width, s, h, w, runs, row_ab, row_n)
         got = np.zeros((h, w), bool)
         for i, a, b in runs[:c]:
