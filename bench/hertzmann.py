@@ -105,6 +105,17 @@ class BaselineLayer:
 
 
 @njit(cache=True)
+def _cell_span(k, grid, size):
+    """Pixel range [lo, hi) of grid cell k along an axis of ``size`` pixels (centre k·grid, ±grid/2, at least 1 px)."""
+    c = k * grid
+    lo = max(0, int(math.floor(c - grid / 2 + 0.5)))
+    hi = min(size, int(math.floor(c + grid / 2 + 0.5)))
+    if hi <= lo:
+        hi = min(size, lo + 1)
+    return lo, hi
+
+
+@njit(cache=True)
 def _cell_starts(diff, grid, threshold):
     """Grid cells whose mean difference exceeds the threshold: their max-error pixel.
 
@@ -117,17 +128,9 @@ def _cell_starts(diff, grid, threshold):
     out = np.empty((nx * ny, 2), np.int64)
     c = 0
     for gy in range(ny):
-        cy = gy * grid
-        i0 = max(0, int(math.floor(cy - grid / 2 + 0.5)))
-        i1 = min(h, int(math.floor(cy + grid / 2 + 0.5)))
-        if i1 <= i0:
-            i1 = min(h, i0 + 1)
+        i0, i1 = _cell_span(gy, grid, h)
         for gx in range(nx):
-            cx = gx * grid
-            j0 = max(0, int(math.floor(cx - grid / 2 + 0.5)))
-            j1 = min(w, int(math.floor(cx + grid / 2 + 0.5)))
-            if j1 <= j0:
-                j1 = min(w, j0 + 1)
+            j0, j1 = _cell_span(gx, grid, w)
             total = 0.0
             best = -1.0
             bi = i0
