@@ -34,6 +34,7 @@ from pathlib import Path
 from flask import Flask, jsonify, render_template, request
 from werkzeug.exceptions import HTTPException, InternalServerError
 
+from ..resources import static_dir, template_dir
 from .forms import size_text
 from .jobs import JobRunner, LocalProcessRunner, recover
 from .store import PlanStore
@@ -41,8 +42,6 @@ from .uploads import KEEP_S, UploadStash
 
 log = logging.getLogger(__name__)
 
-#: the repository's top level, holding templates/ and static/
-ROOT = Path(__file__).resolve().parents[2]
 #: 25 MB: above a full-resolution phone JPEG (typically 3–12 MB), far below memory trouble
 DEFAULT_MAX_CONTENT_LENGTH = 25_000_000
 #: leave a core for the web server itself on small machines
@@ -94,7 +93,7 @@ def create_app(test_config: dict | None = None, *, overrides: dict | None = None
         If another running layerplan server already uses the data directory.
     """
     app = Flask(__name__, instance_relative_config=True,
-                template_folder=str(ROOT / "templates"), static_folder=str(ROOT / "static"))
+                template_folder=str(template_dir()), static_folder=str(static_dir()))
     app.config.from_mapping(
         DATA_DIR=None,
         WORKERS=DEFAULT_WORKERS,

@@ -1,0 +1,375 @@
+"""The painter's own paints: the inventory file.
+
+An inventory is a small TOML file (TOML 1.0, read with Python's ``tomllib``) with one
+``[[paint]]`` table per paint the painter owns::
+
+    # My wall paints
+    title = "Community-centre wall kit"      # optional, shown by `layerplan paints`
+
+    [[paint]]
+    name = "White"                  # required; unique (ignoring case); no '='
+    srgb = "#f4f3ee"                # the paint's colour as sRGB hex ...
+    tinting_strength = 1.0          # optional, > 0; default 1 (see below)
+    containers_l = [1.0, 4.0]       # optional: tin sizes you can buy, litres
+    note = "covers well"            # optional free text
+
+    [[paint]]
+    name = "Earth red"
+    lab = [38.5, 30.1, 28.7]        # ... or CIELAB (D65, 2°) if you measured it
+
+Each paint gives exactly one of ``srgb`` (``#rrggbb`` or ``#rgb``) or ``lab``
+(``[L, a, b]``, L from 0 to 100). A measured colour outside the sRGB gamut is modelled
+by its nearest sRGB colour (clipped), because the spectral model starts from sRGB.
+
+``tinting_strength`` says how strongly a paint colours a mix compared with the others:
+in the mixing model (:mod:`layerplan.mixing`) a paint's parts are multiplied by it, so a
+paint of strength 2 counts as if twice as much were in the mix. A paint alone is
+unchanged whatever its strength. Leave it at 1 if you do not know it; compare tints of
+each paint with white at the same ratio to set it (common practice).
+
+Unknown keys are refused (so a misspelt ``tinting_strenght`` is not silently ignored);
+every error names the file, the line (of the faulty field where it is written on a line
+of its own, else of the paint's ``[[paint]]`` header), the paint's number and name, and
+the field.
+
+A default inventory ships with the package (``layerplan/data/default_inventory.toml``):
+a basic acrylic set for wall work, its colours approximate values from memory.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+import tomllib
+from dataclasses import dataclass, field
+from importlib import resources
+from pathlib import Path
+
+from .plan import hex_to_rgb, rgb_to_hex
+
+#: the most paints an inventory may list (far more than a wall painter carries; keeps the
+#: mix table of :mod:`layerplan.recipes` small)
+MAX_INVENTORY_PAINTS = 64
+#: longest paint name accepted, characters
+MAX_NAME_CHARS = 60
+#: tinting strength limits (a ratio to an ordinary paint; 50 already means "a speck dyes the tin")
+MIN_TINTING_STRENGTH, MAX_TINTING_STRENGTH = 0.01, 50.0
+#: largest container size accepted, litres (a 200 L drum)
+MAX_CONTAINER_L = 200.0
+#: largest inventory file read, bytes
+MAX_FILE_BYTES = 1_000_000
+
+_PAINT_KEYS = ("name", "srgb", "lab", "tinting_strength", "containers_l", "note")
+_TOP_KEYS = ("title", "paint")
+_HEADER_RE = re.compile(r"^\s*\[\[\s*paint\s*\]\]")
+#: a ``key = value`` line of a table (bare or quoted key; TOML 1.0, "Keys")
+_KEY_RE = re.compile(r"""^\s*(?:"([^"]+)"|'([^']+)'|([A-Za-z0-9_-]+))\s*=""")
+
+DEFAULT_INVENTORY_NAME = "default_inventory.toml"
+
+
+class InventoryError(ValueError):
+    """An inventory file or entry is wrong; the message names file, line/entry and field."""
+
+
+@dataclass(frozen=True)
+class StockPaint:
+    """One paint the painter owns.
+
+    Parameters
+    ----------
+    name : str
+        The painter's name for it.
+    srgb : str
+        ``#rrggbb`` colour the mixing model starts from.
+    lab : tuple of float
+        CIELAB (D65, 2°): as measured if the file gave ``lab``, else that of ``srgb``.
+    tinting_strength : float
+        Weight of one part of this paint in a mix (1 = ordinary).
+    containers_l : tuple of float
+        Tin sizes the painter buys, litres (may be empty).
+    note : str
+    """
+
+    name: str
+    srgb: str
+    lab: tuple[float, float, float]
+    tinting_strength: float = 1.0
+    containers_l: tuple[float, ...] = ()
+    note: str = ""
+
+    @property
+    def rgb(self) -> tuple[int, int, int]:
+        return hex_to_rgb(self.srgb)
+
+
+@dataclass(frozen=True)
+class Inventory:
+    """The paints available for mixing, in file order.
+
+    ``source`` (where it was read from) is for messages only and does not take part in
+    equality, so two files listing the same paints give equal inventories.
+    """
+
+    paints: tuple[StockPaint, ...]
+    title: str = ""
+    source: str = field(default="<inventory>", compare=False)
+
+    def __len__(self) -> int:
+        return len(self.paints)
+
+    def names(self) -> list[str]:
+        return [p.name for p in self.paints]
+
+    def index(self, name: str) -> int:
+        """Position of the paint called ``name`` (ignoring case and surrounding spaces).
+
+        Raises
+        ------
+        ValueError
+            If no paint has that name; the message lists the names there are.
+        """
+        want = name.strip().casefold()
+        for i, p in enumerate(self.paints):
+            if p.name.casefold() == want:
+                return i
+        raise ValueError(f"unknown paint {name!r}; the inventory has: {', '.join(self.names())}")
+
+    def paint(self, name: str) -> StockPaint:
+        return self.paints[self.index(name)]
+
+    def to_list(self) -> list[dict]:
+        """``[{"name", "srgb"}, ...]``: the JSON listing of ``layerplan paints --json``."""
+        return [{"name": p.name, "srgb": p.srgb} for p in self.paints]
+
+
+def load_inventory(path) -> Inventory:
+    """Read an inventory file.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+
+    Returns
+    -------
+    Inventory
+
+    Raises
+    ------
+    InventoryError
+        If the file is missing, unreadable, not UTF-8 TOML, or an entry is wrong (the
+        message names the file, line/entry and field).
+    """
+    p = Path(path)
+    source = str(path)
+    try:
+        if p.is_dir():
+            raise InventoryError(f"{source}: is a folder, not an inventory file")
+        size = p.stat().st_size
+        if size > MAX_FILE_BYTES:
+            raise InventoryError(f"{source}: inventory file is too large ({size} bytes; at most {MAX_FILE_BYTES})")
+        data = p.read_bytes()
+    except FileNotFoundError:
+        raise InventoryError(f"{source}: no such inventory file") from None
+    except PermissionError:
+        raise InventoryError(f"{source}: cannot read the inventory file (permission denied)") from None
+    except OSError as exc:
+        raise InventoryError(f"{source}: cannot read the inventory file: {exc.strerror or exc}") from None
+    try:
+        text = data.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        raise InventoryError(f"{source}: not a UTF-8 text file (bad byte at offset {exc.start})") from None
+    return loads_inventory(text, source=source)
+
+
+def default_inventory() -> Inventory:
+    """The inventory shipped with layerplan (a basic acrylic set; colours approximate)."""
+    text = resources.files("layerplan").joinpath("data", DEFAULT_INVENTORY_NAME).read_text("utf-8")
+    return loads_inventory(text, source=f"<default inventory {DEFAULT_INVENTORY_NAME}>")
+
+
+def loads_inventory(text: str, *, source: str = "<inventory>") -> Inventory:
+    """Parse inventory TOML text (see the module docstring for the format).
+
+    Parameters
+    ----------
+    text : str
+    source : str, keyword-only
+        Name used in messages (a file name).
+
+    Raises
+    ------
+    InventoryError
+    """
+    try:
+        doc = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise InventoryError(f"{source}: not valid TOML: {exc}") from None
+    unknown = [k for k in doc if k not in _TOP_KEYS]
+    if unknown:
+        raise InventoryError(
+            f"{source}: unknown top-level key {unknown[0]!r} (allowed: {', '.join(_TOP_KEYS)}; "
+            f"each paint goes in a [[paint]] table)"
+        )
+    title = doc.get("title", "")
+    if not isinstance(title, str):
+        raise InventoryError(f"{source}: 'title' must be text, got {title!r}")
+    entries = doc.get("paint")
+    if entries is None or entries == []:
+        raise InventoryError(f"{source}: no paints: add one [[paint]] table per paint")
+    if not isinstance(entries, list) or not all(isinstance(e, dict) for e in entries):
+        raise InventoryError(f"{source}: 'paint' must be a list of [[paint]] tables")
+    if len(entries) > MAX_INVENTORY_PAINTS:
+        raise InventoryError(f"{source}: {len(entries)} paints; at most {MAX_INVENTORY_PAINTS} are allowed")
+
+    lines = text.splitlines()
+    header_lines = [n for n, line in enumerate(lines, start=1) if _HEADER_RE.match(line)]
+    if len(header_lines) != len(entries):  # paints given inline: no line to point at
+        header_lines = []
+    field_lines = _field_lines(lines, header_lines)
+
+    paints: list[StockPaint] = []
+    seen: dict[str, int] = {}
+    for i, entry in enumerate(entries):
+        line = header_lines[i] if header_lines else None
+        paint = _parse_paint(entry, i + 1, line, source, field_lines=field_lines[i] if field_lines else None)
+        key = paint.name.casefold()
+        if key in seen:
+            j = seen[key]
+            where = f" (line {header_lines[j]})" if header_lines else ""
+            name_line = field_lines[i].get("name", line) if field_lines else line
+            raise InventoryError(
+                f"{_where(source, i + 1, name_line, paint.name)}: field 'name': {paint.name!r} is already used by "
+                f"paint {j + 1}{where}; names must differ (ignoring case)"
+            )
+        seen[key] = i
+        paints.append(paint)
+    return Inventory(paints=tuple(paints), title=title.strip(), source=source)
+
+
+def _field_lines(lines: list[str], header_lines: list[int]) -> list[dict[str, int]]:
+    """For each ``[[paint]]`` table, the 1-based line of each of its ``key = value`` lines."""
+    found: list[dict[str, int]] = []
+    for i, start in enumerate(header_lines):
+        end = header_lines[i + 1] - 1 if i + 1 < len(header_lines) else len(lines)
+        keys: dict[str, int] = {}
+        for n in range(start + 1, end + 1):  # the lines after the header, up to the next paint
+            m = _KEY_RE.match(lines[n - 1])
+            if m:
+                keys.setdefault(next(g for g in m.groups() if g is not None), n)
+        found.append(keys)
+    return found
+
+
+def _where(source: str, number: int, line: int | None, name: str | None) -> str:
+    at = f"{source}: line {line}: " if line is not None else f"{source}: "
+    label = f"paint {number}" + (f" ({name!r})" if name else "")
+    return at + label
+
+
+def _parse_paint(entry: dict, number: int, line: int | None, source: str, *,
+                 field_lines: dict[str, int] | None = None) -> StockPaint:
+    raw_name = entry.get("name")
+    shown = raw_name.strip() if isinstance(raw_name, str) and raw_name.strip() else None
+
+    def fail(fieldname: str, message: str) -> InventoryError:
+        at = (field_lines or {}).get(fieldname, line)  # the field's own line, else the paint's header
+        return InventoryError(f"{_where(source, number, at, shown)}: field {fieldname!r}: {message}")
+
+    for key in entry:
+        if key not in _PAINT_KEYS:
+            raise fail(key, f"unknown field (allowed: {', '.join(_PAINT_KEYS)})")
+
+    if raw_name is None:
+        raise fail("name", "missing; every paint needs a name")
+    if not isinstance(raw_name, str) or not raw_name.strip():
+        raise fail("name", f"must be non-empty text, got {raw_name!r}")
+    name = " ".join(raw_name.split())
+    if len(name) > MAX_NAME_CHARS:
+        raise fail("name", f"longer than {MAX_NAME_CHARS} characters")
+    if "=" in name or any(ord(c) < 32 for c in name):
+        raise fail("name", f"may not contain '=' or control characters, got {name!r}")
+
+    has_srgb, has_lab = "srgb" in entry, "lab" in entry
+    if has_srgb == has_lab:
+        raise fail("srgb", "give exactly one of 'srgb' (\"#rrggbb\") or 'lab' ([L, a, b])")
+    if has_srgb:
+        value = entry["srgb"]
+        if not isinstance(value, str):
+            raise fail("srgb", f"must be a text hex colour like \"#c8962e\", got {value!r}")
+        try:
+            rgb = hex_to_rgb(value)
+        except ValueError:
+            raise fail("srgb", f"not a hex colour (#rrggbb): {value!r}") from None
+        srgb = rgb_to_hex(rgb)
+        lab = _lab_of_srgb(rgb)
+    else:
+        value = entry["lab"]
+        if (
+            not isinstance(value, list)
+            or len(value) != 3
+            or not all(isinstance(v, (int, float)) and not isinstance(v, bool) for v in value)
+            or not all(math.isfinite(v) for v in value)
+        ):
+            raise fail("lab", f"must be three numbers [L, a, b], got {value!r}")
+        L, a, b = (float(v) for v in value)
+        if not 0.0 <= L <= 100.0:
+            raise fail("lab", f"L must be from 0 to 100, got {L:g}")
+        if abs(a) > 200.0 or abs(b) > 200.0:
+            raise fail("lab", f"a and b must be within ±200, got [{L:g}, {a:g}, {b:g}]")
+        lab = (L, a, b)
+        srgb = _srgb_of_lab(lab)
+
+    strength = entry.get("tinting_strength", 1.0)
+    if (
+        not isinstance(strength, (int, float))
+        or isinstance(strength, bool)
+        or not math.isfinite(strength)
+        or not MIN_TINTING_STRENGTH <= strength <= MAX_TINTING_STRENGTH
+    ):
+        raise fail(
+            "tinting_strength",
+            f"must be a number from {MIN_TINTING_STRENGTH:g} to {MAX_TINTING_STRENGTH:g}, got {strength!r}",
+        )
+
+    containers = entry.get("containers_l", [])
+    if not isinstance(containers, list):
+        raise fail("containers_l", f"must be a list of sizes in litres, e.g. [1.0, 4.0], got {containers!r}")
+    for c in containers:
+        if (
+            not isinstance(c, (int, float))
+            or isinstance(c, bool)
+            or not math.isfinite(c)
+            or not 0.0 < c <= MAX_CONTAINER_L
+        ):
+            raise fail("containers_l", f"sizes must be > 0 and at most {MAX_CONTAINER_L:g} litres, got {c!r}")
+
+    note = entry.get("note", "")
+    if not isinstance(note, str):
+        raise fail("note", f"must be text, got {note!r}")
+
+    return StockPaint(
+        name=name,
+        srgb=srgb,
+        lab=lab,
+        tinting_strength=float(strength),
+        containers_l=tuple(sorted(float(c) for c in containers)),
+        note=note.strip(),
+    )
+
+
+def _lab_of_srgb(rgb) -> tuple[float, float, float]:
+    import numpy as np
+
+    from .colour import srgb_to_lab
+
+    lab = srgb_to_lab(np.array(rgb, dtype=np.uint8))
+    return tuple(round(float(v), 4) for v in lab)
+
+
+def _srgb_of_lab(lab) -> str:
+    import numpy as np
+
+    from .colour import lab_to_srgb
+
+    return rgb_to_hex(lab_to_srgb(np.array(lab, dtype=float)))

@@ -1,0 +1,222 @@
+"""make_plan: photo + settings -> Plan. The one entry point for CLI, web and tests."""
+
+from __future__ import annotations
+
+import numpy as np
+
+from . import __version__
+from .colour import delta_e00, error_planes, srgb_to_lab
+from .fit import fit_to_wall
+from .ground import choose_ground
+from .layers import layer_specs
+from .order import painting_order
+from .palette import lightest_first, palette_from_image
+from .placer import orientation_field, place_layer, prune_strokes, relax_strokes
+from .plan import Layer, Paint, Plan, Stroke, rgb_to_hex
+from .raster import render_steps
+from .settings import HARD_MAX_RASTER_PX, MAX_WALL_MM, MIN_RASTER_SIDE_PX, Settings, working_raster
+
+#: share of the progress bar given to each phase (planning strokes dominates)
+_P_PREP, _P_LAYERS, _P_RELAX = 0.12, 0.5, 0.3
+#: relaxation passes over all strokes after the last layer, and moves tried per stroke and pass; deleting
+#: strokes by their cost is off: on the bench it gave worse pictures for the same stroke count (issue 4)
+RELAX_PASSES, RELAX_TRIES, RELAX_DELETE = 3, 60, False
+
+
+def _noop(fraction: float, message: str) -> None:
+    pass
+
+
+def mix_palette(pal_rgb: np.ndarray, pal_lab: np.ndarray, settings: Settings):
+    """Mix recipes for the palette from the painter's paints, and snap the palette to them.
+
+    Parameters
+    ----------
+    pal_rgb : (K, 3) uint8 array
+    pal_lab : (K, 3) float array
+        The k-means palette (its CIELAB).
+    settings : Settings
+        ``inventory`` (file path or None for the default set), ``free_palette``,
+        ``mix_paints``, ``max_parts``, ``tolerance_de``.
+
+    Returns
+    -------
+    rgb : (K', 3) uint8 array
+    lab : (K', 3) float array
+        The palette to plan with: unless ``free_palette``, each paint becomes the colour its
+        recipe is predicted to mix to (so the preview shows what the painter will get), paints
+        that snap to the same colour are merged (the first, lightest, keeps its recipe) and the
+        result is ordered lightest first again. With ``free_palette`` the input, unchanged.
+    recipes : list of dict
+        One recipe (issue 3 JSON form) per returned paint; ``target`` is the k-means colour.
+    inventory : list of dict
+        The stock paints, ``{"name", "srgb", "tinting_strength", "containers_l"}``, for plan.json.
+
+    Raises
+    ------
+    layerplan.inventory.InventoryError
+        If the inventory file is missing or wrong (a ValueError naming file, line and field).
+
+    References
+    ----------
+    Kubelka & Munk (1931); Berns & Mohammadi (2007); Mallett & Yuksel (2019) — see
+    :mod:`layerplan.mixing`.
+    """
+    from .inventory import default_inventory, load_inventory
+    from .plan import hex_to_rgb
+    from .recipes import solve_recipes
+
+    inv = default_inventory() if settings.inventory is None else load_inventory(settings.inventory)
+    found = solve_recipes(pal_lab, inv, max_paints=settings.mix_paints, max_parts=settings.max_parts,
+                          tolerance=settings.tolerance_de, targets_srgb=[rgb_to_hex(c) for c in pal_rgb])
+    stock = [{"name": p.name, "srgb": p.srgb, "tinting_strength": p.tinting_strength,
+              "containers_l": list(p.containers_l)} for p in inv.paints]
+    if settings.free_palette:
+        return pal_rgb, pal_lab, [r.to_dict() for r in found], stock
+    keep: dict[str, int] = {}
+    for i, r in enumerate(found):
+        keep.setdefault(r.predicted_srgb, i)
+    chosen = list(keep.values())
+    rgb = np.array([hex_to_rgb(found[i].predicted_srgb) for i in chosen], dtype=np.uint8).reshape(-1, 3)
+    rgb, lab, order = lightest_first(rgb, srgb_to_lab(rgb))
+    return rgb, lab, [found[chosen[i]].to_dict() for i in order], stock
+
+
+def make_plan(image: np.ndarray, settings: Settings, *, progress=None) -> Plan:
+    """Plan a layered painting of a photo at wall scale.
+
+    Parameters
+    ----------
+    image : (h, w, 3) uint8 array, sRGB
+    settings : Settings
+    progress : callable(fraction, message), optional
+        Called with non-decreasing fractions in [0, 1].
+
+    Returns
+    -------
+    Plan
+
+    Raises
+    ------
+    ValueError
+        If a setting is out of range (the message names it).
+
+    References
+    ----------
+    Hertzmann, "Paint by Relaxation", 2001 (energy); Sharma et al. 2005 (CIEDE2000).
+    """
+    report = progress or _noop
+    settings = settings.validated()
+    image = np.asarray(image)
+    if image.ndim != 3 or image.shape[2] != 3 or image.dtype != np.uint8:
+        raise ValueError(f"image must be an (H, W, 3) uint8 array, got {image.dtype} {image.shape}")
+    wall_w, wall_h, s, width_px, height_px = working_raster(settings, image.shape)
+    if wall_h > MAX_WALL_MM:
+        raise ValueError(f"wall height must be at most {MAX_WALL_MM / 1000:g} m, got {wall_h / 1000:g} m")
+    if width_px * height_px > HARD_MAX_RASTER_PX:
+        raise ValueError(
+            f"working raster of {width_px}x{height_px} px is too large (at most {HARD_MAX_RASTER_PX / 1e6:g} "
+            f"megapixels); use a coarser pixel size than {s:g} mm"
+        )
+    if min(width_px, height_px) < MIN_RASTER_SIDE_PX:
+        raise ValueError(f"working raster of {width_px}x{height_px} px is too small; use a finer pixel size than {s:g} mm")
+    report(0.0, "fitting the photo to the wall")
+    target, inside = fit_to_wall(image, width_px, height_px, fit=settings.fit)
+
+    report(0.03, "choosing paints")
+    target_lab = srgb_to_lab(target)
+    pal_rgb, pal_lab = palette_from_image(target_lab, inside, settings.paints, seed=settings.seed)
+    report(0.045, "mixing recipes from the paints")
+    pal_rgb, pal_lab, recipes, inventory = mix_palette(pal_rgb, pal_lab, settings)
+
+    report(0.06, "measuring colour error")
+    planes = error_planes(target_lab, pal_lab)
+    ground = choose_ground(planes, inside)
+    if not inside.all():
+        # contain bands are meant to stay ground: measure them against the ground paint
+        planes[~inside] = delta_e00(pal_lab, pal_lab[ground][None, :]).astype(np.float32)
+        target_lab[~inside] = pal_lab[ground]
+    canvas = np.full((height_px, width_px), ground, dtype=np.int16)
+    err = np.ascontiguousarray(planes[:, :, ground])
+    stats = {"mean_delta_e_ground": round(float(err.mean()), 4),
+             "mean_delta_e_floor": round(float(planes.min(axis=2).mean()), 4)}
+
+    ids = [f"P{i + 1}" for i in range(len(pal_rgb))]
+    palette = [
+        Paint(id=ids[i], srgb=rgb_to_hex(pal_rgb[i]), lab=tuple(round(float(v), 3) for v in pal_lab[i]),
+              extra={"recipe": recipes[i]})
+        for i in range(len(pal_rgb))
+    ]
+    specs = layer_specs(settings.brushes_mm, s, settings.stroke_cost)
+    placed = []
+    thetas = []
+    span = _P_LAYERS / len(specs)
+    for n, spec in enumerate(specs):
+        base = _P_PREP + n * span
+        label = f"layer {spec.number} of {len(specs)} ({spec.limits.width_mm:g} mm brush)"
+        report(base, label)
+        theta = orientation_field(target_lab, spec.direction_sigma_px)
+        thetas.append(theta)
+
+        def sub(fraction, message, base=base, label=label):
+            report(base + span * min(1.0, fraction), f"{label}: {message}")
+
+        placed.append(place_layer(
+            planes, canvas, err, theta, spec.limits, mm_per_px=s, wall_mm=(wall_w, wall_h),
+            cost=spec.cost, seed=settings.seed * 7919 + spec.number, progress=sub,
+            tries=spec.tries, patience=spec.patience,
+        ))
+    relax_label = "relaxing strokes against the finished picture"
+    report(_P_PREP + _P_LAYERS, relax_label)
+
+    def relaxed(fraction, message):
+        report(_P_PREP + _P_LAYERS + _P_RELAX * fraction, f"{relax_label}: {message}")
+
+    layer_of = np.concatenate([np.full(len(r.points), n) for n, r in enumerate(placed)]).astype(int)
+    all_points, all_paints, alive, _ = relax_strokes(
+        planes, ground, [p for r in placed for p in r.points], layer_of, np.concatenate([r.paints for r in placed]),
+        [spec.limits for spec in specs], [spec.cost for spec in specs], thetas, mm_per_px=s,
+        wall_mm=(wall_w, wall_h), seed=settings.seed * 7919, passes=RELAX_PASSES, tries=RELAX_TRIES,
+        delete=RELAX_DELETE, progress=relaxed,
+    )
+    report(_P_PREP + _P_LAYERS + _P_RELAX, "taking away strokes later ones hid")
+    live = np.flatnonzero(alive)
+    keep = np.zeros(len(alive), dtype=bool)
+    keep[live] = prune_strokes(
+        planes, ground, [all_points[i] for i in live], np.array([specs[n].limits.width_mm for n in layer_of[live]]),
+        all_paints[live], mm_per_px=s,
+    )
+    offset = 0
+    for result in placed:
+        m = len(result.points)
+        result.points = all_points[offset : offset + m]
+        result.paints = all_paints[offset : offset + m]
+        offset += m
+    report(0.97, "ordering strokes for painting")
+    layers = []
+    offset = 0
+    for spec, result in zip(specs, placed):
+        kept = np.flatnonzero(keep[offset : offset + len(result.points)])
+        offset += len(result.points)
+        points = [result.points[i] for i in kept]
+        paints = result.paints[kept]
+        order = painting_order(points, paints, spec.limits.width_mm, s, (height_px, width_px))
+        strokes = [Stroke(paint=ids[int(paints[i])], width_mm=spec.limits.width_mm, path_mm=points[i]) for i in order]
+        layers.append(Layer(brush_width_mm=spec.limits.width_mm, strokes=strokes))
+    plan = Plan(
+        wall_width_mm=wall_w, wall_height_mm=wall_h, width_px=width_px, height_px=height_px, mm_per_px=s,
+        palette=palette, ground=ids[ground], layers=layers,
+    )
+    # error after each layer, from the plan itself
+    steps = [np.take_along_axis(planes, c[..., None].astype(np.intp), axis=2)[..., 0].mean(dtype=np.float64)
+             for c in render_steps(plan)]
+    stats["mean_delta_e_final"] = round(float(steps[-1]), 4)
+    stats["layers"] = [
+        {"strokes": len(layer.strokes), "placed": len(r.points),
+         "mean_delta_e_before": round(float(steps[n]), 4), "mean_delta_e_after": round(float(steps[n + 1]), 4)}
+        for n, (layer, r) in enumerate(zip(layers, placed))
+    ]
+    plan.extra = {"generator": f"layerplan {__version__}", "settings": settings.to_dict(), "stats": stats,
+                  "inventory": inventory}
+    report(1.0, "plan ready")
+    return plan

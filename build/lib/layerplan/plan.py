@@ -1,0 +1,286 @@
+"""The `Plan`: the one object every stage produces, and every exporter reads.
+
+Its serialisation is the versioned plan.json contract (format ``layerplan.plan``,
+version 1). The names and meanings below must hold because other tools read them::
+
+    {"format": "layerplan.plan", "version": 1,
+     "wall":   {"width_mm": 4000.0, "height_mm": 2500.0},
+     "raster": {"width_px": 800, "height_px": 500, "mm_per_px": 5.0},
+     "palette": [{"id": "P1", "srgb": "#rrggbb", "lab": [L, a, b]}, ...],
+     "ground": {"paint": "P1"},
+     "layers": [{"brush": {"width_mm": 100.0},
+                 "strokes": [{"paint": "P2", "width_mm": 100.0,
+                              "path_mm": [[x, y], ...]}, ...]}, ...]}
+
+Coordinates are wall millimetres, origin top-left, x right, y down. Further
+sections (``settings``, ``recipes``, ``paint_use``, ...) may be added freely; they
+travel in ``Plan.extra`` so a plan read and written again keeps them.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+
+FORMAT = "layerplan.plan"
+VERSION = 1
+
+
+@dataclass
+class Paint:
+    """One paint of the plan's finite palette.
+
+    Parameters
+    ----------
+    id : str
+        Short label painted on the plan ("P1", "P2", ...).
+    srgb : str
+        ``#rrggbb`` colour used to render the plan.
+    lab : tuple of float
+        CIELAB (D65, 2°) of ``srgb``.
+    extra : dict
+        Further per-paint sections (e.g. ``recipe``), kept verbatim.
+    """
+
+    id: str
+    srgb: str
+    lab: tuple[float, float, float]
+    extra: dict[str, Any] = field(default_factory=dict)
+
+    @property
+    def rgb(self) -> tuple[int, int, int]:
+        """The colour as three 0–255 integers."""
+        return hex_to_rgb(self.srgb)
+
+
+@dataclass
+class Stroke:
+    """One brush stroke: a polyline painted with a round brush, opaque.
+
+    ``path_mm`` is an (N, 2) float array of wall millimetres (x, y), N >= 1.
+    """
+
+    paint: str
+    width_mm: float
+    path_mm: np.ndarray
+
+    def length_mm(self) -> float:
+        """Length of the polyline (0 for a single-point dab)."""
+        if len(self.path_mm) < 2:
+            return 0.0
+        return float(np.sum(np.hypot(*np.diff(self.path_mm, axis=0).T)))
+
+
+@dataclass
+class Layer:
+    """All strokes made with one brush, in painting order."""
+
+    brush_width_mm: float
+    strokes: list[Stroke] = field(default_factory=list)
+    extra: dict[str, Any] = field(default_factory=dict)
+
+
+@dataclass
+class Plan:
+    """A complete painting plan at wall scale.
+
+    Attributes
+    ----------
+    wall_width_mm, wall_height_mm : float
+        Size of the painted surface.
+    width_px, height_px : int
+        Working raster; one pixel stands for ``mm_per_px`` millimetres of wall.
+    mm_per_px : float
+    palette : list of Paint
+    ground : str
+        Palette id of the flat first coat over the whole surface.
+    layers : list of Layer
+        Widest brush first.
+    extra : dict
+        Further top-level sections (``settings``, ``stats``, ``paint_use``...).
+    """
+
+    wall_width_mm: float
+    wall_height_mm: float
+    width_px: int
+    height_px: int
+    mm_per_px: float
+    palette: list[Paint]
+    ground: str
+    layers: list[Layer] = field(default_factory=list)
+    extra: dict[str, Any] = field(default_factory=dict)
+
+    # ------------------------------------------------------------------ lookups
+    def paint_index(self) -> dict[str, int]:
+        """Map palette id -> position in ``palette``."""
+        return {p.id: i for i, p in enumerate(self.palette)}
+
+    def paint(self, paint_id: str) -> Paint:
+        """The palette entry with this id."""
+        for p in self.palette:
+            if p.id == paint_id:
+                return p
+        raise KeyError(f"no paint {paint_id!r} in the palette")
+
+    def palette_rgb(self) -> np.ndarray:
+        """(K, 3) uint8 colours in palette order."""
+        return np.array([p.rgb for p in self.palette], dtype=np.uint8).reshape(-1, 3)
+
+    def palette_lab(self) -> np.ndarray:
+        """(K, 3) float CIELAB in palette order."""
+        return np.array([p.lab for p in self.palette], dtype=float).reshape(-1, 3)
+
+    def stroke_count(self) -> int:
+        return sum(len(layer.strokes) for layer in self.layers)
+
+    # ------------------------------------------------------------ serialising
+    def to_dict(self) -> dict[str, Any]:
+        """The plan.json document (a plain, JSON-ready dict)."""
+        doc: dict[str, Any] = {
+            "format": FORMAT,
+            "version": VERSION,
+            "wall": {"width_mm": _num(self.wall_width_mm), "height_mm": _num(self.wall_height_mm)},
+            "raster": {
+                "width_px": int(self.width_px),
+                "height_px": int(self.height_px),
+                "mm_per_px": _num(self.mm_per_px),
+            },
+            "palette": [
+                {"id": p.id, "srgb": p.srgb, "lab": [round(float(v), 3) for v in p.lab], **p.extra}
+                for p in self.palette
+            ],
+            "ground": {"paint": self.ground},
+            "layers": [
+                {
+                    "brush": {"width_mm": _num(layer.brush_width_mm)},
+                    **layer.extra,
+                    "strokes": [
+                        {
+                            "paint": s.paint,
+                            "width_mm": _num(s.width_mm),
+                            "path_mm": [[_num(x), _num(y)] for x, y in np.asarray(s.path_mm, float)],
+                        }
+                        for s in layer.strokes
+                    ],
+                }
+                for layer in self.layers
+            ],
+        }
+        for key, value in self.extra.items():
+            if key not in doc:
+                doc[key] = value
+        return doc
+
+    def to_json(self) -> str:
+        """Deterministic JSON text: the same plan gives the same bytes."""
+        return json.dumps(self.to_dict(), ensure_ascii=False, separators=(",", ":")) + "\n"
+
+    @classmethod
+    def from_dict(cls, doc: dict[str, Any]) -> "Plan":
+        """Read a plan.json document, checking the parts of the contract.
+
+        Raises
+        ------
+        ValueError
+            If the document is not a layerplan plan, has another version, or a
+            required field is missing or malformed (the message names it).
+        """
+        if not isinstance(doc, dict) or doc.get("format") != FORMAT:
+            raise ValueError(f"not a layerplan plan: 'format' must be {FORMAT!r}")
+        if doc.get("version") != VERSION:
+            raise ValueError(f"unsupported plan version {doc.get('version')!r}; this layerplan reads {VERSION}")
+        try:
+            wall, raster = doc["wall"], doc["raster"]
+            palette = [
+                Paint(
+                    id=str(p["id"]),
+                    srgb=str(p["srgb"]),
+                    lab=tuple(float(v) for v in p["lab"]),
+                    extra={k: v for k, v in p.items() if k not in ("id", "srgb", "lab")},
+                )
+                for p in doc["palette"]
+            ]
+            layers = []
+            for layer in doc["layers"]:
+                strokes = [
+                    Stroke(
+                        paint=str(s["paint"]),
+                        width_mm=float(s["width_mm"]),
+                        path_mm=np.asarray(s["path_mm"], dtype=float).reshape(-1, 2),
+                    )
+                    for s in layer["strokes"]
+                ]
+                layers.append(
+                    Layer(
+                        brush_width_mm=float(layer["brush"]["width_mm"]),
+                        strokes=strokes,
+                        extra={k: v for k, v in layer.items() if k not in ("brush", "strokes")},
+                    )
+                )
+            plan = cls(
+                wall_width_mm=float(wall["width_mm"]),
+                wall_height_mm=float(wall["height_mm"]),
+                width_px=int(raster["width_px"]),
+                height_px=int(raster["height_px"]),
+                mm_per_px=float(raster["mm_per_px"]),
+                palette=palette,
+                ground=str(doc["ground"]["paint"]),
+                layers=layers,
+                extra={
+                    k: v
+                    for k, v in doc.items()
+                    if k not in ("format", "version", "wall", "raster", "palette", "ground", "layers")
+                },
+            )
+        except (KeyError, TypeError, IndexError) as exc:
+            raise ValueError(f"plan.json is missing or has a malformed field: {exc}") from exc
+        ids = plan.paint_index()
+        if plan.ground not in ids:
+            raise ValueError(f"ground paint {plan.ground!r} is not in the palette")
+        for n, layer in enumerate(plan.layers):
+            for s in layer.strokes:
+                if s.paint not in ids:
+                    raise ValueError(f"layer {n + 1}: stroke paint {s.paint!r} is not in the palette")
+        return plan
+
+    @classmethod
+    def from_json(cls, text: str) -> "Plan":
+        try:
+            doc = json.loads(text)
+        except json.JSONDecodeError as exc:
+            raise ValueError(f"plan.json is not valid JSON: {exc}") from exc
+        return cls.from_dict(doc)
+
+
+def _num(x: float) -> float | int:
+    """A float rounded to 0.01 for the file (keeps files small and stable)."""
+    v = round(float(x), 2)
+    if not math.isfinite(v):
+        raise ValueError(f"non-finite number in plan: {x}")
+    return v
+
+
+def hex_to_rgb(text: str) -> tuple[int, int, int]:
+    """``"#rrggbb"`` -> (r, g, b) integers.
+
+    Raises
+    ------
+    ValueError
+        If ``text`` is not a 6-digit hex colour.
+    """
+    s = text.strip().lstrip("#")
+    if len(s) == 3:
+        s = "".join(c * 2 for c in s)
+    if len(s) != 6 or any(c not in "0123456789abcdefABCDEF" for c in s):
+        raise ValueError(f"not a hex colour (#rrggbb): {text!r}")
+    return int(s[0:2], 16), int(s[2:4], 16), int(s[4:6], 16)
+
+
+def rgb_to_hex(rgb) -> str:
+    """(r, g, b) 0–255 -> ``"#rrggbb"``."""
+    r, g, b = (int(v) for v in rgb)
+    return f"#{r:02x}{g:02x}{b:02x}"

@@ -1,0 +1,173 @@
+"""Planning settings, validated once at the edge (CLI, web, library callers)."""
+
+from __future__ import annotations
+
+import math
+from dataclasses import asdict, dataclass, field, replace
+from typing import Any
+
+#: default brush kit, mm: a 100 mm block-in brush down to a 12 mm detail brush (common practice
+#: for wall work: 4", 2", 1", 1/2" flats)
+DEFAULT_BRUSHES_MM: tuple[float, ...] = (100.0, 50.0, 25.0, 12.0)
+#: default wall width when none is given
+DEFAULT_WALL_WIDTH_MM = 3000.0
+#: the narrowest brush should span at least this many working pixels
+MIN_PX_PER_BRUSH = 3.0
+#: default cap on the working raster, pixels (keeps planning within memory and minutes)
+MAX_RASTER_PX = 2_000_000
+#: hard limit for an explicit --pixel-mm
+HARD_MAX_RASTER_PX = 8_000_000
+MIN_PAINTS, MAX_PAINTS = 2, 32
+MAX_BRUSHES = 8
+#: largest wall side we accept, mm (100 m: bigger than any mural wall we expect)
+MAX_WALL_MM = 100_000.0
+#: smallest working raster side, px (below it a plan cannot show anything)
+MIN_RASTER_SIDE_PX = 8
+FITS = ("cover", "contain")
+#: ΔE00 a stroke must remove per (brush width)² of wall. Our choice between fidelity and work on the
+#: ladder: on the bench photos it keeps plans near 1.1 × the palette's floor with a fifth or less of the
+#: strokes of the Hertzmann (1998) baseline (bench/results.md); lower it for more detail, raise it for fewer strokes
+DEFAULT_STROKE_COST = 5.5
+
+
+@dataclass(frozen=True)
+class Settings:
+    """Everything that decides a plan besides the photo.
+
+    Parameters
+    ----------
+    wall_width_mm : float
+        Width of the painted surface.
+    wall_height_mm : float or None
+        Height; ``None`` takes it from the photo's aspect ratio.
+    wall_unit : str
+        Unit the painter gave the size in (``m``, ``cm``, ``mm``, ``ft``, ``in``); display only.
+    fit : {"cover", "contain"}
+        ``cover`` scales the photo to cover the wall and centre-crops; ``contain``
+        fits it inside and pads with the ground paint.
+    paints : int
+        Size of the finite paint set, 2–32.
+    brushes_mm : tuple of float
+        Brush widths; one layer per brush, widest first.
+    mm_per_px : float or None
+        Wall size of one working pixel; ``None`` picks one (see :func:`choose_mm_per_px`).
+    seed : int
+        Seed for every random choice: same inputs and seed give the same plan.
+    stroke_cost : float
+        What a stroke must earn: the ΔE00 it removes, summed over its pixels, must exceed
+        ``stroke_cost`` × (brush width in pixels)².
+    inventory : str or None
+        Path of the painter's inventory file (TOML, see :mod:`layerplan.inventory`);
+        ``None`` mixes from the default set shipped with layerplan.
+    free_palette : bool
+        ``True`` keeps the raw k-means colours; by default each paint is snapped to the
+        colour its mix recipe is predicted to give (recipes are reported either way).
+    mix_paints : int
+        At most this many inventory paints per mix recipe (1–4).
+    max_parts : int
+        Whole parts of a recipe add up to at most this (1–30).
+    tolerance_de : float
+        A paint counts as mixable when its recipe is within this CIEDE2000 (0–100).
+    """
+
+    wall_width_mm: float = DEFAULT_WALL_WIDTH_MM
+    wall_height_mm: float | None = None
+    wall_unit: str = "m"
+    fit: str = "cover"
+    paints: int = 8
+    brushes_mm: tuple[float, ...] = DEFAULT_BRUSHES_MM
+    mm_per_px: float | None = None
+    seed: int = 0
+    stroke_cost: float = DEFAULT_STROKE_COST
+    inventory: str | None = None
+    free_palette: bool = False
+    mix_paints: int = 3  # issue 3 defaults: 3 paints, 10 parts, ΔE00 3
+    max_parts: int = 10
+    tolerance_de: float = 3.0
+    extra: dict[str, Any] = field(default_factory=dict, compare=False)
+
+    def validated(self) -> "Settings":
+        """Return a checked, normalised copy (brushes sorted widest first).
+
+        Raises
+        ------
+        ValueError
+            Naming the setting and the bad value.
+        """
+        for name in ("wall_width_mm", "wall_height_mm"):
+            v = getattr(self, name)
+            if v is None and name == "wall_height_mm":
+                continue
+            if not isinstance(v, (int, float)) or not math.isfinite(v) or v <= 0:
+                raise ValueError(f"wall {name[5:-3]} must be > 0 mm, got {v}")
+            if v > MAX_WALL_MM:
+                raise ValueError(f"wall {name[5:-3]} must be at most {MAX_WALL_MM / 1000:g} m, got {v / 1000:g} m")
+        if self.fit not in FITS:
+            raise ValueError(f"fit must be one of {', '.join(FITS)}, got {self.fit!r}")
+        if not isinstance(self.paints, int) or not MIN_PAINTS <= self.paints <= MAX_PAINTS:
+            raise ValueError(f"paints must be a whole number from {MIN_PAINTS} to {MAX_PAINTS}, got {self.paints}")
+        brushes = tuple(sorted((float(b) for b in self.brushes_mm), reverse=True))
+        if not brushes:
+            raise ValueError("give at least one brush width")
+        if len(brushes) > MAX_BRUSHES:
+            raise ValueError(f"at most {MAX_BRUSHES} brushes, got {len(brushes)}")
+        for b in brushes:
+            if not math.isfinite(b) or b <= 0:
+                raise ValueError(f"brush width must be > 0 mm, got {b:g}")
+            if b > 1000:
+                raise ValueError(f"brush width must be at most 1000 mm, got {b:g}")
+        if len(set(brushes)) != len(brushes):
+            raise ValueError(f"brush widths must differ, got {', '.join(f'{b:g}' for b in self.brushes_mm)}")
+        if self.mm_per_px is not None and (not math.isfinite(self.mm_per_px) or self.mm_per_px <= 0):
+            raise ValueError(f"pixel size must be > 0 mm, got {self.mm_per_px}")
+        if not isinstance(self.seed, int) or self.seed < 0:
+            raise ValueError(f"seed must be a whole number >= 0, got {self.seed}")
+        if not math.isfinite(self.stroke_cost) or self.stroke_cost < 0:
+            raise ValueError(f"stroke cost must be >= 0, got {self.stroke_cost}")
+        if self.inventory is not None and (not isinstance(self.inventory, str) or not self.inventory.strip()):
+            raise ValueError(f"inventory must be the path of an inventory file, got {self.inventory!r}")
+        if not isinstance(self.free_palette, bool):
+            raise ValueError(f"free_palette must be true or false, got {self.free_palette!r}")
+        from .recipes import check_options  # late: recipes pulls in numba
+
+        check_options(self.mix_paints, self.max_parts, self.tolerance_de)
+        return replace(self, brushes_mm=brushes)
+
+    def to_dict(self) -> dict[str, Any]:
+        d = asdict(self)
+        d["brushes_mm"] = list(self.brushes_mm)
+        extra = d.pop("extra")
+        d.update(extra)
+        return d
+
+
+def choose_mm_per_px(wall_width_mm: float, wall_height_mm: float, narrowest_brush_mm: float,
+                     *, max_px: int = MAX_RASTER_PX) -> float:
+    """Default working-pixel size.
+
+    Fine enough that the narrowest brush spans ``MIN_PX_PER_BRUSH`` pixels, but no finer
+    than keeps the raster within ``max_px`` pixels. Rounded up to 0.01 mm.
+    """
+    s = narrowest_brush_mm / MIN_PX_PER_BRUSH
+    s = max(s, math.sqrt(wall_width_mm * wall_height_mm / max_px))
+    return math.ceil(s * 100.0 - 1e-9) / 100.0
+
+
+def raster_size(wall_width_mm: float, wall_height_mm: float, mm_per_px: float) -> tuple[int, int]:
+    """(width_px, height_px) of the working raster: the wall divided into whole pixels."""
+    return max(1, int(round(wall_width_mm / mm_per_px))), max(1, int(round(wall_height_mm / mm_per_px)))
+
+
+def working_raster(settings: Settings, image_shape) -> tuple[float, float, float, int, int]:
+    """Wall size and working raster for a photo: ``(wall_w_mm, wall_h_mm, mm_per_px, width_px, height_px)``.
+
+    A missing wall height follows the photo's aspect ratio; a missing pixel size comes from
+    :func:`choose_mm_per_px`. The limits (``MAX_WALL_MM``, ``HARD_MAX_RASTER_PX``,
+    ``MIN_RASTER_SIDE_PX``) are checked by the callers, each in its own words.
+    """
+    h, w = image_shape[:2]
+    wall_w = float(settings.wall_width_mm)
+    wall_h = float(settings.wall_height_mm) if settings.wall_height_mm is not None else wall_w * h / w
+    s = settings.mm_per_px or choose_mm_per_px(wall_w, wall_h, min(settings.brushes_mm))
+    width_px, height_px = raster_size(wall_w, wall_h, s)
+    return wall_w, wall_h, s, width_px, height_px

@@ -1,0 +1,192 @@
+"""The layerplan web app: upload a photo, watch the plan being made, step through it, print it.
+
+``create_app(test_config=None)`` builds the Flask app (after the Flask tutorial's factory
+pattern). Configuration comes from the defaults below, then ``instance/config.py`` and
+``LAYERPLAN_*`` environment variables, or from ``test_config`` when given.
+
+Configuration keys
+------------------
+DATA_DIR
+    Where plans live (SQLite database and a folder per plan); default the instance folder.
+WORKERS
+    Plans planned at the same time (worker processes); the rest wait in a queue.
+MAX_QUEUED
+    Plans allowed to wait; beyond it new plans get 503 until the queue drains.
+MAX_CONTENT_LENGTH
+    Largest request in bytes (the photo and the form); larger gets 413.
+JOB_TIMEOUT_S
+    A plan running longer is stopped and marked failed.
+JOB_RUNNER
+    Optional factory ``f(app, store) -> JobRunner`` to plug in another job system.
+UPLOAD_KEEP_S
+    How long the photo of a refused form is kept for the next try, seconds.
+"""
+
+from __future__ import annotations
+
+import atexit
+import fcntl
+import logging
+import os
+from dataclasses import dataclass
+from pathlib import Path
+
+from flask import Flask, jsonify, render_template, request
+from werkzeug.exceptions import HTTPException, InternalServerError
+
+from ..resources import static_dir, template_dir
+from .forms import size_text
+from .jobs import JobRunner, LocalProcessRunner, recover
+from .store import PlanStore
+from .uploads import KEEP_S, UploadStash
+
+log = logging.getLogger(__name__)
+
+#: 25 MB: above a full-resolution phone JPEG (typically 3–12 MB), far below memory trouble
+DEFAULT_MAX_CONTENT_LENGTH = 25_000_000
+#: leave a core for the web server itself on small machines
+DEFAULT_WORKERS = max(1, (os.cpu_count() or 2) // 2)
+DEFAULT_MAX_QUEUED = 50
+LOCK_NAME = "server.lock"
+
+
+@dataclass
+class WebState:
+    """What a running app holds: the store, the job runner and the data-dir lock."""
+
+    store: PlanStore
+    runner: JobRunner
+    lock_file: object | None = None
+    uploads: UploadStash | None = None
+
+    def close(self, *, wait: bool = False) -> None:
+        """Stop the runner and release the data directory (safe to call twice)."""
+        self.runner.shutdown(wait=wait)
+        if self.lock_file is not None:
+            try:
+                fcntl.flock(self.lock_file.fileno(), fcntl.LOCK_UN)
+                self.lock_file.close()
+            except (OSError, ValueError):
+                pass
+            self.lock_file = None
+
+
+def create_app(test_config: dict | None = None, *, overrides: dict | None = None) -> Flask:
+    """Build the web app.
+
+    Parameters
+    ----------
+    test_config : dict, optional
+        Configuration that replaces the instance file and environment (for tests).
+    overrides : dict, optional, keyword-only
+        Applied last, over either (``layerplan serve`` passes its options here).
+
+    Returns
+    -------
+    flask.Flask
+        With ``app.extensions["layerplan"]`` a :class:`WebState`; call
+        ``app.extensions["layerplan"].close()`` to stop its workers.
+
+    Raises
+    ------
+    RuntimeError
+        If another running layerplan server already uses the data directory.
+    """
+    app = Flask(__name__, instance_relative_config=True,
+                template_folder=str(template_dir()), static_folder=str(static_dir()))
+    app.config.from_mapping(
+        DATA_DIR=None,
+        WORKERS=DEFAULT_WORKERS,
+        MAX_QUEUED=DEFAULT_MAX_QUEUED,
+        MAX_CONTENT_LENGTH=DEFAULT_MAX_CONTENT_LENGTH,
+        JOB_TIMEOUT_S=3600.0,
+        JOB_START_METHOD=None,
+        JOB_RUNNER=None,
+        RECENT_PLANS=30,
+        UPLOAD_KEEP_S=KEEP_S,
+    )
+    if test_config is None:
+        app.config.from_pyfile("config.py", silent=True)
+        app.config.from_prefixed_env("LAYERPLAN")
+    else:
+        app.config.from_mapping(test_config)
+    if overrides:
+        app.config.from_mapping(overrides)
+
+    data_dir = Path(app.config["DATA_DIR"] or app.instance_path)
+    data_dir.mkdir(parents=True, exist_ok=True)
+    app.config["DATA_DIR"] = str(data_dir)
+    lock_file = _lock_data_dir(data_dir)
+    store = PlanStore(data_dir)
+    factory = app.config["JOB_RUNNER"]
+    if factory is None:
+        runner = LocalProcessRunner(data_dir, max_workers=int(app.config["WORKERS"]),
+                                    timeout_s=float(app.config["JOB_TIMEOUT_S"]),
+                                    start_method=app.config["JOB_START_METHOD"])
+    else:
+        runner = factory(app, store)
+    uploads = UploadStash(data_dir, keep_s=float(app.config["UPLOAD_KEEP_S"]))
+    uploads.sweep()
+    state = WebState(store=store, runner=runner, lock_file=lock_file, uploads=uploads)
+    app.extensions["layerplan"] = state
+    atexit.register(state.close)
+    for plan_id in recover(store):
+        runner.submit(plan_id)
+
+    from . import api, pages
+
+    app.register_blueprint(api.bp)
+    app.register_blueprint(pages.bp)
+    app.register_error_handler(HTTPException, _http_error)
+    app.register_error_handler(Exception, _unexpected_error)
+
+    @app.after_request
+    def _headers(response):
+        response.headers.setdefault("X-Content-Type-Options", "nosniff")
+        response.headers.setdefault("Referrer-Policy", "same-origin")
+        return response
+
+    return app
+
+
+def _lock_data_dir(data_dir: Path):
+    f = open(data_dir / LOCK_NAME, "a+")
+    try:
+        fcntl.flock(f.fileno(), fcntl.LOCK_EX | fcntl.LOCK_NB)
+    except BlockingIOError:
+        f.close()
+        raise RuntimeError(f"another layerplan server is using the data directory {data_dir}; "
+                           "stop it or give another --data-dir") from None
+    return f
+
+
+def _wants_json() -> bool:
+    return request.path.startswith("/api/")
+
+
+def _http_error(exc: HTTPException):
+    message = exc.description
+    if message == type(exc).description:  # Werkzeug's stock wording: use our shorter one
+        message = _MESSAGES.get(exc.code, message)
+    if exc.code == 413:
+        limit = request.max_content_length
+        message = f"the upload is too large: at most {size_text(limit)}" if limit else message
+    if _wants_json():
+        response = jsonify(error=message)
+        response.status_code = exc.code or 500
+        if exc.code == 405 and exc.valid_methods:
+            response.headers["Allow"] = ", ".join(exc.valid_methods)
+        return response
+    return render_template("error.html", code=exc.code, message=message), exc.code
+
+
+def _unexpected_error(exc: Exception):
+    log.exception("unexpected error on %s %s", request.method, request.path)
+    return _http_error(InternalServerError())
+
+
+_MESSAGES = {
+    404: "not found",
+    405: "method not allowed here",
+    500: "internal error: the server could not complete the request (it keeps running; see its log)",
+}

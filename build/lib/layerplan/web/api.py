@@ -1,0 +1,126 @@
+"""JSON API. The pages use it too; the route names and fields below are a contract.
+
+``POST /api/plans``                     multipart form -> 202 {"id", "url", ...}
+``GET /api/plans``                      {"plans": [status, ...]} newest first
+``GET /api/plans/<id>``                 {"id", "state", "progress", "message", "files", ...}
+``DELETE /api/plans/<id>``              204
+``GET /api/plans/<id>/files/<name>``    one of the plan's output files
+``GET /api/kits``                       the brush kits offered on the start page
+
+Fields of ``POST /api/plans`` (multipart/form-data; the start page's form sends the same)
+-------------------------------------------------------------------------------------------
+``image``          the photo file (JPEG, PNG, WebP, TIFF); required
+``wall_width``     width of the surface in ``unit``; required unless ``wall`` is given
+``wall_height``    height in ``unit``; blank or absent follows the photo's shape
+``unit``           m, cm, mm, ft or in (default m)
+``wall``           instead of the three above: one text such as ``4x2.5m``
+``paints``         number of paints, 2–32 (default 8)
+``brushes``        brush widths, comma-separated, mm unless a unit is given (``4in, 2in``)
+``kit``            instead of ``brushes``: a brush kit id from ``GET /api/kits``
+``fit``            cover (fill the surface, crop) or contain (fit the photo, pad with ground)
+``seed``           whole number >= 0 (default 0): same inputs and seed, same plan
+``pixel_mm``       size of one working pixel in mm (default: chosen from the narrowest brush)
+``free_palette``   1 keeps the photo's own colours instead of the colours the recipes reach
+``inventory``      default, upload (with file ``inventory_file``) or edit (with ``inventory_text``)
+
+Recipe options (as ``layerplan plan``'s options of the same meaning):
+
+``mix_paints``     most inventory paints in one mix, 1–4 (``--mix-paints``, default 3)
+``max_parts``      whole parts of a recipe add up to at most this, 1–30 (``--max-parts``, default 10)
+``tolerance``      a paint counts as mixable within this CIEDE2000, 0–100 (``--tolerance``, default 3)
+``stroke_cost``    what a stroke must earn, >= 0 (``--stroke-cost``, default 5.5)
+
+Quantity options (passed to :func:`layerplan.export.write_outputs`):
+
+``coverage``       spreading rate of one coat, m² per litre, > 0 (``--coverage``, default 10)
+``ground_coats``   coats of the ground, whole number >= 0 (``--ground-coats``, default 2)
+``stroke_coats``   coats of each stroke, whole number >= 1 (``--stroke-coats``, default 1)
+``waste``          extra paint to buy in percent, 0–100, e.g. ``15`` or ``15%`` (``--waste``, default 15 %)
+``grid``           transfer-grid square, a length such as ``50cm`` or ``2ft``; plain numbers are mm
+                   (``--grid``, default 50 cm; at most 200 squares along the longest side)
+
+Errors are ``{"error": "<message>"}`` with 400, 404, 405, 413, 415 or 503. A refused plan
+request also carries ``"field"``: the form field at fault (or null); its message names the
+field by the label the start page gives it (``Width``, ``Max parts per mix``, ...).
+"""
+
+from __future__ import annotations
+
+from flask import Blueprint, abort, current_app, jsonify, request, send_from_directory
+
+from . import forms, service
+
+bp = Blueprint("api", __name__, url_prefix="/api")
+
+
+def _error(message: str, status: int, **more):
+    response = jsonify(error=message, **more)
+    response.status_code = status
+    return response
+
+
+def _record_or_404(plan_id: str):
+    record = service.store().get(plan_id)
+    if record is None:
+        abort(404, description=f"no plan with id {plan_id!r}")
+    return record
+
+
+@bp.post("/plans")
+def create_plan():
+    try:
+        plan_id = service.submit(request.form, request.files)
+    except forms.RequestError as exc:
+        return _error(str(exc), exc.status, field=exc.field)
+    except service.Busy as exc:
+        response = _error(str(exc), 503)
+        response.headers["Retry-After"] = "60"
+        return response
+    record = service.store().get(plan_id)
+    body = service.status(record)
+    response = jsonify(body)
+    response.status_code = 202
+    response.headers["Location"] = body["url"]
+    return response
+
+
+@bp.get("/plans")
+def list_plans():
+    limit = int(current_app.config["RECENT_PLANS"])
+    return jsonify(plans=[service.status(r) for r in service.store().recent(limit)])
+
+
+@bp.get("/plans/<plan_id>")
+def plan_status(plan_id: str):
+    response = jsonify(service.status(_record_or_404(plan_id)))
+    response.headers["Cache-Control"] = "no-store"
+    return response
+
+
+@bp.delete("/plans/<plan_id>")
+def delete_plan(plan_id: str):
+    if not service.delete(plan_id):
+        abort(404, description=f"no plan with id {plan_id!r}")
+    return "", 204
+
+
+@bp.get("/plans/<plan_id>/files/<path:name>")
+def plan_file(plan_id: str, name: str):
+    record = _record_or_404(plan_id)
+    if record.state != "done":
+        abort(404, description=f"plan {plan_id} is {record.state}; its files exist once it is done")
+    # only names the export wrote are served: no path tricks reach anything else
+    if name not in service.store().output_files(plan_id):
+        abort(404, description=f"plan {plan_id} has no file {name!r}")
+    download = request.args.get("download") == "1"
+    response = send_from_directory(service.store().out_dir(plan_id), name, as_attachment=download,
+                                   download_name=f"layerplan-{plan_id}-{name.replace('/', '-')}")
+    response.headers["Cache-Control"] = "private, max-age=3600"
+    return response
+
+
+@bp.get("/kits")
+def kits():
+    return jsonify(kits=[{"id": k, "label": v["label"], "brushes_mm": list(v["brushes_mm"])}
+                         for k, v in forms.BRUSH_KITS.items()])
+

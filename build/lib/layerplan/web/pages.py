@@ -1,0 +1,324 @@
+"""HTML pages: the start page (upload form and recent plans), a plan's progress and its result."""
+
+from __future__ import annotations
+
+import io
+import math
+import time
+from typing import Any
+
+from flask import (Blueprint, abort, current_app, redirect, render_template, request, send_file,
+                   url_for)
+from PIL import Image
+from werkzeug.exceptions import RequestEntityTooLarge
+
+from layerplan import quantities
+from layerplan.settings import Settings
+from layerplan.units import UNITS_MM
+
+from . import forms, service
+from .store import WEB_KEY
+
+bp = Blueprint("pages", __name__)
+
+_S = Settings()
+#: the recipe and quantity options the form starts with: the planner's and the export's own defaults
+OPTION_DEFAULTS = {"mix_paints": str(_S.mix_paints), "max_parts": str(_S.max_parts), "tolerance": f"{_S.tolerance_de:g}",
+                   "stroke_cost": f"{_S.stroke_cost:g}", "coverage": f"{quantities.COVERAGE_M2_PER_L:g}",
+                   "ground_coats": str(quantities.GROUND_COATS), "stroke_coats": str(quantities.STROKE_COATS),
+                   "waste": f"{quantities.WASTE * 100:g}", "grid": ""}  # grid: empty = layerplan.report.default_grid_mm
+#: what the start page's form holds before anyone types
+FORM_DEFAULTS = {"wall_width": "3", "wall_height": "", "unit": "m", "paints": "8", "kit": forms.DEFAULT_KIT,
+                 "brushes": "", "fit": "cover", "seed": "0", "pixel_mm": "", "inventory": "default",
+                 "inventory_text": "", "free_palette": "", **OPTION_DEFAULTS}
+#: mimetypes of the photo formats we accept, by Pillow format id
+_PHOTO_TYPES = {"JPEG": "image/jpeg", "MPO": "image/jpeg", "PNG": "image/png", "WEBP": "image/webp",
+                "TIFF": "image/tiff"}
+
+
+def _start_page(values: dict[str, str] | None = None, error: str | None = None, status: int = 200, *,
+                error_field: str | None = None, kept: dict[str, str] | None = None):
+    merged = dict(FORM_DEFAULTS)
+    if values:
+        merged.update({k: v for k, v in values.items() if k in FORM_DEFAULTS})
+    # options the painter changed open the "more options" part
+    changed = any(merged.get(k, "").strip() != v for k, v in OPTION_DEFAULTS.items())
+    changed = changed or merged["seed"] not in ("", "0") or bool(merged["pixel_mm"] or merged["free_palette"])
+    limit = int(current_app.config["RECENT_PLANS"])
+    recent = [{"record": r, "summary": plan_summary(r.settings)} for r in service.store().recent(limit)]
+    limit = current_app.config.get("MAX_CONTENT_LENGTH")
+    max_size = forms.size_text(limit) if limit else ""
+    return render_template("start.html", values=merged, error=error, error_field=error_field, kept=kept,
+                           more_open=changed or error_field in OPTION_DEFAULTS, recent=recent,
+                           kits=forms.BRUSH_KITS, labels=forms.LABELS, limits=_limits(),
+                           units=forms.UNIT_CHOICES, max_size=max_size, inventory=_inventory_view()), status
+
+
+def _limits() -> dict[str, Any]:
+    return {"max_mix_paints": forms.MAX_MIX_PAINTS, "max_parts": forms.MAX_PARTS,
+            "max_tolerance": f"{forms.MAX_TOLERANCE_DE:g}"}
+
+
+def _inventory_view() -> dict[str, Any] | None:
+    """The default inventory for the form, or None when this build has no mix recipes."""
+    module = forms.inventory_module()
+    if module is None:
+        return None
+    from importlib import resources
+
+    text = resources.files("layerplan").joinpath("data", module.DEFAULT_INVENTORY_NAME).read_text("utf-8")
+    return {"default": module.default_inventory().to_list(), "default_text": text}
+
+
+@bp.get("/")
+def start():
+    return _start_page()
+
+
+@bp.post("/plans")
+def create():
+    try:
+        form, files = request.form, request.files
+    except RequestEntityTooLarge:
+        limit = forms.size_text(current_app.config["MAX_CONTENT_LENGTH"])
+        return _start_page(None, f"the photo is too large: at most {limit}", 413, error_field="image")
+    stash = service.uploads()
+    token = (form.get("upload_token") or "").strip()
+    upload = files.get("image")
+    photo = None
+    try:
+        if upload is not None and upload.filename:  # a newly chosen photo replaces a kept one
+            stash.discard(token)
+            token = ""
+            photo = forms.read_photo(files)
+        elif token:
+            photo = stash.get(token)
+            if photo is None:
+                token = ""
+                raise forms.RequestError("the photo chosen earlier is no longer kept (photos wait an hour); "
+                                         "choose it again", field="image")
+        else:
+            photo = forms.read_photo(files)
+        plan_id = service.submit(form, files, photo=photo)
+    except (forms.RequestError, service.Busy) as exc:
+        status = exc.status if isinstance(exc, forms.RequestError) else 503
+        field = getattr(exc, "field", None)
+        kept = None
+        if photo is not None and field != "image" and forms.looks_like_photo(photo[0]):
+            token = token or stash.put(*photo)  # so the next try need not choose the photo again
+            kept = {"token": token, "name": photo[1] or "the photo",
+                    "url": url_for("pages.kept_photo", token=token)}
+        elif token:
+            stash.discard(token)
+        return _start_page(form.to_dict(), str(exc), status, error_field=field, kept=kept)
+    if token:
+        stash.discard(token)
+    return redirect(url_for("pages.plan_page", plan_id=plan_id), code=303)
+
+
+@bp.get("/kept-photo/<token>")
+def kept_photo(token: str):
+    """The photo kept from a refused try of the form (its token is 128 random bits)."""
+    kept = service.uploads().get(token)
+    if kept is None:
+        abort(404, description="that photo is no longer kept")
+    return _photo_response(kept[0], max_age=0)
+
+
+@bp.get("/plans/<plan_id>")
+def plan_page(plan_id: str):
+    record = service.store().get(plan_id)
+    if record is None:
+        abort(404, description=f"there is no plan {plan_id!r} (it may have been deleted)")
+    view: dict[str, Any] = {"record": record, "status": service.status(record),
+                            "summary": plan_summary(record.settings)}
+    if record.state == "done":
+        doc = service.plan_document(plan_id)
+        if doc is None:
+            abort(500)
+        view.update(_plan_view(plan_id, doc, view["status"]["files"]))
+    return render_template("plan.html", **view)
+
+
+@bp.post("/plans/<plan_id>/delete")
+def delete(plan_id: str):
+    if not service.delete(plan_id):
+        abort(404, description=f"there is no plan {plan_id!r} (it may have been deleted already)")
+    return redirect(url_for("pages.start"), code=303)
+
+
+@bp.get("/plans/<plan_id>/photo")
+def photo(plan_id: str):
+    if service.store().get(plan_id) is None:
+        abort(404, description=f"there is no plan {plan_id!r}")
+    path = service.store().upload_path(plan_id)
+    try:
+        data = path.read_bytes()
+    except OSError:
+        abort(404, description="the uploaded photo is not available")
+    return _photo_response(data, max_age=3600)
+
+
+def _photo_response(data: bytes, *, max_age: int):
+    try:
+        with Image.open(io.BytesIO(data)) as img:
+            mimetype = _PHOTO_TYPES.get(img.format, "application/octet-stream")
+    except (OSError, ValueError):
+        abort(404, description="the uploaded photo is not available")
+    return send_file(io.BytesIO(data), mimetype=mimetype, max_age=max_age)
+
+
+# ---------------------------------------------------------------------- plan view model
+def _plan_view(plan_id: str, doc: dict[str, Any], files: dict[str, str]) -> dict[str, Any]:
+    palette = doc.get("palette", [])
+    use = doc.get("paint_use") or {}
+    litres = {p.get("paint"): p for p in use.get("paints", [])}
+    paints = []
+    for p in palette:
+        recipe = p.get("recipe")
+        paints.append({"id": p["id"], "srgb": p["srgb"], "lab": p.get("lab"), "name": p.get("name"),
+                       "recipe": recipe if isinstance(recipe, dict) else None,
+                       "use": litres.get(p["id"]), "ground": p["id"] == doc.get("ground", {}).get("paint")})
+    steps = []
+    step_names = sorted(n for n in files if n.startswith("steps/") and n.endswith(".png"))
+    layers = doc.get("layers", [])
+    for n, name in enumerate(step_names):
+        if n == 0:
+            label, detail = "Ground", _ground_text(doc.get("ground", {}).get("paint", ""), use.get("ground_coats"))
+        elif n <= len(layers):
+            layer = layers[n - 1]
+            used = sorted({s["paint"] for s in layer.get("strokes", [])}, key=_paint_key)
+            label = f"Layer {n} of {len(layers)}"
+            detail = (f"{layer['brush']['width_mm']:g} mm brush, {len(layer.get('strokes', []))} strokes"
+                      + (f" in {', '.join(used)}" if used else ""))
+        else:
+            label, detail = f"Step {n}", ""
+        svg = name[:-4] + ".svg"
+        steps.append({"url": files[name], "label": label, "detail": detail,
+                      "svg": files.get(svg)})
+    wall = doc.get("wall", {})
+    unit = (doc.get("settings") or {}).get("wall_unit", "m")
+    downloads = []
+    for name, label in (("plan.html", "Print plan (open and print)"), ("overlay.svg", "Wall-scale SVG overlay"),
+                        ("plan.json", "Plan data (JSON)"), ("final.png", "Final picture (PNG)")):
+        if name in files:
+            downloads.append({"name": name, "label": label, "url": files[name]})
+    step_files = [(n, files[n]) for n in sorted(files) if n.startswith("steps/")]
+    stock_colours = {i.get("name"): i.get("srgb") for i in doc.get("inventory") or [] if isinstance(i, dict)}
+    return {
+        "doc": doc, "paints": paints, "stock_colours": stock_colours, "steps": steps, "downloads": downloads, "step_files": step_files,
+        "paint_use": use if use.get("paints") else None,
+        "stock": _stock_list(use),
+        "wall_text": _size_text(wall.get("width_mm"), wall.get("height_mm"), unit),
+        "strokes": sum(len(layer.get("strokes", [])) for layer in layers),
+        "final_url": files.get("final.png"), "print_url": files.get("plan.html"),
+        "svg_url": files.get("overlay.svg"),
+    }
+
+
+#: coats in words, as a person says them ("two flat coats")
+_COUNT_WORDS = ("no", "one", "two", "three", "four", "five", "six", "seven", "eight", "nine", "ten")
+
+
+def _ground_text(paint: str, coats) -> str:
+    """What the ground step asks for, with the plan's own number of ground coats."""
+    if not isinstance(coats, int) or isinstance(coats, bool) or coats < 0:
+        return f"{paint} everywhere"
+    if coats == 0:
+        return f"{paint} everywhere: no coat planned (the surface is taken to be {paint} already)"
+    words = _COUNT_WORDS[coats] if coats < len(_COUNT_WORDS) else str(coats)
+    return f"{words} flat coat{'s' if coats != 1 else ''} of {paint} everywhere"
+
+
+def plan_summary(settings: dict[str, Any]) -> dict[str, Any]:
+    """What a plan is being made with, for the plan list and the progress page.
+
+    Returns ``{"surface": "3 × 1.5 m", "paints": 8, "brushes": "100 / 50 / 25 / 12 mm",
+    "facts": [(label, text), ...]}``: the main settings first, then the options that differ
+    from their defaults.
+    """
+    web = settings.get(WEB_KEY) or {}
+    unit = settings.get("wall_unit", "m")
+    wall = web.get("wall_mm") or [settings.get("wall_width_mm"), settings.get("wall_height_mm")]
+    surface = _size_text(*(list(wall) + [None, None])[:2], unit) or _width_text(settings.get("wall_width_mm"), unit)
+    brushes = settings.get("brushes_mm") or []
+    brushes_text = " / ".join(f"{b:g}" for b in brushes) + " mm" if brushes else ""
+    facts = [("Surface", surface), ("Paints", str(settings.get("paints", ""))), ("Brushes", brushes_text)]
+    pixel = settings.get("mm_per_px") or web.get("mm_per_px")
+    if isinstance(pixel, (int, float)):
+        facts.append(("Pixel size", f"{pixel:g} mm" + ("" if settings.get("mm_per_px") else " (automatic)")))
+    if settings.get("fit") == "contain":
+        facts.append(("Fit", "whole photo"))
+    if settings.get("seed"):
+        facts.append(("Seed", str(settings["seed"])))
+    if settings.get("free_palette"):
+        facts.append(("Colours", "the photo's own"))
+    for key, label, fmt in (("mix_paints", "Most paints per mix", "{:g}"), ("max_parts", "Max parts per mix", "{:g}"),
+                            ("tolerance_de", "Tolerance ΔE00", "{:g}"), ("stroke_cost", "Stroke cost", "{:g}")):
+        value, default = settings.get(key), getattr(_S, key)
+        if isinstance(value, (int, float)) and value != default:
+            facts.append((label, fmt.format(value)))
+    output = web.get("output") or {}
+    shown = {"coverage_m2_per_litre": ("Coverage", "{:g} m²/L", quantities.COVERAGE_M2_PER_L),
+             "ground_coats": ("Ground coats", "{:g}", quantities.GROUND_COATS),
+             "stroke_coats": ("Stroke coats", "{:g}", quantities.STROKE_COATS),
+             "waste": ("Waste", "{:g} %", quantities.WASTE), "grid_mm": ("Grid", "{:g} cm", 500.0)}
+    for key, (label, fmt, default) in shown.items():
+        value = output.get(key)
+        if isinstance(value, (int, float)) and value != default:
+            value = value * 100 if key == "waste" else value / 10 if key == "grid_mm" else value
+            facts.append((label, fmt.format(round(value, 6))))
+    return {"surface": surface, "paints": settings.get("paints"), "brushes": brushes_text,
+            "brush_count": len(brushes), "seed": settings.get("seed", 0), "facts": facts}
+
+
+def _width_text(width_mm, unit: str) -> str:
+    if not isinstance(width_mm, (int, float)):
+        return ""
+    return f"{width_mm / UNITS_MM.get(unit, 1000.0):.3g} {unit} wide"
+
+
+def _paint_key(paint_id: str):
+    digits = "".join(c for c in paint_id if c.isdigit())
+    return (int(digits) if digits else math.inf, paint_id)
+
+
+def _stock_list(use: dict[str, Any]) -> list[dict[str, Any]]:
+    """Stock paints to buy (quantities stage, when the paints have recipes)."""
+    rows = use.get("stock")
+    return rows if isinstance(rows, list) and all(isinstance(r, dict) for r in rows) else []
+
+
+@bp.app_template_filter("litres")
+def litres_text(value) -> str:
+    """A volume as the printed plan writes it: litres from 0.1 L, millilitres below ("35 mL")."""
+    if not isinstance(value, (int, float)):
+        return ""
+    from ..report import format_litres
+
+    return format_litres(float(value), False, used=value > 0)
+
+
+@bp.app_template_global()
+def containers_text(containers) -> str:
+    """``[{"litres": 4, "count": 1}, {"litres": 1, "count": 2}]`` -> ``"1 × 4 L + 2 × 1 L"``."""
+    if not isinstance(containers, list) or not containers:
+        return ""
+    # no-break spaces inside one container size, so "1 × 0.5 L" never splits; a line may break at "+"
+    return " + ".join(f"{c.get('count', 1)}\u00a0×\u00a0{c.get('litres', 0):g}\u00a0L"
+                      for c in containers if isinstance(c, dict))
+
+
+@bp.app_template_filter("datetime")
+def datetime_text(timestamp) -> str:
+    """A Unix time as UTC text (the page's script shows it in the reader's own time zone)."""
+    if not isinstance(timestamp, (int, float)):
+        return ""
+    return time.strftime("%d %b %Y, %H:%M UTC", time.gmtime(timestamp))
+
+
+def _size_text(width_mm, height_mm, unit: str) -> str:
+    if not isinstance(width_mm, (int, float)) or not isinstance(height_mm, (int, float)):
+        return ""
+    factor = UNITS_MM.get(unit, 1000.0)
+    return f"{width_mm / factor:.3g} × {height_mm / factor:.3g} {unit}"
