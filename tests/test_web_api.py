@@ -632,3 +632,25 @@ def test_amounts_on_the_plan_page_read_as_on_the_printed_plan():
     assert litres_text(0.035) == "35 mL"
     assert litres_text(0.0002) == "under 1 mL"
     assert litres_text(None) == ""
+
+
+def test_a_foreign_page_cannot_delete_or_submit_but_our_own_pages_can(client, app):
+    # Cross-site request forgery: a page elsewhere posts a plain form to us in a visitor's browser. Browsers
+    # send Origin (Fetch standard, WHATWG) and Sec-Fetch-Site (W3C Fetch Metadata) on such requests.
+    plan_id = _post(client).get_json()["id"]
+    wait_for_plan(client, plan_id)
+    evil = {"Origin": "https://elsewhere.example"}
+    r = client.delete(f"/api/plans/{plan_id}", headers=evil)
+    assert r.status_code == 403 and "another site" in r.get_json()["error"]
+    r = client.post(f"/plans/{plan_id}/delete", headers={"Sec-Fetch-Site": "cross-site"})
+    assert r.status_code == 403
+    r = client.post(f"/plans/{plan_id}/delete", headers={"Referer": "https://elsewhere.example/page"})
+    assert r.status_code == 403
+    r = client.post("/api/plans", data=plan_form(), content_type="multipart/form-data", headers=evil)
+    assert r.status_code == 403
+    assert client.get(f"/api/plans/{plan_id}").status_code == 200
+    assert [p["id"] for p in client.get("/api/plans").get_json()["plans"]] == [plan_id]
+    # the same request from our own origin works
+    own = {"Origin": "http://localhost", "Sec-Fetch-Site": "same-origin"}
+    assert client.delete(f"/api/plans/{plan_id}", headers=own).status_code == 204
+    assert client.get(f"/api/plans/{plan_id}").status_code == 404

@@ -71,6 +71,21 @@ class WebState:
             self.lock_file = None
 
 
+def _origin_of(url: str) -> str:
+    """scheme://host[:port] of a URL, lower-case (the part browsers compare for same-origin)."""
+    from urllib.parse import urlsplit
+
+    parts = urlsplit(url)
+    return f"{parts.scheme.lower()}://{parts.netloc.lower()}"
+
+
+def _cross_site(sender: str):
+    response = jsonify(error=f"refused: this request came from another site ({sender}); "
+                             "plans can be submitted and deleted only from layerplan's own pages")
+    response.status_code = 403
+    return response
+
+
 def create_app(test_config: dict | None = None, *, overrides: dict | None = None) -> Flask:
     """Build the web app.
 
@@ -139,6 +154,23 @@ def create_app(test_config: dict | None = None, *, overrides: dict | None = None
     app.register_blueprint(pages.bp)
     app.register_error_handler(HTTPException, _http_error)
     app.register_error_handler(Exception, _unexpected_error)
+
+    @app.before_request
+    def _refuse_cross_site():
+        # A page on another site can make a visitor's browser POST or DELETE here (a plain form needs no
+        # script). Browsers name the page that sent such a request in Origin (or at least Referer) and say
+        # cross-site in Sec-Fetch-Site; scripts and command-line clients send none, so they stay welcome.
+        if request.method in ("GET", "HEAD", "OPTIONS"):
+            return None
+        if request.headers.get("Sec-Fetch-Site", "") == "cross-site":
+            return _cross_site("cross-site")
+        own = request.host_url.rstrip("/")
+        sender = request.headers.get("Origin") or request.headers.get("Referer")
+        if sender and sender != "null" and _origin_of(sender) != _origin_of(own):
+            return _cross_site(_origin_of(sender))
+        if sender == "null":
+            return _cross_site("an opaque origin")
+        return None
 
     @app.after_request
     def _headers(response):
