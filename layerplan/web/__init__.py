@@ -164,12 +164,11 @@ def create_app(test_config: dict | None = None, *, overrides: dict | None = None
             return None
         if request.headers.get("Sec-Fetch-Site", "") == "cross-site":
             return _cross_site("cross-site")
-        own = request.host_url.rstrip("/")
         sender = request.headers.get("Origin") or request.headers.get("Referer")
-        if sender and sender != "null" and _origin_of(sender) != _origin_of(own):
-            return _cross_site(_origin_of(sender))
-        if sender == "null":
+        if sender == "null":  # sandboxed frames and some redirects hide where they came from
             return _cross_site("an opaque origin")
+        if sender and _origin_of(sender) != _origin_of(request.host_url):
+            return _cross_site(_origin_of(sender))
         return None
 
     @app.after_request
