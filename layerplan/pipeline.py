@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import dataclasses
+
 import numpy as np
 
 from . import __version__
@@ -205,7 +207,7 @@ def make_plan(image: np.ndarray, settings: Settings, *, progress=None) -> Plan:
         layers.append(Layer(brush_width_mm=spec.limits.width_mm, strokes=strokes))
     plan = Plan(
         wall_width_mm=wall_w, wall_height_mm=wall_h, width_px=width_px, height_px=height_px, mm_per_px=s,
-        palette=palette, ground=ids[ground], layers=layers,
+        palette=palette, ground=ids[ground], layers=layers, wall_unit=settings.wall_unit,
     )
     # error after each layer, from the plan itself
     steps = [np.take_along_axis(planes, c[..., None].astype(np.intp), axis=2)[..., 0].mean(dtype=np.float64)
@@ -216,7 +218,7 @@ def make_plan(image: np.ndarray, settings: Settings, *, progress=None) -> Plan:
          "mean_delta_e_before": round(float(steps[n]), 4), "mean_delta_e_after": round(float(steps[n + 1]), 4)}
         for n, (layer, r) in enumerate(zip(layers, placed))
     ]
-    plan.extra = {"generator": f"layerplan {__version__}", "settings": settings.to_dict(), "stats": stats,
-                  "inventory": inventory}
+    plan = dataclasses.replace(plan, extra={"generator": f"layerplan {__version__}", "settings": settings.to_dict(),
+                                            "stats": stats, "inventory": inventory})
     report(1.0, "plan ready")
     return plan

@@ -13,24 +13,38 @@ version 1). The names and meanings below must hold because other tools read them
                               "path_mm": [[x, y], ...]}, ...]}, ...]}
 
 Coordinates are wall millimetres, origin top-left, x right, y down. Further
-sections (``settings``, ``recipes``, ``paint_use``, ...) may be added freely; they
-travel in ``Plan.extra`` so a plan read and written again keeps them.
+sections (``settings``, ``stats``, ``inventory``, ``paint_use``, ...) may be added
+freely; they travel in ``Plan.extra`` so a plan read and written again keeps them.
+The ones several modules read have typed access on the objects: ``settings.wall_unit``
+is :attr:`Plan.wall_unit`, ``inventory`` is :attr:`Plan.inventory` and a palette
+entry's ``recipe`` is :attr:`Paint.recipe`; they are still written where they always
+were, so the file does not change.
+
+A `Plan` and its parts are frozen: stages and exporters read them and never write
+into them. A changed plan is a new one, made with :func:`dataclasses.replace`
+(``replace(plan, extra={**plan.extra, "source": ...})``).
 """
 
 from __future__ import annotations
 
 import json
 import math
+from collections.abc import Mapping
 from dataclasses import dataclass, field
+from types import MappingProxyType
 from typing import Any
 
 import numpy as np
 
+from .units import UNITS_MM
+
 FORMAT = "layerplan.plan"
 VERSION = 1
+#: the wall unit of plans that do not name one (plan.json ``settings.wall_unit``)
+DEFAULT_WALL_UNIT = "m"
 
 
-@dataclass
+@dataclass(frozen=True)
 class Paint:
     """One paint of the plan's finite palette.
 
@@ -43,7 +57,7 @@ class Paint:
     lab : tuple of float
         CIELAB (D65, 2°) of ``srgb``.
     extra : dict
-        Further per-paint sections (e.g. ``recipe``), kept verbatim.
+        Further per-paint sections (e.g. ``recipe``), kept verbatim; read, never written.
     """
 
     id: str
@@ -51,13 +65,27 @@ class Paint:
     lab: tuple[float, float, float]
     extra: dict[str, Any] = field(default_factory=dict)
 
+    def __post_init__(self):
+        object.__setattr__(self, "lab", tuple(self.lab))
+
     @property
     def rgb(self) -> tuple[int, int, int]:
         """The colour as three 0–255 integers."""
         return hex_to_rgb(self.srgb)
 
+    @property
+    def recipe(self) -> Mapping[str, Any] | None:
+        """The mix recipe (plan.json ``palette[i].recipe``), read-only; None if there is none.
 
-@dataclass
+        ``{"parts": [{"paint": stock name, "parts": n}, ...], "target", "predicted_srgb",
+        "delta_e", "in_gamut"}`` as :mod:`layerplan.recipes` writes it. It stays in
+        ``extra`` so the palette entry is written back unchanged.
+        """
+        recipe = self.extra.get("recipe")
+        return MappingProxyType(recipe) if isinstance(recipe, Mapping) else None
+
+
+@dataclass(frozen=True)
 class Stroke:
     """One brush stroke: a polyline painted with a round brush, opaque.
 
@@ -75,16 +103,19 @@ class Stroke:
         return float(np.sum(np.hypot(*np.diff(self.path_mm, axis=0).T)))
 
 
-@dataclass
+@dataclass(frozen=True)
 class Layer:
-    """All strokes made with one brush, in painting order."""
+    """All strokes made with one brush, in painting order (``strokes`` is kept as a tuple)."""
 
     brush_width_mm: float
-    strokes: list[Stroke] = field(default_factory=list)
+    strokes: tuple[Stroke, ...] = ()
     extra: dict[str, Any] = field(default_factory=dict)
 
+    def __post_init__(self):
+        object.__setattr__(self, "strokes", tuple(self.strokes))
 
-@dataclass
+
+@dataclass(frozen=True)
 class Plan:
     """A complete painting plan at wall scale.
 
@@ -95,13 +126,25 @@ class Plan:
     width_px, height_px : int
         Working raster; one pixel stands for ``mm_per_px`` millimetres of wall.
     mm_per_px : float
-    palette : list of Paint
+    palette : tuple of Paint
+        (A list given is kept as a tuple.)
     ground : str
         Palette id of the flat first coat over the whole surface.
-    layers : list of Layer
-        Widest brush first.
+    layers : tuple of Layer
+        Widest brush first. (A list given is kept as a tuple.)
     extra : dict
-        Further top-level sections (``settings``, ``stats``, ``paint_use``...).
+        Further top-level sections (``settings``, ``stats``, ``inventory``...), kept
+        verbatim; read, never written.
+    wall_unit : str
+        Unit the wall was measured in (a key of :data:`layerplan.units.UNITS_MM`): lengths,
+        areas, the default transfer grid and the container sizes follow it. In plan.json it
+        is ``settings.wall_unit``. Default: ``extra["settings"]["wall_unit"]`` where given
+        (plans made before the field), else :data:`DEFAULT_WALL_UNIT`.
+
+    Raises
+    ------
+    ValueError
+        If ``wall_unit`` is not a known unit.
     """
 
     wall_width_mm: float
@@ -109,10 +152,34 @@ class Plan:
     width_px: int
     height_px: int
     mm_per_px: float
-    palette: list[Paint]
+    palette: tuple[Paint, ...]
     ground: str
-    layers: list[Layer] = field(default_factory=list)
+    layers: tuple[Layer, ...] = ()
     extra: dict[str, Any] = field(default_factory=dict)
+    wall_unit: str | None = None
+
+    def __post_init__(self):
+        object.__setattr__(self, "palette", tuple(self.palette))
+        object.__setattr__(self, "layers", tuple(self.layers))
+        unit = self.wall_unit
+        if unit is None:
+            settings = self.extra.get("settings")
+            unit = settings.get("wall_unit", DEFAULT_WALL_UNIT) if isinstance(settings, Mapping) else DEFAULT_WALL_UNIT
+        if not isinstance(unit, str) or unit not in UNITS_MM:
+            raise ValueError(f"wall unit must be one of {', '.join(UNITS_MM)}; got {unit!r}")
+        object.__setattr__(self, "wall_unit", unit)
+
+    @property
+    def inventory(self) -> tuple[Mapping[str, Any], ...]:
+        """The stock paints the recipes were mixed from (plan.json ``inventory``), read-only.
+
+        Entries ``{"name", "srgb", "tinting_strength", "containers_l"}`` as the pipeline
+        writes them; empty when the plan has none. Entries that are not mappings are left out.
+        """
+        entries = self.extra.get("inventory")
+        if not isinstance(entries, (list, tuple)):
+            return ()
+        return tuple(MappingProxyType(e) for e in entries if isinstance(e, Mapping))
 
     # ------------------------------------------------------------------ lookups
     def paint_index(self) -> dict[str, int]:
@@ -173,6 +240,13 @@ class Plan:
         for key, value in self.extra.items():
             if key not in doc:
                 doc[key] = value
+        # wall_unit is written where plans have always carried it, in place inside settings
+        settings = doc.get("settings")
+        if isinstance(settings, Mapping):
+            if "wall_unit" in settings or self.wall_unit != DEFAULT_WALL_UNIT:
+                doc["settings"] = {**settings, "wall_unit": self.wall_unit}
+        elif self.wall_unit != DEFAULT_WALL_UNIT:
+            doc["settings"] = {"wall_unit": self.wall_unit}
         return doc
 
     def to_json(self) -> str:
@@ -186,13 +260,18 @@ class Plan:
         Raises
         ------
         ValueError
-            If the document is not a layerplan plan, has another version, or a
-            required field is missing or malformed (the message names it).
+            If the document is not a layerplan plan, has another version, a required
+            field is missing or malformed, or ``settings.wall_unit`` is not a known unit
+            (the message names it).
         """
         if not isinstance(doc, dict) or doc.get("format") != FORMAT:
             raise ValueError(f"not a layerplan plan: 'format' must be {FORMAT!r}")
         if doc.get("version") != VERSION:
             raise ValueError(f"unsupported plan version {doc.get('version')!r}; this layerplan reads {VERSION}")
+        settings = doc.get("settings")
+        unit = settings.get("wall_unit", DEFAULT_WALL_UNIT) if isinstance(settings, dict) else DEFAULT_WALL_UNIT
+        if not isinstance(unit, str) or unit not in UNITS_MM:
+            raise ValueError(f"plan.json settings.wall_unit must be one of {', '.join(UNITS_MM)}; got {unit!r}")
         try:
             wall, raster = doc["wall"], doc["raster"]
             palette = [
@@ -235,8 +314,10 @@ class Plan:
                     for k, v in doc.items()
                     if k not in ("format", "version", "wall", "raster", "palette", "ground", "layers")
                 },
+                wall_unit=unit,
             )
-        except (KeyError, TypeError, IndexError) as exc:
+        except (KeyError, TypeError, IndexError, ValueError) as exc:
+            # ValueError: a number or a path that does not parse ("abc", [[1, 2, 3]])
             raise ValueError(f"plan.json is missing or has a malformed field: {exc}") from exc
         ids = plan.paint_index()
         if plan.ground not in ids:

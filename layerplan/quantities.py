@@ -427,7 +427,7 @@ def paint_use(
     ids = plan.paint_index()
     if plan.ground not in ids:
         raise ValueError(f"ground paint {plan.ground!r} is not in the palette")
-    unit = str((plan.extra.get("settings") or {}).get("wall_unit", "m"))
+    unit = plan.wall_unit
     us = unit in US_UNITS
     default_sizes = US_CONTAINERS_L if us else COMMON_CONTAINERS_L
 

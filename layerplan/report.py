@@ -836,7 +836,7 @@ def plan_html(
     ----------
     ISO 216 (A4); ANSI/ASME Y14.1 (Letter); W3C CSS Paged Media and Fragmentation.
     """
-    unit = str((plan.extra.get("settings") or {}).get("wall_unit", "m"))
+    unit = plan.wall_unit
     if grid_mm is None:
         grid_mm = default_grid_mm(unit, shorter_side_mm=min(plan.wall_width_mm, plan.wall_height_mm))
     grid_mm = check_grid(plan, grid_mm)

@@ -315,12 +315,3 @@ def grid_over_image_svg(plan: Plan, grid_mm: float, image_href: str) -> str:
                       preserveAspectRatio="none"))
     dwg.add(_grid_group(dwg, plan, grid_mm))
     return dwg.tostring()
-
-
-def prepare_outline(plan: Plan, outline: dict[str, Any]) -> dict[str, Any]:
-    """An outline map ready to draw in several documents (overlay, steps/NN.svg, plan.html).
-
-    svgwrite elements belong to one drawing, so nothing can be shared between documents; the
-    outline itself (computed once by :mod:`layerplan.outlines`) is what is reused.
-    """
-    return outline

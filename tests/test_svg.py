@@ -4,6 +4,8 @@
 
 from __future__ import annotations
 
+import dataclasses
+import math
 import re
 import xml.etree.ElementTree as ET
 
@@ -78,7 +80,7 @@ def test_grid_group_has_lines_at_the_spacing_and_labels():
     labels = [t.text for t in grid.findall(".//svg:text", NS)]
     assert labels == list("ABCDEFGH") + ["1", "2", "3", "4", "5"]
     # a 3.2 m width at 1 m: the last column is partial but still a square to label
-    plan.wall_width_mm = 3200.0
+    plan = dataclasses.replace(plan, wall_width_mm=3200.0)
     grid = ET.fromstring(overlay_svg(plan, grid_mm=1000)).find("svg:g[@id='grid']", NS)
     vx = sorted({float(l.get("x1")) for l in grid.findall(".//svg:line", NS) if l.get("x1") == l.get("x2")})
     assert vx == [0.0, 1000.0, 2000.0, 3000.0, 3200.0]
@@ -155,16 +157,37 @@ def test_markup_characters_in_names_survive_the_xml_parser():
     assert odd in labels and "P2" in labels
 
 
-def test_a_prepared_outline_draws_exactly_like_the_map():
-    from layerplan.svg import outline_map_svg, prepare_outline
+def test_outline_map_svg_draws_the_area_a_stroke_covers():
+    # a 600 mm stroke of a 100 mm round brush covers a capsule, a 600 × 100 mm rectangle plus two
+    # half-discs of radius 50 mm: 600·100 + π·50² mm² (elementary geometry). Traced on 10 mm
+    # pixels, the outline may stray from the true edge by up to about half a pixel all round,
+    # so the area it encloses (shoelace formula) is within half a pixel × the perimeter.
+    from layerplan.outlines import layer_outlines
+    from layerplan.svg import outline_map_svg
 
-    plan = _plan()
-    maps = outline_maps(plan)
-    ready = [prepare_outline(plan, m) for m in maps]
-    assert all(r["areas"] is m["areas"] for r, m in zip(ready, maps))
-    assert overlay_svg(plan, outlines=ready, grid_mm=500) == overlay_svg(plan, outlines=maps, grid_mm=500)
-    assert layer_svg(plan, 3, outline=ready[2]) == layer_svg(plan, 3, outline=maps[2])
-    assert outline_map_svg(plan, ready[1]) == outline_map_svg(plan, maps[1])
+    length, width, s = 600.0, 100.0, 10.0
+    stroke = Stroke("P2", width, np.array([[200.0, 500.0], [200.0 + length, 500.0]]))
+    plan = Plan(1000.0, 1000.0, 100, 100, s, PALETTE, "P1", [Layer(width, [stroke])])
+    outline = layer_outlines(plan, 1)
+    root = ET.fromstring(outline_map_svg(plan, outline))
+    shapes = root.findall(".//svg:path[@data-paint]", NS)
+    assert [p.get("data-paint") for p in shapes] == ["P2"]  # one area, in the stroke's paint
+    assert shapes[0].get("fill") == "#c03020" and shapes[0].get("fill-rule") == "evenodd"
+    rings = [_points(d) for d in re.findall(r"M([^MZ]*)Z", shapes[0].get("d"))]
+    assert len(rings) == 1  # a capsule has no holes
+    ring = rings[0]
+    np.testing.assert_allclose(ring, outline["areas"][0]["contours_mm"][0], atol=0.006)  # written to 0.01 mm
+    x, y = ring[:, 0], ring[:, 1]
+    enclosed = 0.5 * abs(float(np.dot(x, np.roll(y, -1)) - np.dot(y, np.roll(x, -1))))
+    capsule = length * width + math.pi * (width / 2) ** 2
+    perimeter = 2 * length + math.pi * width
+    assert abs(enclosed - capsule) <= 0.5 * s * perimeter
+    assert x.min() == pytest.approx(200.0 - width / 2, abs=s) and x.max() == pytest.approx(800.0 + width / 2, abs=s)
+    assert y.min() == pytest.approx(500.0 - width / 2, abs=s) and y.max() == pytest.approx(500.0 + width / 2, abs=s)
+    # its label is drawn inside it
+    label = root.find(".//svg:text", NS)
+    assert label.text == "P2" and 200.0 <= float(label.get("x")) <= 800.0
+    assert 450.0 <= float(label.get("y")) <= 550.0
 
 
 def test_numbers_are_written_with_at_most_two_decimals():
