@@ -155,3 +155,20 @@ def test_finished_folder_mode_follows_the_umask(planned, umask, mode):
     assert stat.S_IMODE((dest / "steps").stat().st_mode) == mode
     assert stat.S_IMODE((dest / "plan.json").stat().st_mode) == mode & 0o666
     assert not list(dest.glob(".mode*"))
+
+
+def test_render_follows_the_wall_unit_in_plan_json(planned):
+    # plan.json keeps the wall unit as settings.wall_unit: a plan measured in feet gets US
+    # gallons beside litres (1 US gal = 3.785411784 L, NIST Handbook 44, App. C) and keeps its unit
+    tmp, out = planned
+    doc = json.loads((out / "plan.json").read_text())
+    assert doc["settings"]["wall_unit"] == "cm"  # `--wall 80x60cm`
+    assert all("us_gallons" not in p for p in doc["paint_use"]["paints"])
+    doc["settings"]["wall_unit"] = "ft"
+    src, dest = tmp / "feet.json", tmp / "feet"
+    src.write_text(json.dumps(doc))
+    assert main(["render", str(src), "--out", str(dest)]) == 0
+    new = json.loads((dest / "plan.json").read_text())
+    assert new["settings"] == doc["settings"] and list(new) == list(doc)
+    for p in new["paint_use"]["paints"]:
+        assert p["us_gallons"] == pytest.approx(p["litres"] / 3.785411784, abs=1e-3)

@@ -1,5 +1,7 @@
-"""plan.json contract: serialisation and validation."""
+"""plan.json contract (documented at the top of layerplan/plan.py): serialisation and
+validation, read back with Python's own json module; the Plan is frozen."""
 
+import dataclasses
 import json
 
 import numpy as np
@@ -40,6 +42,10 @@ def test_round_trip_is_byte_identical():
         (lambda d: d.pop("wall"), "missing or has a malformed field"),
         (lambda d: d["ground"].update(paint="P9"), "ground paint 'P9' is not in the palette"),
         (lambda d: d["layers"][0]["strokes"][0].update(paint="Q"), "stroke paint 'Q' is not in the palette"),
+        (lambda d: d["settings"].update(wall_unit="furlong"), "settings.wall_unit must be one of mm, cm, m, in, ft"),
+        (lambda d: d["settings"].update(wall_unit=3), "settings.wall_unit must be one of .*got 3"),
+        (lambda d: d["raster"].update(mm_per_px="fine"), "malformed field: could not convert string to float"),
+        (lambda d: d["layers"][0]["strokes"][0].update(path_mm=[[1, 2, 3]]), "missing or has a malformed field"),
     ],
 )
 def test_bad_plans_are_refused_with_a_clear_message(change, message):
@@ -58,3 +64,50 @@ def test_hex_colours():
     assert hex_to_rgb("#0a0B0c") == (10, 11, 12) and rgb_to_hex((10, 11, 12)) == "#0a0b0c"
     with pytest.raises(ValueError, match="not a hex colour"):
         hex_to_rgb("#12345g")
+
+
+def test_a_plan_is_frozen_and_holds_tuples():
+    plan = _plan()
+    assert isinstance(plan.palette, tuple) and isinstance(plan.layers, tuple)
+    assert isinstance(plan.layers[0].strokes, tuple)
+    for obj, name in ((plan, "ground"), (plan.palette[0], "srgb"), (plan.layers[0], "strokes"),
+                      (plan.layers[0].strokes[0], "paint")):
+        with pytest.raises(dataclasses.FrozenInstanceError):
+            setattr(obj, name, "P2")
+    # a changed plan is a new one; the old one stays as it was
+    wider = dataclasses.replace(plan, wall_width_mm=2000.0)
+    assert wider.wall_width_mm == 2000.0 and plan.wall_width_mm == 1000.0
+
+
+def test_wall_unit_is_read_from_and_written_to_settings():
+    doc = json.loads(_plan().to_json())
+    doc["settings"] = {"wall_width_mm": 1000.0, "wall_unit": "ft", "paints": 2}  # plan.json as written so far
+    plan = Plan.from_dict(doc)
+    assert plan.wall_unit == "ft"
+    assert plan.to_json() == json.dumps(doc, ensure_ascii=False, separators=(",", ":")) + "\n"
+    # the field is the unit: a plan in other units writes them where they stood, in settings
+    cm = json.loads(dataclasses.replace(plan, wall_unit="cm").to_json())
+    assert list(cm["settings"].items()) == [("wall_width_mm", 1000.0), ("wall_unit", "cm"), ("paints", 2)]
+    # no unit anywhere: metres, and nothing is added to the file
+    assert _plan().wall_unit == "m" and json.loads(_plan().to_json())["settings"] == {"paints": 2}
+    bare = Plan(1000.0, 500.0, 200, 100, 5.0, _plan().palette, "P1", wall_unit="in")
+    assert json.loads(bare.to_json())["settings"] == {"wall_unit": "in"}
+    assert Plan.from_json(bare.to_json()).wall_unit == "in"
+    with pytest.raises(ValueError, match="wall unit must be one of mm, cm, m, in, ft; got 'yd'"):
+        dataclasses.replace(plan, wall_unit="yd")
+
+
+def test_recipe_and_inventory_are_read_only_views():
+    recipe = {"parts": [{"paint": "White", "parts": 1}]}
+    stock = [{"name": "White", "srgb": "#ffffff", "containers_l": [1.0]}, "not an entry"]
+    plan = dataclasses.replace(_plan(), extra={"inventory": stock})
+    paint = Paint("P3", "#ffffff", (100.0, 0.0, 0.0), extra={"recipe": recipe})
+    assert paint.recipe == recipe and _plan().palette[0].recipe is None
+    assert plan.inventory == (stock[0],) and _plan().inventory == ()
+    with pytest.raises(TypeError):
+        paint.recipe["parts"] = []
+    with pytest.raises(TypeError):
+        plan.inventory[0]["name"] = "Black"
+    # they stay where plan.json has them
+    doc = plan.to_dict()
+    assert doc["inventory"] == stock

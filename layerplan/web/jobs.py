@@ -101,8 +101,8 @@ def run_plan(data_dir: str, plan_id: str) -> None:
         report(0.0, "loading the photo")
         plan = make_plan(image, settings, progress=lambda f, m: report(PLANNING_SHARE * float(f), m))
         report(PLANNING_SHARE, "writing the plan files")
-        if record.source_name:
-            plan.extra.setdefault("source", {"image": record.source_name})
+        if record.source_name and "source" not in plan.extra:  # a new plan, not a change to make_plan's
+            plan = dataclasses.replace(plan, extra={**plan.extra, "source": {"image": record.source_name}})
         out = store.out_dir(plan_id)
         if out.exists():  # leftovers of an attempt a restart interrupted
             shutil.rmtree(out)

@@ -13,6 +13,8 @@ from PIL import Image
 from werkzeug.exceptions import RequestEntityTooLarge
 
 from layerplan import quantities
+from layerplan.export import EXPORTS
+from layerplan.plan import Plan
 from layerplan.settings import Settings
 from layerplan.units import UNITS_MM
 
@@ -133,10 +135,15 @@ def plan_page(plan_id: str):
     view: dict[str, Any] = {"record": record, "status": service.status(record),
                             "summary": plan_summary(record.settings)}
     if record.state == "done":
-        doc = service.plan_document(plan_id)
-        if doc is None:
-            abort(500)
-        view.update(_plan_view(plan_id, doc, view["status"]["files"]))
+        try:
+            plan = service.stored_plan(plan_id)
+            if plan is None:
+                raise ValueError("its plan.json is missing from the data directory")
+        except ValueError as exc:
+            # the plan's own files are broken, not the request: say so, and keep the page to delete it
+            view["plan_error"] = f"The stored plan cannot be shown: {exc}. Delete it and make it again."
+            return render_template("plan.html", **view), 500
+        view.update(_plan_view(plan, view["status"]["files"]))
     return render_template("plan.html", **view)
 
 
@@ -169,51 +176,57 @@ def _photo_response(data: bytes, *, max_age: int):
 
 
 # ---------------------------------------------------------------------- plan view model
-def _plan_view(plan_id: str, doc: dict[str, Any], files: dict[str, str]) -> dict[str, Any]:
-    palette = doc.get("palette", [])
-    use = doc.get("paint_use") or {}
-    litres = {p.get("paint"): p for p in use.get("paints", [])}
-    paints = []
-    for p in palette:
-        recipe = p.get("recipe")
-        paints.append({"id": p["id"], "srgb": p["srgb"], "lab": p.get("lab"), "name": p.get("name"),
-                       "recipe": recipe if isinstance(recipe, dict) else None,
-                       "use": litres.get(p["id"]), "ground": p["id"] == doc.get("ground", {}).get("paint")})
+def _plan_view(plan: Plan, files: dict[str, str]) -> dict[str, Any]:
+    """What the plan page shows of a finished plan; ``files`` maps its file names to URLs."""
+    use = plan.extra.get("paint_use")  # the quantities its export wrote into plan.json
+    use = use if isinstance(use, dict) else {}
+    litres = {p.get("paint"): p for p in use.get("paints", []) if isinstance(p, dict)}
+    paints = [{"id": p.id, "srgb": p.srgb, "lab": p.lab, "name": p.extra.get("name"), "recipe": p.recipe,
+               "use": litres.get(p.id), "ground": p.id == plan.ground}
+              for p in plan.palette]
     steps = []
-    step_names = sorted(n for n in files if n.startswith("steps/") and n.endswith(".png"))
-    layers = doc.get("layers", [])
+    pictures = EXPORTS["step-pictures"]
+    step_names = sorted(n for n in files if pictures.matches(n))
     for n, name in enumerate(step_names):
         if n == 0:
-            label, detail = "Ground", _ground_text(doc.get("ground", {}).get("paint", ""), use.get("ground_coats"))
-        elif n <= len(layers):
-            layer = layers[n - 1]
-            used = sorted({s["paint"] for s in layer.get("strokes", [])}, key=_paint_key)
-            label = f"Layer {n} of {len(layers)}"
-            detail = (f"{layer['brush']['width_mm']:g} mm brush, {len(layer.get('strokes', []))} strokes"
+            label, detail = "Ground", _ground_text(plan.ground, use.get("ground_coats"))
+        elif n <= len(plan.layers):
+            layer = plan.layers[n - 1]
+            used = sorted({s.paint for s in layer.strokes}, key=_paint_key)
+            label = f"Layer {n} of {len(plan.layers)}"
+            detail = (f"{layer.brush_width_mm:g} mm brush, {len(layer.strokes)} strokes"
                       + (f" in {', '.join(used)}" if used else ""))
         else:
             label, detail = f"Step {n}", ""
         svg = name[:-4] + ".svg"
         steps.append({"url": files[name], "label": label, "detail": detail,
                       "svg": files.get(svg)})
-    wall = doc.get("wall", {})
-    unit = (doc.get("settings") or {}).get("wall_unit", "m")
-    downloads = []
-    for name, label in (("plan.html", "Print plan (open and print)"), ("overlay.svg", "Wall-scale SVG overlay"),
-                        ("plan.json", "Plan data (JSON)"), ("final.png", "Final picture (PNG)")):
-        if name in files:
-            downloads.append({"name": name, "label": label, "url": files[name]})
-    step_files = [(n, files[n]) for n in sorted(files) if n.startswith("steps/")]
-    stock_colours = {i.get("name"): i.get("srgb") for i in doc.get("inventory") or [] if isinstance(i, dict)}
+    downloads, step_files = _downloads(files)
+    stock_colours = {i.get("name"): i.get("srgb") for i in plan.inventory}
     return {
-        "doc": doc, "paints": paints, "stock_colours": stock_colours, "steps": steps, "downloads": downloads, "step_files": step_files,
+        "plan": plan, "paints": paints, "stock_colours": stock_colours, "steps": steps, "downloads": downloads,
+        "step_files": step_files,
         "paint_use": use if use.get("paints") else None,
         "stock": _stock_list(use),
-        "wall_text": _size_text(wall.get("width_mm"), wall.get("height_mm"), unit),
-        "strokes": sum(len(layer.get("strokes", [])) for layer in layers),
+        "wall_text": _size_text(plan.wall_width_mm, plan.wall_height_mm, plan.wall_unit),
+        "strokes": plan.stroke_count(),
         "final_url": files.get("final.png"), "print_url": files.get("plan.html"),
         "svg_url": files.get("overlay.svg"),
     }
+
+
+def _downloads(files: dict[str, str]) -> tuple[list[dict[str, Any]], list[tuple[str, str]]]:
+    """The download list, from the export registry (layerplan.export.EXPORTS), in its order.
+
+    Returns the one-file exports the plan has (``{"name", "label", "url", "media_type",
+    "opens"}``), then the per-step files as ``(name, url)`` sorted by name.
+    """
+    downloads = [{"name": e.files, "label": e.label, "url": files[e.files], "media_type": e.media_type,
+                  "opens": e.opens}
+                 for e in EXPORTS.values() if not e.per_step and e.files in files]
+    step_files = [(name, files[name]) for name in sorted(files)
+                  if any(e.per_step and e.matches(name) for e in EXPORTS.values())]
+    return downloads, step_files
 
 
 #: coats in words, as a person says them ("two flat coats")

@@ -2,10 +2,11 @@
 
 from __future__ import annotations
 
-import json
 from typing import Any
 
 from flask import current_app, url_for
+
+from layerplan.plan import Plan
 
 from . import forms
 from .store import WEB_KEY, PlanRecord, PlanStore
@@ -82,10 +83,19 @@ def status(record: PlanRecord) -> dict[str, Any]:
     }
 
 
-def plan_document(plan_id: str) -> dict[str, Any] | None:
-    """The plan's plan.json as a dict, or None if it is not there (yet)."""
+def stored_plan(plan_id: str) -> Plan | None:
+    """The plan its export wrote (plan.json, read by :meth:`Plan.from_json`); None if not there (yet).
+
+    Raises
+    ------
+    ValueError
+        If the stored plan.json cannot be read as a plan (the message says why).
+    """
     path = store().out_dir(plan_id) / "plan.json"
     try:
-        return json.loads(path.read_text(encoding="utf-8"))
-    except (OSError, ValueError):
+        text = path.read_text(encoding="utf-8")
+    except FileNotFoundError:
         return None
+    except (OSError, UnicodeDecodeError) as exc:
+        raise ValueError(f"its plan.json cannot be read: {exc}") from exc
+    return Plan.from_json(text)
