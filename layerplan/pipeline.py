@@ -21,7 +21,7 @@ from .settings import HARD_MAX_RASTER_PX, MAX_WALL_MM, MIN_RASTER_SIDE_PX, Setti
 #: share of the progress bar given to each phase (planning strokes dominates)
 _P_PREP, _P_LAYERS, _P_RELAX = 0.12, 0.5, 0.3
 #: relaxation passes over all strokes after the last layer, and moves tried per stroke and pass; deleting
-#: strokes by their cost is off: on the bench it gave worse pictures for the same stroke count (issue 4)
+#: strokes by their cost is off: on the bench it gave worse pictures for the same stroke count
 RELAX_PASSES, RELAX_TRIES, RELAX_DELETE = 3, 60, False
 
 
@@ -50,7 +50,7 @@ def mix_palette(pal_rgb: np.ndarray, pal_lab: np.ndarray, settings: Settings):
         that snap to the same colour are merged (the first, lightest, keeps its recipe) and the
         result is ordered lightest first again. With ``free_palette`` the input, unchanged.
     recipes : list of dict
-        One recipe (issue 3 JSON form) per returned paint; ``target`` is the k-means colour.
+        One recipe (:meth:`layerplan.recipes.Recipe.to_dict` form) per returned paint; ``target`` is the k-means colour.
     inventory : list of dict
         The stock paints, ``{"name", "srgb", "tinting_strength", "containers_l"}``, for plan.json.
 
