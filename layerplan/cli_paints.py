@@ -21,7 +21,14 @@ import sys
 
 from .inventory import Inventory, InventoryError, default_inventory, load_inventory
 from .plan import hex_to_rgb, rgb_to_hex
-from .recipes import DEFAULT_MAX_PAINTS, DEFAULT_MAX_PARTS, DEFAULT_TOLERANCE_DE
+from .settings import Settings
+
+# the solver's defaults as the planner's settings carry them (the tests check they are the solver's own):
+# importing layerplan.recipes here would load its compiled code (numba) for every command, even
+# `layerplan paints`, which mixes nothing
+DEFAULT_MAX_PAINTS = Settings.mix_paints
+DEFAULT_MAX_PARTS = Settings.max_parts
+DEFAULT_TOLERANCE_DE = Settings.tolerance_de
 
 EXIT_USAGE = 2
 

@@ -5,8 +5,8 @@ from reflectance spectra:
 
 1. **Reflectance of each paint from its colour.** An sRGB colour fixes only three
    numbers; a spectrum is recovered with the spectral primary decomposition of Mallett &
-   Yuksel (2019) as implemented by colour-science (``RGB_to_sd_Mallett2019``): the linear
-   sRGB value weights three fixed basis spectra, 380–780 nm in 5 nm steps.
+   Yuksel (2019): the linear sRGB value weights three fixed basis spectra, 380–780 nm in
+   5 nm steps (colour-science's ``RGB_to_sd_Mallett2019`` does the same; the tests compare).
 2. **Mixing.** Per wavelength, the Kubelka–Munk ratio of absorption to scattering is
    ``K/S = (1 − R)² / 2R`` (Kubelka & Munk 1931). In the single-constant simplification
    used for paints (all paints taken to scatter alike; Berns & Mohammadi 2007; Allen 1980)
@@ -18,6 +18,9 @@ from reflectance spectra:
 3. **Colour of the mix.** Tristimulus values with the CIE 1931 2° observer under
    illuminant D65 (CIE 15:2004), normalised so the perfect white reflector has Y = 1,
    then CIELAB against that white and sRGB (IEC 61966-2-1) for display.
+
+The basis spectra, colour-matching functions and illuminant are package data
+(``layerplan/data/*.csv``, each headed by its source and licence), so mixing needs only numpy.
 
 Why Mallett & Yuksel (2019) rather than Jakob & Hanika (2019), Otsu et al. (2018) or
 Meng et al. (2015): (a) every sRGB colour, including the gamut corners, gets a
@@ -47,8 +50,8 @@ References
 
 from __future__ import annotations
 
-import warnings
 from functools import lru_cache
+from importlib import resources
 
 import numpy as np
 
@@ -61,27 +64,45 @@ _LAB_EPS = 216.0 / 24389.0
 _LAB_KAPPA = 24389.0 / 27.0
 
 
+#: linear sRGB from XYZ (D65): the four-decimal matrix of IEC 61966-2-1:1999 (also colour-science's for sRGB)
+_XYZ_TO_SRGB = ((3.2406, -1.5372, -0.4986), (-0.9689, 1.8758, 0.0415), (0.0557, -0.2040, 1.0570))
+#: package data (layerplan/data): file -> its columns; each file's header names its source and licence
+_TABLE_FILES = {
+    "cie1931_2deg_cmf.csv": ("wavelength_nm", "x_bar", "y_bar", "z_bar"),
+    "cie_d65.csv": ("wavelength_nm", "relative_power"),
+    "mallett2019_srgb_basis.csv": ("wavelength_nm", "red", "green", "blue"),
+}
+
+
+def _read_table(name: str) -> np.ndarray:
+    """(W, columns) float64 array of one packaged CSV table, its header checked."""
+    text = resources.files("layerplan").joinpath("data", name).read_text("utf-8")
+    lines = [line for line in text.splitlines() if line.strip() and not line.startswith("#")]
+    if tuple(lines[0].split(",")) != _TABLE_FILES[name]:
+        raise RuntimeError(f"layerplan/data/{name}: columns {lines[0]!r}, expected {','.join(_TABLE_FILES[name])}")
+    return np.array([[float(v) for v in line.split(",")] for line in lines[1:]], dtype=np.float64)
+
+
 @lru_cache(maxsize=1)
 def _tables():
-    """Basis spectra, weighted colour-matching functions and white point (built once)."""
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore")  # colour-science warns about optional matplotlib on import
-        import colour
-        from colour.recovery import MSDS_BASIS_FUNCTIONS_sRGB_MALLETT2019 as basis
+    """Basis spectra, weighted colour-matching functions and white point (built once).
 
-    shape = basis.shape  # 380–780 nm, 5 nm: the basis's own sampling
-    cmfs = colour.MSDS_CMFS["CIE 1931 2 Degree Standard Observer"].copy().align(shape)
-    d65 = colour.SDS_ILLUMINANTS["D65"].copy().align(shape)
-    weights = d65.values[:, None] * cmfs.values  # (W, 3)
+    Read from package data rather than from colour-science at run time: importing that
+    library takes seconds, and only these three small tables are needed.
+    """
+    cmf, d65, basis = (_read_table(name) for name in _TABLE_FILES)
+    wavelengths = basis[:, 0]  # 380–780 nm, 5 nm: the basis's own sampling
+    if not (np.array_equal(cmf[:, 0], wavelengths) and np.array_equal(d65[:, 0], wavelengths)):
+        raise RuntimeError("layerplan/data: the spectral tables are not sampled at the same wavelengths")
+    weights = d65[:, 1:2] * cmf[:, 1:]  # (W, 3)
     weights = weights / np.sum(weights[:, 1])  # perfect white reflector: Y = 1
     white = weights.sum(axis=0)
-    srgb = colour.RGB_COLOURSPACES["sRGB"]
     return {
-        "wavelengths": np.asarray(shape.wavelengths, dtype=float),
-        "basis": np.asarray(basis.values, dtype=float),  # (W, 3): red, green, blue
+        "wavelengths": wavelengths,
+        "basis": np.ascontiguousarray(basis[:, 1:]),  # (W, 3): red, green, blue
         "weights": weights,
         "white": white,
-        "xyz_to_rgb": np.asarray(srgb.matrix_XYZ_to_RGB, dtype=float),
+        "xyz_to_rgb": np.array(_XYZ_TO_SRGB, dtype=np.float64),
     }
 
 

@@ -45,9 +45,11 @@ from .colour import lab_to_srgb
 from .inventory import Inventory, default_inventory
 from .plan import hex_to_rgb, rgb_to_hex
 
-DEFAULT_MAX_PAINTS = 3  # issue 3: "at most 3 inventory paints"
-DEFAULT_MAX_PARTS = 10  # issue 3: "≤ 10 parts by default"
-DEFAULT_TOLERANCE_DE = 3.0  # issue 3: "default ΔE00 3"
+#: solver defaults, as the painter asked for them: at most 3 inventory paints in a mix, in at most 10 whole
+#: parts, counted mixable within ΔE00 3
+DEFAULT_MAX_PAINTS = 3
+DEFAULT_MAX_PARTS = 10
+DEFAULT_TOLERANCE_DE = 3.0
 MAX_MIX_PAINTS = 4
 MAX_PARTS_LIMIT = 30
 MAX_TOLERANCE_DE = 100.0

@@ -83,7 +83,7 @@ def test_xyz_matches_colour_science_integration():
 
 
 def test_srgb_reflectance_srgb_round_trip_within_half_a_delta_e():
-    # issue 3: sRGB -> reflectance -> sRGB within ΔE00 0.5 for in-gamut colours; the target
+    # the requirement: sRGB -> reflectance -> sRGB within ΔE00 0.5 for in-gamut colours; the target
     # CIELAB comes from layerplan.colour (scikit-image), ΔE00 cross-checked with colour-science
     rng = np.random.default_rng(3)
     rgb = np.vstack([rng.integers(0, 256, (500, 3)), [[0, 0, 255], [255, 255, 0], [255, 255, 255], [1, 1, 1]]])
@@ -170,3 +170,60 @@ def test_bad_arguments_are_refused_with_a_message():
         mixing.mix_reflectance(refl, [1, 1], tinting_strength=[1.0, 0.0])
     with pytest.raises(ValueError, match="reflectances must be"):
         mixing.mix_reflectance(refl[0], [1])
+
+
+# ------------------------------------------------------------------ packaged tables
+def _published(table, wavelengths):
+    """colour-science's own table rows at the given wavelengths (no interpolation)."""
+    rows = np.searchsorted(table.wavelengths, wavelengths)
+    assert np.array_equal(table.wavelengths[rows], wavelengths)
+    return table.values[rows]
+
+
+def test_packaged_tables_are_colour_sciences():
+    # outside reference: colour-science 0.4.7's datasets for the Mallett & Yuksel (2019) basis, the
+    # CIE 1931 2° observer and illuminant D65 (CIE 15:2004), which layerplan/data carries as CSV
+    from colour.recovery import MSDS_BASIS_FUNCTIONS_sRGB_MALLETT2019 as basis
+
+    t = mixing._tables()
+    wl = mixing.wavelengths_nm()
+    assert np.array_equal(wl, np.arange(380.0, 781.0, 5.0))
+    assert np.array_equal(wl, basis.wavelengths)
+    assert np.array_equal(t["basis"], basis.values)
+    cmfs = _published(colour.MSDS_CMFS["CIE 1931 2 Degree Standard Observer"], wl)
+    d65 = _published(colour.SDS_ILLUMINANTS["D65"], wl)
+    ours = {name: mixing._read_table(name)[:, 1:] for name in ("cie1931_2deg_cmf.csv", "cie_d65.csv")}
+    assert np.array_equal(ours["cie1931_2deg_cmf.csv"], cmfs)
+    assert np.array_equal(ours["cie_d65.csv"][:, 0], d65)
+    # the weights as colour-science's align() would give them: its interpolator returns the table's own
+    # values to within rounding (and 1e-23 where the table has z̄ = 0)
+    aligned = (colour.SDS_ILLUMINANTS["D65"].copy().align(basis.shape).values[:, None]
+               * colour.MSDS_CMFS["CIE 1931 2 Degree Standard Observer"].copy().align(basis.shape).values)
+    assert np.allclose(t["weights"], aligned / aligned[:, 1].sum(), rtol=1e-14, atol=1e-20)
+    # IEC 61966-2-1's XYZ -> linear sRGB matrix, as colour-science's sRGB colourspace holds it
+    assert np.array_equal(t["xyz_to_rgb"], colour.RGB_COLOURSPACES["sRGB"].matrix_XYZ_to_RGB)
+
+
+def test_srgb_matrix_is_the_inverse_of_the_primaries_matrix():
+    # IEC 61966-2-1:1999: primaries R (0.64, 0.33), G (0.30, 0.60), B (0.15, 0.06), white D65
+    # (0.3127, 0.3290); the standard rounds the inverse of the RGB -> XYZ matrix to 4 decimals
+    xy = np.array([[0.64, 0.33], [0.30, 0.60], [0.15, 0.06]])
+    xyz = np.column_stack([xy[:, 0] / xy[:, 1], np.ones(3), (1 - xy.sum(axis=1)) / xy[:, 1]]).T
+    white = np.array([0.3127 / 0.3290, 1.0, (1 - 0.3127 - 0.3290) / 0.3290])
+    m = xyz * np.linalg.solve(xyz, white)
+    assert np.allclose(mixing._tables()["xyz_to_rgb"], np.linalg.inv(m), atol=6e-4)
+
+
+def test_mixing_does_not_import_colour_science():
+    # colour-science is a test reference only: mixing reads its tables from package data
+    import subprocess
+    import sys
+    from pathlib import Path
+
+    probe = ("import sys; from layerplan import mixing; mixing.mix_colours([[255, 255, 255], [0, 0, 255]], [1, 1]); "
+             "import layerplan; print(layerplan.__file__, 'colour' in sys.modules)")
+    done = subprocess.run([sys.executable, "-c", probe], cwd=Path(__file__).resolve().parents[1],
+                          capture_output=True, text=True, timeout=60, check=True)
+    path, loaded = done.stdout.split()
+    assert Path(path).resolve().parent == Path(__file__).resolve().parents[1] / "layerplan"
+    assert loaded == "False"
