@@ -16,14 +16,9 @@ from PIL import Image
 from layerplan.outlines import outline_maps
 from layerplan.plan import Layer, Paint, Plan, Stroke
 from layerplan.quantities import paint_use
-from layerplan.report import (
-    PAINT_CHANGE_SECONDS,
-    SECONDS_PER_STROKE,
-    STROKE_MM_PER_SECOND,
-    colour_name,
-    layer_time_s,
-    plan_html,
-)
+from layerplan.report import plan_html
+from layerplan.sheets import PAINT_CHANGE_SECONDS, SECONDS_PER_STROKE, STROKE_MM_PER_SECOND, layer_time_s
+from layerplan.wording import colour_name
 from layerplan.raster import render
 
 
