@@ -174,6 +174,12 @@ def test_web_page_and_printed_plan_say_the_same_containers(client, unit, width, 
     assert page_card == card
     if unit == "ft":
         assert all("qt" in text or "fl oz" in text or "gal" in text for text in card.values())
+    # the colour in words: the page names each paint as the printed card does (its plan colour, CIELAB)
+    names = {row[1]: row[2] for row in printed.table(cls="paints")[1:]}
+    page_names = {row[0].split()[0]: row[1] for row in page.table(cls="paint-card")[1:]}
+    for paint in doc["palette"]:
+        said = wording.colour_name(paint["lab"])
+        assert page_names[paint["id"]] == paint["srgb"] + said and said in names[paint["id"]]  # code<br>name
     # ids unique on both (an id names one element: HTML Living Standard, "The id attribute")
     for ids in (page.ids, printed.ids):
         assert len(ids) == len(set(ids)), sorted(i for i in ids if ids.count(i) > 1)

@@ -199,6 +199,13 @@ def _lenient(say, *, entry: bool = False):
     return text
 
 
+def _colour_name(lab) -> str:
+    """:func:`layerplan.wording.colour_name` of a plan.json ``lab`` triple; "" when there is none."""
+    if not isinstance(lab, (list, tuple)) or len(lab) != 3 or not all(isinstance(v, (int, float)) for v in lab):
+        return ""
+    return wording.colour_name(lab)
+
+
 def _register_wording(app: Flask) -> None:
     """The wording module's functions as Jinja filters, so the pages say amounts as the printed plan does:
     ``{{ entry|amount(us) }}``, ``{{ entry|buy(us) }}``, ``{{ litres|volume(us) }}``, ``{{ m2|area(unit) }}``,
@@ -211,7 +218,7 @@ def _register_wording(app: Flask) -> None:
         wall_length=_lenient(wording.length),
         coverage=_lenient(wording.coverage),
         duration=_lenient(wording.duration),
-        colour_name=wording.colour_name,
+        colour_name=_colour_name,
     )
     clash = sorted(set(filters) & set(app.jinja_env.filters))
     if clash:  # a name of Jinja's own (length, round…) would silently change every template using it
