@@ -23,7 +23,7 @@ from layerplan.wording import colour_name
 from layerplan.raster import render
 
 
-def _plan(unit="m", w=4000.0, h=2500.0):
+def _plan(unit="m", w=4000.0, h=2500.0, **extra):
     palette = [Paint("P1", "#f0e8d8", (92.6, 1.5, 7.5)), Paint("P2", "#c03020", (44.0, 56.0, 46.0)),
                Paint("P3", "#2050a0", (36.0, 12.0, -50.0)), Paint("P4", "#306030", (36.8, -27.0, 19.6))]
     palette[1].extra["recipe"] = {"target": "#c03020", "parts": [{"paint": "Warm red", "parts": 3},
@@ -42,7 +42,7 @@ def _plan(unit="m", w=4000.0, h=2500.0):
         strokes.sort(key=lambda s: s.paint)
         layers.append(Layer(width, strokes))
     return Plan(w, h, int(w / 20), int(h / 20), 20.0, palette, "P1", layers,
-                {"settings": {"wall_unit": unit, "paints": 4, "brushes_mm": [100.0, 50.0]}})
+                {"settings": {"wall_unit": unit, "paints": 4, "brushes_mm": [100.0, 50.0]}, **extra})
 
 
 class _Doc(HTMLParser):
@@ -404,8 +404,7 @@ def test_element_ids_are_unique(unit):
 
 def test_text_from_the_plan_is_escaped():
     # the source image's name comes from the user: it must arrive as text, not markup (autoescaping)
-    plan = _plan()
-    plan.extra["source"] = {"image": "<b onload=x>hall & stair.png"}
+    plan = _plan(source={"image": "<b onload=x>hall & stair.png"})
     text = plan_html(plan)
     assert "<b onload" not in text and "&lt;b onload=x&gt;hall &amp; stair" in text
     assert _parse(text).section_text("cover").startswith("Wall painting plan — <b onload=x>hall & stair")
