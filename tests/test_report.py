@@ -1,5 +1,6 @@
 """The printable plan (layerplan/report.py), read back with Python's own HTML parser
-(html.parser) and Pillow: every section issue 5 lists, every paint, embedded pictures only.
+(html.parser) and Pillow: every sheet a painter needs (cover, paint card, shopping list, brushes, transfer grid, layers,
+safety), every paint, embedded pictures only; ids unique.
 """
 
 from __future__ import annotations
@@ -16,18 +17,13 @@ from PIL import Image
 from layerplan.outlines import outline_maps
 from layerplan.plan import Layer, Paint, Plan, Stroke
 from layerplan.quantities import paint_use
-from layerplan.report import (
-    PAINT_CHANGE_SECONDS,
-    SECONDS_PER_STROKE,
-    STROKE_MM_PER_SECOND,
-    colour_name,
-    layer_time_s,
-    plan_html,
-)
+from layerplan.report import plan_html
+from layerplan.sheets import PAINT_CHANGE_SECONDS, SECONDS_PER_STROKE, STROKE_MM_PER_SECOND, layer_time_s
+from layerplan.wording import colour_name
 from layerplan.raster import render
 
 
-def _plan(unit="m", w=4000.0, h=2500.0):
+def _plan(unit="m", w=4000.0, h=2500.0, **extra):
     palette = [Paint("P1", "#f0e8d8", (92.6, 1.5, 7.5)), Paint("P2", "#c03020", (44.0, 56.0, 46.0)),
                Paint("P3", "#2050a0", (36.0, 12.0, -50.0)), Paint("P4", "#306030", (36.8, -27.0, 19.6))]
     palette[1].extra["recipe"] = {"target": "#c03020", "parts": [{"paint": "Warm red", "parts": 3},
@@ -46,7 +42,7 @@ def _plan(unit="m", w=4000.0, h=2500.0):
         strokes.sort(key=lambda s: s.paint)
         layers.append(Layer(width, strokes))
     return Plan(w, h, int(w / 20), int(h / 20), 20.0, palette, "P1", layers,
-                {"settings": {"wall_unit": unit, "paints": 4, "brushes_mm": [100.0, 50.0]}})
+                {"settings": {"wall_unit": unit, "paints": 4, "brushes_mm": [100.0, 50.0]}, **extra})
 
 
 class _Doc(HTMLParser):
@@ -382,3 +378,63 @@ def test_default_grid_is_finer_on_small_surfaces():
     assert default_grid_mm("ft", shorter_side_mm=2438.4) == 609.6
     assert default_grid_mm("in", shorter_side_mm=600.0) == 101.6
     assert default_grid_mm("m") == 500.0
+
+
+class _Ids(HTMLParser):
+    def __init__(self):
+        super().__init__()
+        self.ids: list[str] = []
+
+    def handle_starttag(self, tag, attrs):
+        self.ids += [v for k, v in attrs if k == "id"]
+
+
+@pytest.mark.parametrize("unit", ["m", "ft"])
+def test_element_ids_are_unique(unit):
+    # an id names one element of a document (HTML Living Standard, "The id attribute"): every SVG map
+    # carries its own grid and outline groups, so theirs are scoped to their sheet
+    plan = _plan(unit=unit)
+    parser = _Ids()
+    parser.feed(plan_html(plan))
+    ids = parser.ids
+    assert len(ids) == len(set(ids)), sorted({i for i in ids if ids.count(i) > 1})
+    # the links of the brushes sheet still find their layer sheets
+    assert {f"layer-{n:02d}" for n in range(1, len(plan.layers) + 1)} <= set(ids)
+
+
+def test_text_from_the_plan_is_escaped():
+    # the source image's name comes from the user: it must arrive as text, not markup (autoescaping)
+    plan = _plan(source={"image": "<b onload=x>hall & stair.png"})
+    text = plan_html(plan)
+    assert "<b onload" not in text and "&lt;b onload=x&gt;hall &amp; stair" in text
+    assert _parse(text).section_text("cover").startswith("Wall painting plan — <b onload=x>hall & stair")
+
+
+def test_style_sheet_matches_the_printable_area():
+    # A4 is 210 mm wide (ISO 216), Letter 279.4 mm tall (ANSI/ASME Y14.1): with 12 mm margins a sheet is
+    # 186 mm wide; the pictures are sized in Python to the same box the CSS gives the sheet
+    from layerplan.resources import static_dir
+    from layerplan.sheets import PAGE_MARGIN_MM, PRINT_W_MM
+
+    css = (static_dir() / "sheet.css").read_text(encoding="utf-8")
+    assert PRINT_W_MM == 210.0 - 2 * 12.0 and PAGE_MARGIN_MM == 12.0
+    assert f"@page {{ margin: {PAGE_MARGIN_MM:g}mm; }}" in css
+    assert re.search(rf"\.sheet \{{[^}}]*max-width: {PRINT_W_MM:g}mm", css)
+    assert re.search(rf"@media print[\s\S]*\.sheet \{{[^}}]*width: {PRINT_W_MM:g}mm", css)
+    assert css in plan_html(_plan())  # inlined whole: the file prints with no other file
+
+
+def test_the_sheets_are_plain_data_another_exporter_can_read():
+    # what plan.html shows, without HTML: the wording module's text and the plan's own figures
+    from layerplan.sheets import build_sheets
+    from layerplan.wording import wall_size
+
+    plan = _plan(unit="ft", w=12 * 304.8, h=8 * 304.8)
+    sheets = build_sheets(plan)
+    assert dict(sheets.cover.facts)["surface"] == wall_size(plan.wall_width_mm, plan.wall_height_mm, "ft")
+    assert [r.id for r in sheets.paint_card.rows] == [p.id for p in plan.palette]
+    assert [s.number for s in sheets.layers] == [1, 2]
+    use = paint_use(plan)
+    assert [s.paint for s in sheets.shopping.stock] == [s["paint"] for s in use["stock"]]
+    for row in sheets.shopping.stock + sheets.shopping.paints:  # no markup in the text fields
+        assert not any("<" in str(v) for v in vars(row).values())

@@ -481,8 +481,9 @@ def test_recent_plans_tell_two_plans_of_one_photo_apart(client):
     assert len(items) == 2
     facts = [re.sub(r"\s+", " ", re.search(r'class="plan-facts"[^>]*>(.*?)</span>', i, re.S).group(1)) for i in items]
     # newest first; a blank height follows the photo (80 × 60 px, so 0.8 m wide is 0.6 m high)
-    assert facts == ["1.6 × 1.2 m &middot; 5 paints &middot; 2 brushes &middot; seed 1",
-                     "0.8 × 0.6 m &middot; 4 paints &middot; 2 brushes &middot; seed 1"]
+    # the surface is said as on the printed plan's cover (layerplan.wording.wall_size)
+    assert facts == ["1.6 m × 1.2 m &middot; 5 paints &middot; 2 brushes &middot; seed 1",
+                     "0.8 m × 0.6 m &middot; 4 paints &middot; 2 brushes &middot; seed 1"]
     assert all(re.search(r'class="when"[^>]*>\d\d \w{3} \d{4}, \d\d:\d\d UTC<', i) for i in items)
     for plan_id in (a, b):
         wait_for_plan(client, plan_id)
@@ -497,20 +498,22 @@ def test_progress_page_shows_what_is_being_planned(tmp_path):
         block = html.split('id="planning-facts"', 1)[1].split("</dl>", 1)[0]
         facts = dict(re.findall(r"<dt>(.*?)</dt><dd>(.*?)</dd>", block))
         # 1 ft = 304.8 mm exactly (NIST SP 811 App. B) = 30.48 cm
-        assert facts == {"Surface": "0.8 × 0.6 m", "Paints": "4", "Brushes": "40 / 20 mm", "Pixel size": "10 mm",
+        assert facts == {"Surface": "0.8 m × 0.6 m", "Paints": "4", "Brushes": "40 / 20 mm", "Pixel size": "10 mm",
                          "Seed": "1", "Max parts per mix": "4", "Waste": "20 %", "Grid": "30.48 cm"}
     finally:
         app.extensions["layerplan"].close()
 
 
 def test_ground_step_and_container_text():
-    from layerplan.web.pages import _ground_text, containers_text
+    # the container text is layerplan.wording.containers, the printed plan's (tests/test_wording.py)
+    from layerplan.web.pages import _ground_text
+    from layerplan.wording import containers
 
     assert _ground_text("P5", 2) == "two flat coats of P5 everywhere"
     assert _ground_text("P1", 1) == "one flat coat of P1 everywhere"
     assert _ground_text("P1", 0).startswith("P1 everywhere: no coat planned")
     # no-break spaces (U+00A0) hold one container size together; a line may break only at "+"
-    text = containers_text([{"litres": 0.5, "count": 1}, {"litres": 4, "count": 2}])
+    text = containers([{"litres": 0.5, "count": 1}, {"litres": 4, "count": 2}], False)
     assert text == "1\u00a0×\u00a00.5\u00a0L + 2\u00a0×\u00a04\u00a0L"
     assert all(" " not in part for part in text.split(" + "))  # plain spaces only around "+"
 
@@ -624,14 +627,14 @@ def test_bad_inventory_is_refused(client, how, extra, pattern):
     assert re.search(pattern, r.get_json()["error"]), r.get_json()["error"]
 
 
-def test_amounts_on_the_plan_page_read_as_on_the_printed_plan():
-    # litres from 0.1 L, millilitres below (1 L = 1000 mL, SI); a trace is not shown as 0
-    from layerplan.web.pages import litres_text
-
-    assert litres_text(1.8434) == "1.84 L"
-    assert litres_text(0.035) == "35 mL"
-    assert litres_text(0.0002) == "under 1 mL"
-    assert litres_text(None) == ""
+def test_amounts_on_the_plan_page_read_as_on_the_printed_plan(app):
+    # litres from 0.1 L, millilitres below (1 L = 1000 mL, SI); a trace is not shown as 0; the page's
+    # "volume" filter is layerplan.wording.volume, the printed plan's; a figure missing from plan.json shows nothing
+    volume = app.jinja_env.filters["volume"]
+    assert volume(1.8434, False) == "1.84 L"
+    assert volume(0.035, False) == "35 mL"
+    assert volume(0.0002, False, used=True) == "under 1 mL"
+    assert volume(None, False) == ""
 
 
 def test_a_foreign_page_cannot_delete_or_submit_but_our_own_pages_can(client, app):

@@ -34,6 +34,7 @@ from pathlib import Path
 from flask import Flask, jsonify, render_template, request
 from werkzeug.exceptions import HTTPException, InternalServerError
 
+from .. import wording
 from ..resources import static_dir, template_dir
 from .forms import size_text
 from .jobs import JobRunner, LocalProcessRunner, recover
@@ -152,6 +153,7 @@ def create_app(test_config: dict | None = None, *, overrides: dict | None = None
 
     app.register_blueprint(api.bp)
     app.register_blueprint(pages.bp)
+    _register_wording(app)
     app.register_error_handler(HTTPException, _http_error)
     app.register_error_handler(Exception, _unexpected_error)
 
@@ -178,6 +180,51 @@ def create_app(test_config: dict | None = None, *, overrides: dict | None = None
         return response
 
     return app
+
+
+def _lenient(say, *, entry: bool = False):
+    """A wording function as a template filter: a plan document read from disk may lack a figure (an older
+    plan.json), and a page shows nothing for it rather than failing."""
+    from collections.abc import Mapping
+
+    def text(value, *args, **kwargs):
+        if entry:
+            if not isinstance(value, Mapping) or not isinstance(value.get("litres"), (int, float)):
+                return ""
+        elif not isinstance(value, (int, float)) or isinstance(value, bool):
+            return ""
+        return say(value, *args, **kwargs)
+
+    text.__doc__ = say.__doc__
+    return text
+
+
+def _colour_name(lab) -> str:
+    """:func:`layerplan.wording.colour_name` of a plan.json ``lab`` triple; "" when there is none."""
+    if not isinstance(lab, (list, tuple)) or len(lab) != 3 or not all(isinstance(v, (int, float)) for v in lab):
+        return ""
+    return wording.colour_name(lab)
+
+
+def _register_wording(app: Flask) -> None:
+    """The wording module's functions as Jinja filters, so the pages say amounts as the printed plan does:
+    ``{{ entry|amount(us) }}``, ``{{ entry|buy(us) }}``, ``{{ litres|volume(us) }}``, ``{{ m2|area(unit) }}``,
+    ``{{ mm|wall_length(unit) }}``, ``{{ rate|coverage(us) }}``, ``{{ seconds|duration }}``; ``unit is us_units``."""
+    filters = dict(
+        amount=_lenient(wording.amount, entry=True),
+        buy=_lenient(wording.buy, entry=True),
+        volume=_lenient(wording.volume),
+        area=_lenient(wording.area),
+        wall_length=_lenient(wording.length),
+        coverage=_lenient(wording.coverage),
+        duration=_lenient(wording.duration),
+        colour_name=_colour_name,
+    )
+    clash = sorted(set(filters) & set(app.jinja_env.filters))
+    if clash:  # a name of Jinja's own (length, round…) would silently change every template using it
+        raise RuntimeError(f"wording filter names clash with Jinja's: {', '.join(clash)}")
+    app.jinja_env.filters.update(filters)
+    app.jinja_env.tests["us_units"] = wording.is_us
 
 
 def _lock_data_dir(data_dir: Path):

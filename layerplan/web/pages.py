@@ -12,11 +12,10 @@ from flask import (Blueprint, abort, current_app, redirect, render_template, req
 from PIL import Image
 from werkzeug.exceptions import RequestEntityTooLarge
 
-from layerplan import quantities
+from layerplan import quantities, wording
 from layerplan.export import EXPORTS
 from layerplan.plan import Plan
 from layerplan.settings import Settings
-from layerplan.units import UNITS_MM
 
 from . import forms, service
 from .store import WEB_KEY
@@ -288,7 +287,7 @@ def plan_summary(settings: dict[str, Any]) -> dict[str, Any]:
 def _width_text(width_mm, unit: str) -> str:
     if not isinstance(width_mm, (int, float)):
         return ""
-    return f"{width_mm / UNITS_MM.get(unit, 1000.0):.3g} {unit} wide"
+    return f"{wording.length(width_mm, unit)} wide"
 
 
 def _paint_key(paint_id: str):
@@ -302,26 +301,6 @@ def _stock_list(use: dict[str, Any]) -> list[dict[str, Any]]:
     return rows if isinstance(rows, list) and all(isinstance(r, dict) for r in rows) else []
 
 
-@bp.app_template_filter("litres")
-def litres_text(value) -> str:
-    """A volume as the printed plan writes it: litres from 0.1 L, millilitres below ("35 mL")."""
-    if not isinstance(value, (int, float)):
-        return ""
-    from ..report import format_litres
-
-    return format_litres(float(value), False, used=value > 0)
-
-
-@bp.app_template_global()
-def containers_text(containers) -> str:
-    """``[{"litres": 4, "count": 1}, {"litres": 1, "count": 2}]`` -> ``"1 × 4 L + 2 × 1 L"``."""
-    if not isinstance(containers, list) or not containers:
-        return ""
-    # no-break spaces inside one container size, so "1 × 0.5 L" never splits; a line may break at "+"
-    return " + ".join(f"{c.get('count', 1)}\u00a0×\u00a0{c.get('litres', 0):g}\u00a0L"
-                      for c in containers if isinstance(c, dict))
-
-
 @bp.app_template_filter("datetime")
 def datetime_text(timestamp) -> str:
     """A Unix time as UTC text (the page's script shows it in the reader's own time zone)."""
@@ -331,7 +310,7 @@ def datetime_text(timestamp) -> str:
 
 
 def _size_text(width_mm, height_mm, unit: str) -> str:
+    """A surface's size as the printed plan says it (layerplan.wording.wall_size); "" when not known."""
     if not isinstance(width_mm, (int, float)) or not isinstance(height_mm, (int, float)):
         return ""
-    factor = UNITS_MM.get(unit, 1000.0)
-    return f"{width_mm / factor:.3g} × {height_mm / factor:.3g} {unit}"
+    return wording.wall_size(width_mm, height_mm, unit)
