@@ -173,8 +173,11 @@ BAD_REQUESTS = [
     ("zero coverage", {"coverage": "0"}, None, 400, r"^Coverage m²/L must be > 0, got 0"),
     ("negative ground coats", {"ground_coats": "-1"}, None, 400, r"^Ground coats must be a whole number >= 0, got -1"),
     ("no stroke coats", {"stroke_coats": "0"}, None, 400, r"^Stroke coats must be a whole number >= 1, got 0"),
-    ("waste over 100 %", {"waste": "150"}, None, 400, r"^Waste % must be from 0 to 100, got 150"),
-    ("waste not a number", {"waste": "lots%"}, None, 400, r"^Waste % must be a number, got 'lots%'"),
+    # waste is read as on the command line: 15% or 0.15 (a plain 15 used to mean 15 % here and
+    # 1500 % there, so it is now refused with the fix in the message)
+    ("waste over 100 %", {"waste": "150%"}, None, 400, r"^Waste must be a fraction or a percentage .*got '150%'$"),
+    ("waste not a number", {"waste": "lots%"}, None, 400, r"^Waste must be a fraction or a percentage .*got 'lots%'"),
+    ("waste without a % sign", {"waste": "15"}, None, 400, r"got '15' \(for 15 percent write 15%\)$"),
     ("zero grid", {"grid": "0"}, None, 400, r"^Transfer-grid spacing must be > 0, got '0'"),
     ("grid not a length", {"grid": "big"}, None, 400, r"^Transfer-grid spacing must be a length such as 50cm"),
     # 800 mm / 1 mm = 800 squares across the 0.8 m side, over the 200 the overlay allows (layerplan/svg.py)
@@ -470,7 +473,7 @@ def test_start_page_options_and_positive_minimums(client):
     assert int(value("max_parts")) == Settings().max_parts and int(value("mix_paints")) == Settings().mix_paints
     assert float(value("tolerance")) == Settings().tolerance_de
     assert int(value("ground_coats")) == quantities.GROUND_COATS
-    assert float(value("waste")) == pytest.approx(quantities.WASTE * 100)
+    assert value("waste") == f"{quantities.WASTE * 100:g}%"  # a percentage, read as the CLI reads it
 
 
 def test_recent_plans_tell_two_plans_of_one_photo_apart(client):
@@ -492,7 +495,7 @@ def test_progress_page_shows_what_is_being_planned(tmp_path):
     app = _idle_app(tmp_path)
     try:
         client = app.test_client()
-        plan_id = _post(client, max_parts="4", waste="20", grid="1ft", wall_height="").get_json()["id"]
+        plan_id = _post(client, max_parts="4", waste="20%", grid="1ft", wall_height="").get_json()["id"]
         html = client.get(f"/plans/{plan_id}").get_data(as_text=True)
         block = html.split('id="planning-facts"', 1)[1].split("</dl>", 1)[0]
         facts = dict(re.findall(r"<dt>(.*?)</dt><dd>(.*?)</dd>", block))
