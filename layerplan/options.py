@@ -427,7 +427,7 @@ class Option:
         return text.replace("%", "%%")  # argparse formats help with %
 
 
-_PLAN, _MIX, _OUT = ("plan",), ("plan", "mix"), ("plan", "render")
+_MIX, _OUT = ("plan", "mix"), ("plan", "render")
 #: the planning defaults are the library's own (a ``Settings()`` made with no arguments)
 _S = Settings()
 

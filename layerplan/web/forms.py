@@ -17,7 +17,9 @@ from PIL import Image, UnidentifiedImageError
 
 from layerplan import options, units
 from layerplan.load import ACCEPTED_FORMATS, ImageError, load_image
-from layerplan.options import MAX_MIX_PAINTS, MAX_PARTS, MAX_SEED, MAX_TOLERANCE_DE, OPTIONS, OptionError
+from layerplan.options import OPTIONS, OptionError
+# the start page reads these limits from here (layerplan/web/pages.py)
+from layerplan.options import MAX_MIX_PAINTS, MAX_PARTS, MAX_SEED, MAX_TOLERANCE_DE  # noqa: F401
 from layerplan.settings import DEFAULT_BRUSHES_MM, Settings
 
 #: brush kits offered on the start page: our own names, widths in mm, widest first.
