@@ -729,3 +729,8 @@ def test_the_cli_and_the_api_blame_the_same_option(client, tmp_path, capsys, nam
     assert main(argv) == 2
     assert capsys.readouterr().err.startswith(f"layerplan: error: {o.flag}")
     assert not (tmp_path / "never").exists()
+
+
+def test_every_form_option_has_a_bad_text_above():
+    # so a new option is tried through both front ends too
+    assert set(BAD_TEXT) == set(OPTIONS_BY_FIELD)
