@@ -21,14 +21,6 @@ import sys
 
 from .inventory import Inventory, InventoryError, default_inventory, load_inventory
 from .plan import hex_to_rgb, rgb_to_hex
-from .settings import Settings
-
-# the solver's defaults as the planner's settings carry them (the tests check they are the solver's own):
-# importing layerplan.recipes here would load its compiled code (numba) for every command, even
-# `layerplan paints`, which mixes nothing
-DEFAULT_MAX_PAINTS = Settings.mix_paints
-DEFAULT_MAX_PARTS = Settings.max_parts
-DEFAULT_TOLERANCE_DE = Settings.tolerance_de
 
 EXIT_USAGE = 2
 
@@ -38,13 +30,11 @@ class _Fail(Exception):
 
 
 def add_mix_options(parser: argparse.ArgumentParser) -> None:
-    """The solver options shared by ``mix`` and ``plan``: --mix-paints, --max-parts, --tolerance."""
-    parser.add_argument("--mix-paints", type=int, default=DEFAULT_MAX_PAINTS, metavar="N",
-                        help=f"at most N paints in one mix (default {DEFAULT_MAX_PAINTS})")
-    parser.add_argument("--max-parts", type=int, default=DEFAULT_MAX_PARTS, metavar="N",
-                        help=f"whole parts of a mix add up to at most N (default {DEFAULT_MAX_PARTS})")
-    parser.add_argument("--tolerance", type=float, default=DEFAULT_TOLERANCE_DE, metavar="DE",
-                        help=f"a colour counts as mixable within this CIEDE2000 (default {DEFAULT_TOLERANCE_DE:g})")
+    """The solver options ``mix`` shares with ``plan`` (--mix-paints, --max-parts, --tolerance),
+    declared in :mod:`layerplan.options`."""
+    from .options import add_cli_options
+
+    add_cli_options(parser, "mix")
 
 
 def register(subparsers) -> None:

@@ -16,7 +16,8 @@ from .palette import lightest_first, palette_from_image
 from .placer import orientation_field, place_layer, prune_strokes, relax_strokes
 from .plan import Layer, Paint, Plan, Stroke, rgb_to_hex
 from .raster import render_steps
-from .settings import HARD_MAX_RASTER_PX, MAX_WALL_MM, MIN_RASTER_SIDE_PX, Settings, working_raster
+from .options import check_raster
+from .settings import Settings
 
 #: share of the progress bar given to each phase (planning strokes dominates)
 _P_PREP, _P_LAYERS, _P_RELAX = 0.12, 0.5, 0.3
@@ -112,16 +113,10 @@ def make_plan(image: np.ndarray, settings: Settings, *, progress=None) -> Plan:
     image = np.asarray(image)
     if image.ndim != 3 or image.shape[2] != 3 or image.dtype != np.uint8:
         raise ValueError(f"image must be an (H, W, 3) uint8 array, got {image.dtype} {image.shape}")
-    wall_w, wall_h, s, width_px, height_px = working_raster(settings, image.shape)
-    if wall_h > MAX_WALL_MM:
-        raise ValueError(f"wall height must be at most {MAX_WALL_MM / 1000:g} m, got {wall_h / 1000:g} m")
-    if width_px * height_px > HARD_MAX_RASTER_PX:
-        raise ValueError(
-            f"working raster of {width_px}x{height_px} px is too large (at most {HARD_MAX_RASTER_PX / 1e6:g} "
-            f"megapixels); use a coarser pixel size than {s:g} mm"
-        )
-    if min(width_px, height_px) < MIN_RASTER_SIDE_PX:
-        raise ValueError(f"working raster of {width_px}x{height_px} px is too small; use a finer pixel size than {s:g} mm")
+    # the front ends ran this check already (with the others, before queueing); library callers get it here
+    size = check_raster(settings, image.shape)
+    wall_w, wall_h, s = size.wall_width_mm, size.wall_height_mm, size.mm_per_px
+    width_px, height_px = size.width_px, size.height_px
     report(0.0, "fitting the photo to the wall")
     target, inside = fit_to_wall(image, width_px, height_px, fit=settings.fit)
 

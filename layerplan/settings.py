@@ -81,7 +81,7 @@ class Settings:
     stroke_cost: float = DEFAULT_STROKE_COST
     inventory: str | None = None
     free_palette: bool = False
-    mix_paints: int = 3  # issue 3 defaults: 3 paints, 10 parts, ΔE00 3
+    mix_paints: int = 3  # the solver's defaults (layerplan.recipes): 3 paints, 10 parts, ΔE00 3
     max_parts: int = 10
     tolerance_de: float = 3.0
     extra: dict[str, Any] = field(default_factory=dict, compare=False)
@@ -89,49 +89,18 @@ class Settings:
     def validated(self) -> "Settings":
         """Return a checked, normalised copy (brushes sorted widest first).
 
+        Each field is checked by its option (:mod:`layerplan.options`), so a library caller,
+        the command line and the web app get the same bounds.
+
         Raises
         ------
-        ValueError
-            Naming the setting and the bad value.
+        layerplan.options.OptionError
+            A ``ValueError`` naming the setting and the bad value.
         """
-        for name in ("wall_width_mm", "wall_height_mm"):
-            v = getattr(self, name)
-            if v is None and name == "wall_height_mm":
-                continue
-            if not isinstance(v, (int, float)) or not math.isfinite(v) or v <= 0:
-                raise ValueError(f"wall {name[5:-3]} must be > 0 mm, got {v}")
-            if v > MAX_WALL_MM:
-                raise ValueError(f"wall {name[5:-3]} must be at most {MAX_WALL_MM / 1000:g} m, got {v / 1000:g} m")
-        if self.fit not in FITS:
-            raise ValueError(f"fit must be one of {', '.join(FITS)}, got {self.fit!r}")
-        if not isinstance(self.paints, int) or not MIN_PAINTS <= self.paints <= MAX_PAINTS:
-            raise ValueError(f"paints must be a whole number from {MIN_PAINTS} to {MAX_PAINTS}, got {self.paints}")
-        brushes = tuple(sorted((float(b) for b in self.brushes_mm), reverse=True))
-        if not brushes:
-            raise ValueError("give at least one brush width")
-        if len(brushes) > MAX_BRUSHES:
-            raise ValueError(f"at most {MAX_BRUSHES} brushes, got {len(brushes)}")
-        for b in brushes:
-            if not math.isfinite(b) or b <= 0:
-                raise ValueError(f"brush width must be > 0 mm, got {b:g}")
-            if b > 1000:
-                raise ValueError(f"brush width must be at most 1000 mm, got {b:g}")
-        if len(set(brushes)) != len(brushes):
-            raise ValueError(f"brush widths must differ, got {', '.join(f'{b:g}' for b in self.brushes_mm)}")
-        if self.mm_per_px is not None and (not math.isfinite(self.mm_per_px) or self.mm_per_px <= 0):
-            raise ValueError(f"pixel size must be > 0 mm, got {self.mm_per_px}")
-        if not isinstance(self.seed, int) or self.seed < 0:
-            raise ValueError(f"seed must be a whole number >= 0, got {self.seed}")
-        if not math.isfinite(self.stroke_cost) or self.stroke_cost < 0:
-            raise ValueError(f"stroke cost must be >= 0, got {self.stroke_cost}")
-        if self.inventory is not None and (not isinstance(self.inventory, str) or not self.inventory.strip()):
-            raise ValueError(f"inventory must be the path of an inventory file, got {self.inventory!r}")
-        if not isinstance(self.free_palette, bool):
-            raise ValueError(f"free_palette must be true or false, got {self.free_palette!r}")
-        from .recipes import check_options  # late: recipes pulls in numba
+        from .options import OPTIONS, check_settings  # late: options imports this module
 
-        check_options(self.mix_paints, self.max_parts, self.tolerance_de)
-        return replace(self, brushes_mm=brushes)
+        check_settings(self)
+        return replace(self, brushes_mm=OPTIONS["brushes"].check(self.brushes_mm))
 
     def to_dict(self) -> dict[str, Any]:
         d = asdict(self)
@@ -163,7 +132,7 @@ def working_raster(settings: Settings, image_shape) -> tuple[float, float, float
 
     A missing wall height follows the photo's aspect ratio; a missing pixel size comes from
     :func:`choose_mm_per_px`. The limits (``MAX_WALL_MM``, ``HARD_MAX_RASTER_PX``,
-    ``MIN_RASTER_SIDE_PX``) are checked by the callers, each in its own words.
+    ``MIN_RASTER_SIDE_PX``) are checked by :func:`layerplan.options.check_raster`, for every caller.
     """
     h, w = image_shape[:2]
     wall_w = float(settings.wall_width_mm)

@@ -146,6 +146,40 @@ def parse_wall(text: str) -> tuple[float, float | None, str]:
     return _side_mm(raw, "width", w_txt, w_key), _side_mm(raw, "height", h_txt, h_key), w_key
 
 
+def parse_length(text: str, *, default_unit: str = "mm") -> float:
+    """Parse one length such as ``50cm``, ``2 ft``, ``1/2m`` or ``500``.
+
+    A plain number is in ``default_unit``. Simple fractions are accepted (``1/2m``), as in
+    :func:`parse_brushes`; a decimal comma is refused. The sign is kept: callers set the bounds.
+
+    Returns
+    -------
+    float
+        The length in millimetres.
+
+    Raises
+    ------
+    ValueError
+        Naming the text: empty, not a number with an optional unit, an unknown unit
+        (listing the valid ones), or a decimal comma.
+
+    References
+    ----------
+    NIST SP 811 (2008), Appendix B; international yard and pound agreement (1959).
+    """
+    if not isinstance(text, str):
+        raise TypeError(f"a length must be text such as '50cm', got {type(text).__name__}")
+    t = text.strip().lower()
+    if _DECIMAL_COMMA_RE.search(t):
+        raise ValueError(f"length {text!r}: use a point for decimals, e.g. '2.5cm'")
+    m = _LENGTH_RE.match(t)
+    value = _exact(m.group(1)) if m else None
+    if value is None:
+        raise ValueError(f"length {text!r} is not a number with a unit ({_VALID_UNITS}), e.g. '50cm' or '2ft'")
+    key = _unit(default_unit) if m.group(2) is None else _unit_in(text, m.group(2), what="length")
+    return float(value * _UNITS_MM_EXACT[key])
+
+
 def parse_brushes(text: str) -> tuple[float, ...]:
     """Parse a brush kit such as ``100,50,25,12`` (mm) or ``4in,2in,1in,1/2in``.
 

@@ -111,9 +111,11 @@ def test_combine_predicts_the_mix(capsys, kit):
         (["mix", "--combine", "White=lots"], r"parts in 'White=lots' must be a number"),
         (["mix", "--combine", "White=-1"], r"parts in 'White=-1' must be > 0"),
         (["mix", "--combine", "White=1", "white=2"], r"paint 'white' is given twice"),
-        (["mix", "#808080", "--mix-paints", "9"], r"max paints per mix must be a whole number from 1 to 4, got 9"),
-        (["mix", "#808080", "--max-parts", "0"], r"max parts must be a whole number from 1 to 30, got 0"),
-        (["mix", "#808080", "--tolerance", "-2"], r"tolerance must be a ΔE00 from 0 to 100"),
+        # the mix options are read by their declarations in layerplan/options.py, whose messages
+        # name the flag (the same words as `layerplan plan` and, with the form's labels, the web app)
+        (["mix", "#808080", "--mix-paints", "9"], r"--mix-paints must be a whole number from 1 to 4, got 9"),
+        (["mix", "#808080", "--max-parts", "0"], r"--max-parts must be a whole number from 1 to 30, got 0"),
+        (["mix", "#808080", "--tolerance", "-2"], r"--tolerance must be from 0 to 100, got -2"),
         (["paints", "--inventory", "/no/such/kit.toml"], r"/no/such/kit\.toml: no such inventory file"),
     ],
 )

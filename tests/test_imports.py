@@ -11,7 +11,6 @@ from pathlib import Path
 
 import pytest
 
-from layerplan import cli_paints, recipes
 
 REPO = Path(__file__).resolve().parents[1]
 
@@ -23,7 +22,7 @@ HEAVY = {"numba", "llvmlite", "sklearn", "flask", "werkzeug", "waitress", "colou
 
 _PROBE = """
 import contextlib, io, json, sys
-from layerplan.cli_paints import main
+from layerplan.cli import main  # the real entry point, parser and all
 out = io.StringIO()
 with contextlib.redirect_stdout(out):
     status = main(json.loads(sys.argv[1]))
@@ -70,9 +69,3 @@ def test_mix_combine_loads_no_clustering_web_colour_science_or_planner():
     # numba stays here too: predict_mix lives in layerplan.recipes beside the compiled kernel
     assert sorted(set(result["loaded"]) - {"numba", "llvmlite"}) == []
     assert set(json.loads(result["stdout"])) == {"predicted_srgb", "lab"}
-
-
-def test_cli_defaults_are_the_solvers_own():
-    # cli_paints takes its defaults from Settings so as not to import recipes; they must agree
-    assert (cli_paints.DEFAULT_MAX_PAINTS, cli_paints.DEFAULT_MAX_PARTS, cli_paints.DEFAULT_TOLERANCE_DE) == (
-        recipes.DEFAULT_MAX_PAINTS, recipes.DEFAULT_MAX_PARTS, recipes.DEFAULT_TOLERANCE_DE)

@@ -173,8 +173,11 @@ BAD_REQUESTS = [
     ("zero coverage", {"coverage": "0"}, None, 400, r"^Coverage m²/L must be > 0, got 0"),
     ("negative ground coats", {"ground_coats": "-1"}, None, 400, r"^Ground coats must be a whole number >= 0, got -1"),
     ("no stroke coats", {"stroke_coats": "0"}, None, 400, r"^Stroke coats must be a whole number >= 1, got 0"),
-    ("waste over 100 %", {"waste": "150"}, None, 400, r"^Waste % must be from 0 to 100, got 150"),
-    ("waste not a number", {"waste": "lots%"}, None, 400, r"^Waste % must be a number, got 'lots%'"),
+    # waste is read as on the command line: 15% or 0.15 (a plain 15 used to mean 15 % here and
+    # 1500 % there, so it is now refused with the fix in the message)
+    ("waste over 100 %", {"waste": "150%"}, None, 400, r"^Waste must be a fraction or a percentage .*got '150%'$"),
+    ("waste not a number", {"waste": "lots%"}, None, 400, r"^Waste must be a fraction or a percentage .*got 'lots%'"),
+    ("waste without a % sign", {"waste": "15"}, None, 400, r"got '15' \(for 15 percent write 15%\)$"),
     ("zero grid", {"grid": "0"}, None, 400, r"^Transfer-grid spacing must be > 0, got '0'"),
     ("grid not a length", {"grid": "big"}, None, 400, r"^Transfer-grid spacing must be a length such as 50cm"),
     # 800 mm / 1 mm = 800 squares across the 0.8 m side, over the 200 the overlay allows (layerplan/svg.py)
@@ -470,7 +473,7 @@ def test_start_page_options_and_positive_minimums(client):
     assert int(value("max_parts")) == Settings().max_parts and int(value("mix_paints")) == Settings().mix_paints
     assert float(value("tolerance")) == Settings().tolerance_de
     assert int(value("ground_coats")) == quantities.GROUND_COATS
-    assert float(value("waste")) == pytest.approx(quantities.WASTE * 100)
+    assert value("waste") == f"{quantities.WASTE * 100:g}%"  # a percentage, read as the CLI reads it
 
 
 def test_recent_plans_tell_two_plans_of_one_photo_apart(client):
@@ -493,7 +496,7 @@ def test_progress_page_shows_what_is_being_planned(tmp_path):
     app = _idle_app(tmp_path)
     try:
         client = app.test_client()
-        plan_id = _post(client, max_parts="4", waste="20", grid="1ft", wall_height="").get_json()["id"]
+        plan_id = _post(client, max_parts="4", waste="20%", grid="1ft", wall_height="").get_json()["id"]
         html = client.get(f"/plans/{plan_id}").get_data(as_text=True)
         block = html.split('id="planning-facts"', 1)[1].split("</dl>", 1)[0]
         facts = dict(re.findall(r"<dt>(.*?)</dt><dd>(.*?)</dd>", block))
@@ -657,3 +660,80 @@ def test_a_foreign_page_cannot_delete_or_submit_but_our_own_pages_can(client, ap
     own = {"Origin": "http://localhost", "Sec-Fetch-Site": "same-origin"}
     assert client.delete(f"/api/plans/{plan_id}", headers=own).status_code == 204
     assert client.get(f"/api/plans/{plan_id}").status_code == 404
+
+
+# --------------------------------------------------- the command line and the API agree
+from layerplan.options import form_options  # noqa: E402 - beside the tests that use it
+
+#: the options the form and API take, by field
+OPTIONS_BY_FIELD = {o.field: o for o in form_options()}
+
+
+def _without_run_details(doc: dict) -> dict:
+    """plan.json less what may tell one run from another (plan.json has no ids or timestamps; the
+    generator line names the version that wrote it)."""
+    return {k: v for k, v in doc.items() if k != "generator"}
+
+
+def test_the_same_settings_make_the_same_plan_through_the_cli_and_the_api(client, tmp_path):
+    # Each option is read by its one declaration (layerplan/options.py), so the same text given to
+    # `layerplan plan` and to POST /api/plans must make the same plan.json, quantities included.
+    from layerplan.cli import main
+
+    photo = tmp_path / "quadrants.png"
+    photo.write_bytes(png_bytes(quadrants()))
+    shared = {"paints": "3", "brushes": "100,40", "pixel_mm": "20", "seed": "3", "fit": "contain",
+              "stroke_cost": "6", "mix_paints": "2", "max_parts": "6", "tolerance": "4", "coverage": "8",
+              "ground_coats": "1", "stroke_coats": "2", "waste": "12.5%", "grid": "1/5m"}
+    argv = ["plan", str(photo), "--out", str(tmp_path / "cli"), "--quiet", "--wall", "80x50cm"]
+    for name, text in shared.items():
+        argv += [OPTIONS_BY_FIELD[name].flag, text]
+    assert main(argv) == 0
+    cli_doc = json.loads((tmp_path / "cli" / "plan.json").read_text(encoding="utf-8"))
+
+    r = _post(client, wall_width="80", wall_height="50", unit="cm", **shared)
+    assert r.status_code == 202, r.get_json()
+    final = wait_for_plan(client, r.get_json()["id"])[-1]
+    assert final["state"] == "done", final["message"]
+    web_doc = json.loads(client.get(final["files"]["plan.json"]).data)
+
+    assert _without_run_details(web_doc) == _without_run_details(cli_doc)
+    # and the options reached the plan as given: 12.5 % = 0.125; 1/5 m = 200 mm (SI)
+    use = cli_doc["paint_use"]
+    assert (use["waste"], use["coverage_m2_per_litre"], use["ground_coats"], use["stroke_coats"]) == \
+        (0.125, 8.0, 1, 2)
+    assert cli_doc["settings"]["fit"] == "contain" and cli_doc["settings"]["max_parts"] == 6
+
+
+#: a bad text for each option the form takes, refused by the option's reader or by the check of the whole set
+BAD_TEXT = {"paints": "1", "brushes": "50,50", "pixel_mm": "0", "seed": "-1", "stroke_cost": "-1",
+            "fit": "stretch", "free_palette": "maybe", "mix_paints": "5", "max_parts": "0", "tolerance": "101",
+            "coverage": "0", "ground_coats": "-1", "stroke_coats": "0", "waste": "15", "grid": "1mm",
+            "wall": "0x1m"}
+
+
+@pytest.mark.parametrize("name", sorted(BAD_TEXT))
+def test_the_cli_and_the_api_blame_the_same_option(client, tmp_path, capsys, name):
+    from layerplan.cli import main
+
+    o = OPTIONS_BY_FIELD[name]
+    photo = tmp_path / "quadrants.png"
+    photo.write_bytes(png_bytes(quadrants()))
+    argv = ["plan", str(photo), "--out", str(tmp_path / "never"), "--quiet", "--wall", "80x60cm",
+            "--brushes", "40,20", "--pixel-mm", "10"]
+    argv += [o.flag] if o.kind == "switch" else [o.flag, BAD_TEXT[name]]
+    fields = {name: BAD_TEXT[name]}
+    if name == "wall":
+        fields.update(wall_width=None, wall_height=None, unit=None)
+    r = _post(client, **fields)
+    assert r.status_code == 400 and r.get_json()["field"] == name, r.get_json()
+    if o.kind == "switch":  # a flag on the command line cannot be given a bad value
+        return
+    assert main(argv) == 2
+    assert capsys.readouterr().err.startswith(f"layerplan: error: {o.flag}")
+    assert not (tmp_path / "never").exists()
+
+
+def test_every_form_option_has_a_bad_text_above():
+    # so a new option is tried through both front ends too
+    assert set(BAD_TEXT) == set(OPTIONS_BY_FIELD)

@@ -14,30 +14,42 @@ Fields of ``POST /api/plans`` (multipart/form-data; the start page's form sends 
 ``wall_height``    height in ``unit``; blank or absent follows the photo's shape
 ``unit``           m, cm, mm, ft or in (default m)
 ``wall``           instead of the three above: one text such as ``4x2.5m``
-``paints``         number of paints, 2–32 (default 8)
-``brushes``        brush widths, comma-separated, mm unless a unit is given (``4in, 2in``)
 ``kit``            instead of ``brushes``: a brush kit id from ``GET /api/kits``
-``fit``            cover (fill the surface, crop) or contain (fit the photo, pad with ground)
-``seed``           whole number >= 0 (default 0): same inputs and seed, same plan
-``pixel_mm``       size of one working pixel in mm (default: chosen from the narrowest brush)
-``free_palette``   1 keeps the photo's own colours instead of the colours the recipes reach
 ``inventory``      default, upload (with file ``inventory_file``) or edit (with ``inventory_text``)
 
-Recipe options (as ``layerplan plan``'s options of the same meaning):
+The options, as ``layerplan plan`` takes them (made from :mod:`layerplan.options`; a blank or
+absent field takes the default). Shares are ``15%`` or ``0.15``; lengths carry a unit (plain
+numbers are mm):
 
-``mix_paints``     most inventory paints in one mix, 1–4 (``--mix-paints``, default 3)
-``max_parts``      whole parts of a recipe add up to at most this, 1–30 (``--max-parts``, default 10)
-``tolerance``      a paint counts as mixable within this CIEDE2000, 0–100 (``--tolerance``, default 3)
-``stroke_cost``    what a stroke must earn, >= 0 (``--stroke-cost``, default 5.5)
-
-Quantity options (passed to :func:`layerplan.export.write_outputs`):
-
-``coverage``       spreading rate of one coat, m² per litre, > 0 (``--coverage``, default 10)
-``ground_coats``   coats of the ground, whole number >= 0 (``--ground-coats``, default 2)
-``stroke_coats``   coats of each stroke, whole number >= 1 (``--stroke-coats``, default 1)
-``waste``          extra paint to buy in percent, 0–100, e.g. ``15`` or ``15%`` (``--waste``, default 15 %)
-``grid``           transfer-grid square, a length such as ``50cm`` or ``2ft``; plain numbers are mm
-                   (``--grid``, default 50 cm; at most 200 squares along the longest side)
+<!-- options table: made by `python -m layerplan.options --write`; edit layerplan/options.py -->
+``wall``          size of the painted surface; WxH with a unit (m, cm, mm, ft, in): 4x2.5m, 12x8ft; or the
+                  width alone (``--wall``, default 3 m wide, height from the photo)
+``fit``           cover fills the surface and crops the overhang; contain fits the whole photo inside and pads
+                  with the ground paint; cover or contain (``--fit``, default cover)
+``paints``        number of paints; whole number from 2 to 32 (``--paints``, default 8)
+``brushes``       brush widths, one layer each, widest first; widths in mm, comma-separated, or with units
+                  (4in, 2in); at most 8 (``--brushes``, default 100,50,25,12)
+``pixel_mm``      wall size of one working pixel; > 0 mm (``--pixel-mm``, default the narrowest brush spans 3
+                  px, at most 2 megapixels)
+``seed``          seed for every random choice: same inputs and seed, same plan; whole number from 0 to
+                  4294967295 (``--seed``, default 0)
+``stroke_cost``   colour error (ΔE00 per brush-width square) a stroke must remove to be painted; lower for
+                  more detail, higher for fewer strokes; >= 0 (``--stroke-cost``, default 5.5)
+``free_palette``  keep the photo's own colours instead of the colours the recipes will mix to; on or off
+                  (``--free-palette``, default off)
+``mix_paints``    most inventory paints in one mix; whole number from 1 to 4 (``--mix-paints``, default 3)
+``max_parts``     whole parts of a mix add up to at most this; whole number from 1 to 30 (``--max-parts``,
+                  default 10)
+``tolerance``     a colour counts as mixable within this CIEDE2000; from 0 to 100 (``--tolerance``, default 3)
+``coverage``      spreading rate of one coat (check your tins); > 0 m²/L (``--coverage``, default 10)
+``ground_coats``  coats of the ground; whole number >= 0 (``--ground-coats``, default 2)
+``stroke_coats``  coats of each stroke; whole number >= 1 (``--stroke-coats``, default 1)
+``waste``         extra paint to buy for spills and touch-ups; 0.15 or 15% (a fraction or a percentage)
+                  (``--waste``, default 15%)
+``grid``          transfer-grid square, drawn on the print and the overlay; a length with a unit: 50cm, 2ft,
+                  1/2m (plain numbers are mm) (``--grid``, default 50cm, or 2ft for walls in ft or in; 10cm or
+                  4in on small boards; at most 200 squares along the longest side)
+<!-- end of options table -->
 
 Errors are ``{"error": "<message>"}`` with 400, 404, 405, 413, 415 or 503. A refused plan
 request also carries ``"field"``: the form field at fault (or null); its message names the

@@ -1,8 +1,9 @@
 """Reading a plan request (the API's multipart form and the start page's form are the same).
 
 Everything is checked here, before anything is queued: the photo is decoded in full, the
-settings are validated and the working raster is sized, so bad input is answered at once
-with a 4xx and a message, and a worker only ever sees input the planner accepts.
+options are read by their own parsers (:mod:`layerplan.options`, as the command line reads
+them) and checked together against the photo, so bad input is answered at once with a 4xx
+and a message naming the field, and a worker only ever sees input the planner accepts.
 """
 
 from __future__ import annotations
@@ -14,13 +15,12 @@ from typing import Any
 
 from PIL import Image, UnidentifiedImageError
 
-from layerplan import units
+from layerplan import options, units
 from layerplan.load import ACCEPTED_FORMATS, ImageError, load_image
-from layerplan.recipes import MAX_MIX_PAINTS, MAX_TOLERANCE_DE
-from layerplan.recipes import MAX_PARTS_LIMIT as MAX_PARTS
-from layerplan.svg import MAX_GRID_LINES
-from layerplan.settings import (DEFAULT_BRUSHES_MM, HARD_MAX_RASTER_PX, MAX_PAINTS, MAX_WALL_MM, MIN_PAINTS,
-                                MIN_RASTER_SIDE_PX, Settings, working_raster)
+from layerplan.options import OPTIONS, OptionError
+# the start page reads these limits from here (layerplan/web/pages.py)
+from layerplan.options import MAX_MIX_PAINTS, MAX_PARTS, MAX_SEED, MAX_TOLERANCE_DE  # noqa: F401
+from layerplan.settings import DEFAULT_BRUSHES_MM, Settings
 
 #: brush kits offered on the start page: our own names, widths in mm, widest first.
 #: Widths follow common flat-brush sizes for wall work (4", 2", 1", 1/2" ≈ 100, 50, 25, 12 mm;
@@ -32,26 +32,17 @@ BRUSH_KITS: dict[str, dict[str, Any]] = {
     "quick": {"label": "Quick sketch — two brushes, fast plan", "brushes_mm": (100.0, 40.0)},
 }
 DEFAULT_KIT = "hall"
-UNIT_CHOICES = ("m", "cm", "mm", "ft", "in")
-#: upper bound on a seed, so it stays an ordinary integer everywhere
-MAX_SEED = 2**32 - 1
-#: most transfer-grid squares along the longest side (checked here, before queueing, so a too-fine
-#: grid is refused at once rather than failing the plan at export)
-MAX_GRID_SQUARES = MAX_GRID_LINES
-
-#: the labels the start page shows for each form field; every message names a field by its label
+UNIT_CHOICES = ("m", "cm", "mm", "ft", "in")  # in the order the start page offers them
+#: the labels the start page shows for each form field; every message names a field by its label.
+#: The options' labels come from layerplan.options; these fields are the form's own (the wall in
+#: three parts, the brush kit, the photo and the inventory upload)
 LABELS: dict[str, str] = {
-    "image": "Photo", "wall": "Surface", "wall_width": "Width", "wall_height": "Height", "unit": "Unit",
-    "fit": "Fit", "paints": "Number of paints", "kit": "Brush kit", "brushes": "Brush widths",
-    "seed": "Seed", "pixel_mm": "Pixel size (mm)", "free_palette": "Keep the photo's own colours",
+    "image": "Photo", "wall_width": "Width", "wall_height": "Height", "unit": "Unit", "kit": "Brush kit",
     "inventory": "Paint inventory", "inventory_file": "Inventory file", "inventory_text": "Inventory text",
-    "mix_paints": "Most paints per mix", "max_parts": "Max parts per mix", "tolerance": "Tolerance ΔE00",
-    "stroke_cost": "Stroke cost", "coverage": "Coverage m²/L", "ground_coats": "Ground coats",
-    "stroke_coats": "Stroke coats", "waste": "Waste %", "grid": "Transfer-grid spacing",
+    **{o.field: o.label for o in options.form_options()},
 }
 #: form field -> the export option it sets (layerplan.export.write_outputs)
-OUTPUT_FIELDS = {"coverage": "coverage_m2_per_litre", "ground_coats": "ground_coats",
-                 "stroke_coats": "stroke_coats", "waste": "waste", "grid": "grid_mm"}
+OUTPUT_FIELDS = {o.field: o.setting for o in options.form_options("output")}
 
 
 def size_text(n_bytes: int) -> str:
@@ -97,12 +88,10 @@ def parse_plan_request(form, files, *, photo: tuple[bytes, str] | None = None) -
     ----------
     form : mapping of str to str
         ``wall_width``, ``wall_height`` (optional: blank follows the photo), ``unit``
-        (m|cm|mm|ft|in), or instead ``wall`` as ``"4x2.5m"``; ``paints``; ``brushes``
-        (comma-separated mm) or ``kit`` (a key of :data:`BRUSH_KITS`); optional ``seed``,
-        ``fit`` (cover|contain), ``pixel_mm``; recipe options ``mix_paints``, ``max_parts``,
-        ``tolerance``, ``stroke_cost``; quantity options ``coverage``, ``ground_coats``,
-        ``stroke_coats``, ``waste`` (percent), ``grid`` (a length such as ``50cm``; plain
-        numbers are mm). :data:`LABELS` gives each field's label.
+        (m|cm|mm|ft|in), or instead ``wall`` as ``"4x2.5m"``; ``brushes`` or ``kit`` (a key
+        of :data:`BRUSH_KITS`); ``inventory`` (default|upload|edit, with ``inventory_text``);
+        and the options of :mod:`layerplan.options` by their field names (a blank field
+        takes the option's default). :data:`LABELS` gives each field's label.
     files : mapping of str to FileStorage
         ``image`` (unless ``photo`` is given), ``inventory_file``.
     photo : (bytes, str), optional, keyword-only
@@ -115,31 +104,30 @@ def parse_plan_request(form, files, *, photo: tuple[bytes, str] | None = None) -
         else, each naming the field by its label and the bad value.
     """
     data, name = photo if photo is not None else read_photo(files)
-    settings = _settings(form)
-    options = _output_options(form)
-    inventory_text = _inventory(form, files)
+    with _blamed():
+        settings = _settings(form)
+        output = options.output_kwargs(_values(form, options.form_options("output")))
+    inventory_text, inventory_paints = _inventory(form, files)
     image = _decode(data, name)
-    wall_w, wall_h, s, width_px, height_px = working_raster(settings, image.shape)
-    if not math.isfinite(wall_h) or wall_h > MAX_WALL_MM:
-        raise RequestError(f"the height from the photo's shape would be {wall_h / 1000:g} m, over the "
-                           f"{MAX_WALL_MM / 1000:g} m limit; give the Height", field="wall_height")
-    if width_px * height_px > HARD_MAX_RASTER_PX:
-        raise RequestError(f"working raster of {width_px}x{height_px} px is too large (at most "
-                           f"{HARD_MAX_RASTER_PX / 1e6:g} megapixels); use a Pixel size (mm) coarser than {s:g} mm",
-                           field="pixel_mm")
-    if min(width_px, height_px) < MIN_RASTER_SIDE_PX:
-        raise RequestError(f"working raster of {width_px}x{height_px} px is too small (at least "
-                           f"{MIN_RASTER_SIDE_PX} px a side); use a Pixel size (mm) finer than {s:g} mm",
-                           field="pixel_mm")
-    grid = options.get("grid_mm")
-    if grid is not None and max(wall_w, wall_h) / grid > MAX_GRID_SQUARES:
-        longest = max(wall_w, wall_h)
-        raise RequestError(f"{LABELS['grid']} of {grid:g} mm gives {math.ceil(longest / grid)} squares along the "
-                           f"{longest / 1000:g} m side (at most {MAX_GRID_SQUARES}); use at least "
-                           f"{math.ceil(longest / MAX_GRID_SQUARES):g} mm", field="grid")
+    with _blamed():
+        size = options.check_plan(settings, output, image.shape, inventory_paints=inventory_paints)
     return PlanRequest(image_bytes=data, source_name=name, settings=settings, image_shape=image.shape[:2],
-                       raster_px=(width_px, height_px), mm_per_px=s, inventory_text=inventory_text,
-                       output_options=options, wall_mm=(float(wall_w), float(wall_h)))
+                       raster_px=(size.width_px, size.height_px), mm_per_px=size.mm_per_px,
+                       inventory_text=inventory_text, output_options=output,
+                       wall_mm=(size.wall_width_mm, size.wall_height_mm))
+
+
+class _blamed:
+    """Turn an :class:`~layerplan.options.OptionError` into a RequestError naming the form field by its label."""
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, kind, exc, tb):
+        if isinstance(exc, OptionError):
+            field = exc.field if exc.field in LABELS else OPTIONS[exc.option].field
+            raise RequestError(exc.form_message(LABELS[field]), field=field) from None
+        return False
 
 
 # ------------------------------------------------------------------------------ the photo
@@ -199,15 +187,15 @@ def inventory_module():
     return inventory
 
 
-def _inventory(form, files) -> str | None:
-    """The painter's inventory as checked TOML text, or None for the default set."""
+def _inventory(form, files) -> tuple[str | None, int | None]:
+    """The painter's inventory as checked TOML text (None for the default set), and its number of paints."""
     choice = _text(form, "inventory") or "default"
     if choice not in INVENTORY_CHOICES:
         raise RequestError(f"inventory must be one of {', '.join(INVENTORY_CHOICES)}, got {choice!r}",
                            field="inventory")
-    if choice == "default":
-        return None
     module = inventory_module()
+    if choice == "default":
+        return None, (len(module.default_inventory()) if module is not None else None)
     if module is None:
         raise RequestError("this layerplan has no mix recipes, so it takes no paint inventory", field="inventory")
     if choice == "upload":
@@ -234,95 +222,35 @@ def _inventory(form, files) -> str | None:
         source = "edited inventory"
         where = "inventory_text"
     try:
-        module.loads_inventory(text, source=source.strip())
+        inventory = module.loads_inventory(text, source=source.strip())
     except ValueError as exc:
         raise RequestError(str(exc), field=where) from None
-    return text
+    return text, len(inventory)
 
 
 # ---------------------------------------------------------------------------- the settings
+def _values(form, chosen) -> dict[str, Any]:
+    """Option name -> value for the options given in the form (blank fields are left out)."""
+    values = {}
+    for o in chosen:
+        text = _text(form, o.field)
+        if text or (o.kind == "switch" and o.field in (form or {})):
+            values[o.name] = o.parse(text)
+    return values
+
+
 def _settings(form) -> Settings:
-    wall_w, wall_h, unit = _wall(form)
-    kw: dict[str, Any] = {"wall_width_mm": wall_w, "wall_height_mm": wall_h, "wall_unit": unit,
-                          "brushes_mm": _brushes(form)}
-    paints = _text(form, "paints")
-    if paints:
-        kw["paints"] = _int("paints", paints, MIN_PAINTS, MAX_PAINTS)
-    fit = _text(form, "fit")
-    if fit:
-        if fit not in ("cover", "contain"):
-            raise RequestError(f"Fit must be one of cover, contain, got {fit!r}", field="fit")
-        kw["fit"] = fit
-    seed = _text(form, "seed")
-    if seed:
-        kw["seed"] = _int("seed", seed, 0, MAX_SEED)
-    if _text(form, "free_palette") in ("1", "on", "true", "yes"):
-        kw["free_palette"] = True
-    pixel = _text(form, "pixel_mm")
-    if pixel:
-        kw["mm_per_px"] = _number("pixel_mm", pixel, minimum=0.0, strict=True)
-    for name, key in (("mix_paints", "mix_paints"), ("max_parts", "max_parts")):
-        text = _text(form, name)
-        if text:
-            kw[key] = _int(name, text, 1, MAX_MIX_PAINTS if name == "mix_paints" else MAX_PARTS)
-    text = _text(form, "tolerance")
-    if text:
-        kw["tolerance_de"] = _number("tolerance", text, minimum=0.0, maximum=MAX_TOLERANCE_DE)
-    text = _text(form, "stroke_cost")
-    if text:
-        kw["stroke_cost"] = _number("stroke_cost", text, minimum=0.0)
-    try:
-        return Settings(**kw).validated()
-    except ValueError as exc:  # every field was checked above; this is a backstop
-        raise RequestError(str(exc)) from None
-
-
-def _output_options(form) -> dict[str, float]:
-    """The quantity and grid options given, as :func:`layerplan.export.write_outputs` takes them."""
-    options: dict[str, float] = {}
-    text = _text(form, "coverage")
-    if text:
-        options["coverage_m2_per_litre"] = _number("coverage", text, minimum=0.0, strict=True)
-    for name, least in (("ground_coats", 0), ("stroke_coats", 1)):
-        text = _text(form, name)
-        if text:
-            options[name] = _int(name, text, least, None)
-    text = _text(form, "waste")
-    if text:
-        percent = _number("waste", text[:-1].strip() if text.endswith("%") else text, minimum=0.0, maximum=100.0,
-                          shown=text)
-        options["waste"] = percent / 100.0
-    text = _text(form, "grid")
-    if text:
-        options["grid_mm"] = _grid(text)
-    return options
-
-
-def _grid(text: str) -> float:
-    label = LABELS["grid"]
-    try:
-        value = float(text)  # a plain number is mm, as on the command line
-        mm = value
-    except ValueError:
-        try:
-            mm, second, _ = units.parse_wall(text)
-            if second is not None:
-                raise ValueError("one length, not two")
-        except ValueError:
-            raise RequestError(f"{label} must be a length such as 50cm or 2ft (plain numbers are mm), "
-                               f"got {text!r}", field="grid") from None
-    if not math.isfinite(mm) or mm <= 0:
-        raise RequestError(f"{label} must be > 0, got {text!r}", field="grid")
-    return float(mm)
+    chosen = [o for o in options.form_options("settings") if o.kind not in ("wall", "brushes")]
+    values = _values(form, chosen)
+    values["wall"] = _wall(form)
+    values["brushes"] = _brushes(form)
+    return Settings(**options.settings_kwargs(values)).validated()
 
 
 def _wall(form) -> tuple[float, float | None, str]:
     combined = _text(form, "wall")
     if combined and not _text(form, "wall_width"):
-        try:
-            return units.parse_wall(combined)
-        except ValueError as exc:
-            raise RequestError(f"Surface: {exc}", field="wall") from None
+        return OPTIONS["wall"].parse(combined)
     unit = _text(form, "unit") or "m"
     if unit.lower() not in units.UNIT_ALIASES:
         raise RequestError(f"Unit must be one of {', '.join(UNIT_CHOICES)}, got {unit!r}", field="unit")
@@ -330,31 +258,30 @@ def _wall(form) -> tuple[float, float | None, str]:
     width_text = _text(form, "wall_width")
     if not width_text:
         raise RequestError("give the Width of the surface (field 'wall_width')", field="wall_width")
-    width = _length("wall_width", width_text, unit)
+    width = _side("width", width_text, unit)
     height_text = _text(form, "wall_height")
-    height = _length("wall_height", height_text, unit) if height_text else None
+    height = _side("height", height_text, unit) if height_text else None
     return width, height, unit
 
 
-def _length(name: str, text: str, unit: str) -> float:
-    value = _number(name, text)
-    if value <= 0:
+def _side(side: str, text: str, unit: str) -> float:
+    """One side of the wall as typed in ``unit``, in mm (checked as the wall option checks it)."""
+    name = f"wall_{side}"
+    try:
+        value = float(text)
+    except ValueError:
+        raise RequestError(f"{LABELS[name]} must be a number, got {text!r}", field=name) from None
+    if not math.isfinite(value):
+        raise RequestError(f"{LABELS[name]} must be a finite number, got {text!r}", field=name)
+    if value <= 0:  # before converting: the message repeats what was typed
         raise RequestError(f"{LABELS[name]} must be > 0, got {text} {unit}", field=name)
-    mm = units.to_mm(value, unit)
-    if mm > MAX_WALL_MM:
-        raise RequestError(f"{LABELS[name]} must be at most {MAX_WALL_MM / 1000:g} m, got {text} {unit}", field=name)
-    return mm
+    return options.check_wall_side(side, units.to_mm(value, unit), field=name, shown=f"{text} {unit}")
 
 
 def _brushes(form) -> tuple[float, ...]:
     text = _text(form, "brushes")
     if text:
-        try:
-            brushes = units.parse_brushes(text)
-            Settings(brushes_mm=brushes).validated()  # count, range and repeats, before anything else
-        except ValueError as exc:
-            raise RequestError(f"{LABELS['brushes']}: {exc}", field="brushes") from None
-        return brushes
+        return OPTIONS["brushes"].parse(text)
     kit = _text(form, "kit") or DEFAULT_KIT
     if kit not in BRUSH_KITS:
         raise RequestError(f"{LABELS['kit']} must be one of {', '.join(BRUSH_KITS)}, got {kit!r}", field="kit")
@@ -364,36 +291,3 @@ def _brushes(form) -> tuple[float, ...]:
 def _text(form, name: str) -> str:
     value = form.get(name) if form else None
     return value.strip() if isinstance(value, str) else ""
-
-
-def _number(name: str, text: str, *, minimum: float | None = None, maximum: float | None = None,
-            strict: bool = False, shown: str | None = None) -> float:
-    """``text`` as a finite number within the bounds; RequestError naming the field by its label."""
-    label, shown = LABELS.get(name, name), text if shown is None else shown
-    try:
-        value = float(text)
-    except ValueError:
-        raise RequestError(f"{label} must be a number, got {shown!r}", field=name) from None
-    if not math.isfinite(value):
-        raise RequestError(f"{label} must be a finite number, got {shown!r}", field=name)
-    low = minimum is not None and (value <= minimum if strict else value < minimum)
-    if low or (maximum is not None and value > maximum):
-        if maximum is None:
-            rule = f"{'>' if strict else '>='} {minimum:g}"
-        else:
-            rule = f"from {minimum:g} to {maximum:g}"
-        raise RequestError(f"{label} must be {rule}, got {shown}", field=name)
-    return value
-
-
-def _int(name: str, text: str, least: int, most: int | None) -> int:
-    """``text`` as a whole number from ``least`` to ``most`` (None: no upper bound)."""
-    label = LABELS.get(name, name)
-    rule = f"a whole number from {least} to {most}" if most is not None else f"a whole number >= {least}"
-    try:
-        value = int(text)
-    except ValueError:
-        raise RequestError(f"{label} must be {rule}, got {text!r}", field=name) from None
-    if value < least or (most is not None and value > most):
-        raise RequestError(f"{label} must be {rule}, got {value}", field=name)
-    return value

@@ -27,7 +27,7 @@ _S = Settings()
 OPTION_DEFAULTS = {"mix_paints": str(_S.mix_paints), "max_parts": str(_S.max_parts), "tolerance": f"{_S.tolerance_de:g}",
                    "stroke_cost": f"{_S.stroke_cost:g}", "coverage": f"{quantities.COVERAGE_M2_PER_L:g}",
                    "ground_coats": str(quantities.GROUND_COATS), "stroke_coats": str(quantities.STROKE_COATS),
-                   "waste": f"{quantities.WASTE * 100:g}", "grid": ""}  # grid: empty = layerplan.report.default_grid_mm
+                   "waste": f"{quantities.WASTE * 100:g}%", "grid": ""}  # grid: empty = layerplan.report.default_grid_mm
 #: what the start page's form holds before anyone types
 FORM_DEFAULTS = {"wall_width": "3", "wall_height": "", "unit": "m", "paints": "8", "kit": forms.DEFAULT_KIT,
                  "brushes": "", "fit": "cover", "seed": "0", "pixel_mm": "", "inventory": "default",
