@@ -18,9 +18,6 @@ from .settings import HARD_MAX_RASTER_PX, MAX_WALL_MM, MIN_RASTER_SIDE_PX, Setti
 
 #: share of the progress bar given to each phase (planning strokes dominates)
 _P_PREP, _P_LAYERS, _P_RELAX = 0.12, 0.5, 0.3
-#: relaxation passes over all strokes after the last layer, and moves tried per stroke and pass; deleting
-#: strokes by their cost is off: on the bench it gave worse pictures for the same stroke count (issue 4)
-RELAX_PASSES, RELAX_TRIES, RELAX_DELETE = 3, 60, False
 
 
 def _noop(fraction: float, message: str) -> None:
@@ -48,7 +45,7 @@ def mix_palette(pal_rgb: np.ndarray, pal_lab: np.ndarray, settings: Settings):
         that snap to the same colour are merged (the first, lightest, keeps its recipe) and the
         result is ordered lightest first again. With ``free_palette`` the input, unchanged.
     recipes : list of dict
-        One recipe (issue 3 JSON form) per returned paint; ``target`` is the k-means colour.
+        One recipe (:meth:`layerplan.recipes.Recipe.to_dict` form) per returned paint; ``target`` is the k-means colour.
     inventory : list of dict
         The stock paints, ``{"name", "srgb", "tinting_strength", "containers_l"}``, for plan.json.
 
@@ -176,8 +173,7 @@ def make_plan(image: np.ndarray, settings: Settings, *, progress=None) -> Plan:
     all_points, all_paints, alive, _ = relax_strokes(
         planes, ground, [p for r in placed for p in r.points], layer_of, np.concatenate([r.paints for r in placed]),
         [spec.limits for spec in specs], [spec.cost for spec in specs], thetas, mm_per_px=s,
-        wall_mm=(wall_w, wall_h), seed=settings.seed * 7919, passes=RELAX_PASSES, tries=RELAX_TRIES,
-        delete=RELAX_DELETE, progress=relaxed,
+        wall_mm=(wall_w, wall_h), seed=settings.seed * 7919, progress=relaxed,
     )
     report(_P_PREP + _P_LAYERS + _P_RELAX, "taking away strokes later ones hid")
     live = np.flatnonzero(alive)
