@@ -267,8 +267,9 @@ def place_births(planes, best_err, canvas, err, grid, theta, births, brush, sear
         bj = births[b, 1]
         if err[bi, bj] - best_err[bi, bj] <= 0.0:
             continue
-        # start as a dab on the birth pixel; the moves grow it along the isophotes
-        n = 1
+        # start as a dab on the birth pixel; the moves grow it along the isophotes (n typed int64, not
+        # the literal 1, so the helpers keep one compiled form)
+        n = np.int64(1)
         cur[0, 0] = _round_grid(min(max((bj + 0.5) * s, 0.0), wall[0]))
         cur[0, 1] = _round_grid(min(max((bi + 0.5) * s, 0.0), wall[1]))
         if not _valid(cur, n, brush, wall):
