@@ -492,7 +492,7 @@ def paint_use(
 
 
 def _recipe_parts(paint_id: str, recipe) -> list[tuple[str, float]]:
-    """``[(stock name, parts), ...]`` from a recipe (issue 3 format), checked."""
+    """``[(stock name, parts), ...]`` from a recipe (the form of ``Recipe.to_dict``), checked."""
     try:
         parts = [(str(q["paint"]), float(q["parts"])) for q in recipe["parts"]]
     except (KeyError, TypeError, ValueError) as exc:

@@ -81,7 +81,7 @@ class Settings:
     stroke_cost: float = DEFAULT_STROKE_COST
     inventory: str | None = None
     free_palette: bool = False
-    mix_paints: int = 3  # issue 3 defaults: 3 paints, 10 parts, ΔE00 3
+    mix_paints: int = 3  # the recipes' defaults: 3 paints, 10 parts, ΔE00 3 (see layerplan.recipes)
     max_parts: int = 10
     tolerance_de: float = 3.0
     extra: dict[str, Any] = field(default_factory=dict, compare=False)
