@@ -1,6 +1,7 @@
 """`layerplan plan` writes the printable outputs, and `layerplan render` rebuilds them
-from a plan.json with other quantity options (issue 5). Quantities are checked against
-the issue's formula worked by hand; bad options exit non-zero leaving nothing behind."""
+from a plan.json with other quantity options. Quantities are checked against the
+formula worked by hand (area × coats / coverage × (1 + waste)); bad options exit non-zero
+leaving nothing behind."""
 
 from __future__ import annotations
 
@@ -41,7 +42,7 @@ def test_plan_writes_html_svgs_and_quantities(planned):
     _, out = planned
     doc = json.loads((out / "plan.json").read_text())
     assert doc["paint_use"]["coverage_m2_per_litre"] == 8.0 and doc["paint_use"]["waste"] == 0.1
-    # formula of issue 5 by hand: 0.48 m² × 3 coats / 8 m²/L × 1.1, plus the ground paint's own strokes
+    # by hand: 0.48 m² × 3 coats / 8 m²/L × 1.1, plus the ground paint's own strokes
     ground = next(p for p in doc["paint_use"]["paints"] if p["paint"] == doc["ground"]["paint"])
     expect = (0.48 * 3 + ground["stroke_area_m2"] * 1) / 8 * 1.1
     assert ground["litres"] == pytest.approx(expect, abs=1e-3)

@@ -1,5 +1,6 @@
 """The printable plan (layerplan/report.py), read back with Python's own HTML parser
-(html.parser) and Pillow: every section issue 5 lists, every paint, embedded pictures only.
+(html.parser) and Pillow: every section layerplan/report.py names, every paint, embedded
+pictures only.
 """
 
 from __future__ import annotations
