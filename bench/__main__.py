@@ -340,8 +340,8 @@ def render_md(info, photos, scaling, memory, four_brush, results, quick, total_s
              "\"idle\" = VmRSS just before `make_plan`).")
     L.append("- Caveat on scaling: the bigger rasters are the same photo upsampled, so they hold less detail per "
              "pixel and need fewer strokes per pixel; a slope below 1 partly reflects that. Timings are judged on "
-             "wall time, what a painter waits for; the CPU-time ratio (the placer and `error_planes` are single-threaded) "
-             "is shown in brackets because other jobs share this machine.")
+             "wall time, what a painter waits for; the CPU-time ratio (the placer and `error_planes` are "
+             "single-threaded) is shown in brackets because other jobs share this machine.")
     L.append(f"- Four-brush figure: {FOUR_BRUSH_MP:g} MP, {PAINTS} paints, brushes "
              f"{'/'.join(f'{b:g}' for b in FOUR_BRUSH_BRUSHES_MM)} mm at {FOUR_BRUSH_MM_PER_PX:g} mm per pixel "
              "(the CLI's "

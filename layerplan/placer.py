@@ -345,11 +345,11 @@ def relax_strokes(planes, ground: int, points, layer_of, paints, limits, costs, 
     wall_mm : (float, float)
     seed : int
     passes : int
-        Relaxation passes over all strokes.
+        Relaxation passes over all strokes (default `RELAX_PASSES`, as the planner uses).
     tries : int
-        Random local moves tried per stroke and pass.
+        Random local moves tried per stroke and pass (default `RELAX_TRIES`).
     delete : bool
-        Whether deleting a stroke is one of the moves.
+        Whether deleting a stroke is one of the moves (default `RELAX_DELETE`: off).
     progress : callable(fraction, message), optional
         Called after each pass.
 
