@@ -21,9 +21,6 @@ from .settings import Settings
 
 #: share of the progress bar given to each phase (planning strokes dominates)
 _P_PREP, _P_LAYERS, _P_RELAX = 0.12, 0.5, 0.3
-#: relaxation passes over all strokes after the last layer, and moves tried per stroke and pass; deleting
-#: strokes by their cost is off: on the bench it gave worse pictures for the same stroke count
-RELAX_PASSES, RELAX_TRIES, RELAX_DELETE = 3, 60, False
 
 
 def _noop(fraction: float, message: str) -> None:
@@ -173,8 +170,7 @@ def make_plan(image: np.ndarray, settings: Settings, *, progress=None) -> Plan:
     all_points, all_paints, alive, _ = relax_strokes(
         planes, ground, [p for r in placed for p in r.points], layer_of, np.concatenate([r.paints for r in placed]),
         [spec.limits for spec in specs], [spec.cost for spec in specs], thetas, mm_per_px=s,
-        wall_mm=(wall_w, wall_h), seed=settings.seed * 7919, passes=RELAX_PASSES, tries=RELAX_TRIES,
-        delete=RELAX_DELETE, progress=relaxed,
+        wall_mm=(wall_w, wall_h), seed=settings.seed * 7919, progress=relaxed,
     )
     report(_P_PREP + _P_LAYERS + _P_RELAX, "taking away strokes later ones hid")
     live = np.flatnonzero(alive)

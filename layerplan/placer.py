@@ -16,6 +16,11 @@ Brushes much wider than a few pixels are refined on block sums of the planes and
 checked exactly before they are painted. After the last layer, `relax_strokes`
 revisits every stroke against the finished picture.
 
+This module is the Python side: it checks and packs the inputs of the compiled kernels in
+:mod:`layerplan._placer_kernels`. A brush's limits reach them as one record
+(:data:`BRUSH_RECORD`, packed by :func:`brush_records`), so a new limit is a field of
+`BrushLimits` and a check in the kernels' ``_valid``.
+
 References
 ----------
 A. Hertzmann, "Paint by Relaxation", Proc. Computer Graphics International, 2001.
@@ -28,16 +33,13 @@ J. Bigun, G. Granlund, "Optimal orientation detection of linear symmetry", ICCV 
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, fields
 
 import numpy as np
-from numba import njit
 
-from .raster import MAX_POINTS, footprint_runs, footprint_scratch, push_pair, stack_tops
+from . import _placer_kernels as kernels
+from .raster import MAX_POINTS, stack_tops
 
-#: stroke points are kept on a 0.1 mm grid so plan.json holds them exactly
-POINT_GRID_MM = 0.1
-START_DAB = True
 #: after this many refinement moves a stroke must have reached GIVE_UP × its cost, or it is dropped
 PROBE = 12
 GIVE_UP = 0.7
@@ -48,6 +50,12 @@ EVAL_BRUSH_PX = 5
 #: needs small bends (on chelsea: about 40 % more energy removed per pass than uniform odds)
 PLACE_MOVES, PLACE_BEND = (2.0, 2.0, 0.5, 1.0, 1.0, 2.0), 0.6
 RELAX_MOVES, RELAX_BEND = (0.5, 0.5, 0.5, 1.0, 1.0, 8.0), 0.5
+#: relaxation passes over all strokes after the last layer, and moves tried per stroke and pass; deleting
+#: strokes by their cost is off: on the bench it gave worse pictures for the same stroke count
+RELAX_PASSES, RELAX_TRIES, RELAX_DELETE = 3, 60, False
+#: the placement search's knobs as the compiled code reads them (see `place_layer`)
+SEARCH_RECORD = np.dtype([("cost", np.float64), ("tries", np.int64), ("patience", np.int64), ("probe", np.int64),
+                          ("give_up", np.float64)])
 
 
 def _cumulative(odds) -> np.ndarray:
@@ -92,307 +100,28 @@ class BrushLimits:
         )
 
 
-@njit(cache=True, nogil=True)
-def _round_grid(v):
-    return np.round(v * 10.0) / 10.0
+#: `BrushLimits` as the compiled code reads it: its fields, then the turn limit in radians and its cosine
+BRUSH_RECORD = np.dtype([(f.name, np.float64) for f in fields(BrushLimits)]
+                        + [("max_turn_rad", np.float64), ("cos_max_turn", np.float64)])
 
 
-@njit(cache=True, nogil=True)
-def _footprint_px(pts, n, width_mm, s, h, w, stamp, stamp_id, buf_i, buf_j, runs, row_ab, row_n):
-    """`raster.footprint_runs` as a pixel list in buf_i/buf_j, each pixel marked ``stamp[i, j] = stamp_id``.
+def brush_records(limits) -> np.ndarray:
+    """Pack brush limits for the compiled kernels.
 
-    Returns the list's length.
+    Parameters
+    ----------
+    limits : sequence of BrushLimits
+
+    Returns
+    -------
+    records : (L,) BRUSH_RECORD array
     """
-    nr = footprint_runs(pts, n, width_mm, s, h, w, runs, row_ab, row_n)
-    c = 0
-    for r in range(nr):
-        i = runs[r, 0]
-        for j in range(runs[r, 1], runs[r, 2] + 1):
-            stamp[i, j] = stamp_id
-            buf_i[c] = i
-            buf_j[c] = j
-            c += 1
-    return c
-
-
-@njit(cache=True, nogil=True)
-def _footprint_gain(pts, n, width_mm, s, planes, err, sums, runs, row_ab, row_n):
-    """Gain of painting the stroke with each paint; returns (best gain, best paint, run count).
-
-    The pixels are `raster.footprint_runs`'s (exactly the rendering rule's set), left in ``runs``.
-    """
-    h, w, k = planes.shape
-    c = footprint_runs(pts, n, width_mm, s, h, w, runs, row_ab, row_n)
-    base = 0.0
-    for q in range(k):
-        sums[q] = 0.0
-    for t in range(c):
-        i = runs[t, 0]
-        for j in range(runs[t, 1], runs[t, 2] + 1):
-            base += err[i, j]
-            for q in range(k):
-                sums[q] += planes[i, j, q]
-    best = -1e30
-    bq = 0
-    for q in range(k):
-        g = base - sums[q]
-        if g > best:
-            best = g
-            bq = q
-    return best, bq, c
-
-
-@njit(cache=True, nogil=True)
-def _valid(pts, n, width_mm, min_len, max_len, min_seg, max_seg, cos_max_turn, wall_w, wall_h):
-    """Check a candidate polyline against the brush limits and the wall."""
-    for p in range(n):
-        if pts[p, 0] < 0.0 or pts[p, 0] > wall_w or pts[p, 1] < 0.0 or pts[p, 1] > wall_h:
-            return False
-    total = 0.0
-    for p in range(n - 1):
-        dx = pts[p + 1, 0] - pts[p, 0]
-        dy = pts[p + 1, 1] - pts[p, 1]
-        L = math.sqrt(dx * dx + dy * dy)
-        if L < min_seg - 1e-6 or L > max_seg + 1e-6:
-            return False
-        total += L
-        if p > 0:
-            ex = pts[p, 0] - pts[p - 1, 0]
-            ey = pts[p, 1] - pts[p - 1, 1]
-            le = math.sqrt(ex * ex + ey * ey)
-            if (ex * dx + ey * dy) < cos_max_turn * le * L - 1e-9:
-                return False
-    length = total + width_mm
-    return length >= min_len - 1e-6 and length <= max_len + 1e-6
-
-
-@njit(cache=True, nogil=True)
-def _angle_at(theta, x, y, s):
-    h, w = theta.shape
-    j = min(w - 1, max(0, int(x / s)))
-    i = min(h - 1, max(0, int(y / s)))
-    return theta[i, j]
-
-
-@njit(cache=True, nogil=True)
-def _propose(cur, n, cand, theta, s, step, max_turn, moves, bend):
-    """One random local move of the stroke cur[:n] into cand (which holds a copy of cur).
-
-    Lengthen at either end turning toward the isophote, shorten, shift, turn, or bend a
-    vertex (by ``bend`` × 0.25 brush widths, standard deviation); ``moves`` holds the
-    cumulative probabilities of the six moves in that order (lengthen at one end counts
-    twice). Returns the candidate's vertex count, or 0 when the move does not apply.
-    """
-    m = n
-    u = np.random.random()
-    move = 0
-    while move < 5 and u > moves[move]:
-        move += 1
-    if move <= 1:
-        # lengthen at one end, turning toward the isophote there
-        if n >= MAX_POINTS:
-            return 0
-        at_end = np.random.randint(0, 2) == 1 or n == 1
-        if n == 1:
-            ang = _angle_at(theta, cur[0, 0], cur[0, 1], s)
-            ex = cur[0, 0]
-            ey = cur[0, 1]
-            dirx = math.cos(ang)
-            diry = math.sin(ang)
-        elif at_end:
-            ex = cur[n - 1, 0]
-            ey = cur[n - 1, 1]
-            dirx = cur[n - 1, 0] - cur[n - 2, 0]
-            diry = cur[n - 1, 1] - cur[n - 2, 1]
-        else:
-            ex = cur[0, 0]
-            ey = cur[0, 1]
-            dirx = cur[0, 0] - cur[1, 0]
-            diry = cur[0, 1] - cur[1, 1]
-        ln = math.sqrt(dirx * dirx + diry * diry)
-        if ln <= 0.0:
-            return 0
-        dirx /= ln
-        diry /= ln
-        ang = _angle_at(theta, ex, ey, s)
-        tx = math.cos(ang)
-        ty = math.sin(ang)
-        if tx * dirx + ty * diry < 0.0:
-            tx = -tx
-            ty = -ty
-        # blend toward the isophote with a random wobble, then clamp the turn
-        cur_a = math.atan2(diry, dirx)
-        want = math.atan2(ty, tx)
-        d = want - cur_a
-        while d > math.pi:
-            d -= 2 * math.pi
-        while d < -math.pi:
-            d += 2 * math.pi
-        d += np.random.normal() * 0.3
-        d = max(-max_turn, min(max_turn, d))
-        na = cur_a + d
-        seg_len = step * (0.75 + 0.5 * np.random.random())
-        nx = _round_grid(ex + seg_len * math.cos(na))
-        ny = _round_grid(ey + seg_len * math.sin(na))
-        if at_end:
-            cand[n, 0] = nx
-            cand[n, 1] = ny
-        else:
-            for p in range(n, 0, -1):
-                cand[p, 0] = cand[p - 1, 0]
-                cand[p, 1] = cand[p - 1, 1]
-            cand[0, 0] = nx
-            cand[0, 1] = ny
-        m = n + 1
-    elif move == 2:
-        # shorten: drop one end vertex
-        if n <= 1:
-            return 0
-        if np.random.randint(0, 2) == 1:
-            m = n - 1
-        else:
-            for p in range(n - 1):
-                cand[p, 0] = cur[p + 1, 0]
-                cand[p, 1] = cur[p + 1, 1]
-            m = n - 1
-    elif move == 3:
-        # shift the whole stroke
-        dx = np.random.normal() * 0.3 * step
-        dy = np.random.normal() * 0.3 * step
-        for p in range(n):
-            cand[p, 0] = _round_grid(cur[p, 0] + dx)
-            cand[p, 1] = _round_grid(cur[p, 1] + dy)
-    elif move == 4:
-        # turn about the centroid
-        if n <= 1:
-            return 0
-        mx = 0.0
-        my = 0.0
-        for p in range(n):
-            mx += cur[p, 0]
-            my += cur[p, 1]
-        mx /= n
-        my /= n
-        da = np.random.normal() * 0.25
-        ca = math.cos(da)
-        sa = math.sin(da)
-        for p in range(n):
-            ox = cur[p, 0] - mx
-            oy = cur[p, 1] - my
-            cand[p, 0] = _round_grid(mx + ca * ox - sa * oy)
-            cand[p, 1] = _round_grid(my + sa * ox + ca * oy)
-    else:
-        # bend: move one vertex
-        p = np.random.randint(0, n)
-        cand[p, 0] = _round_grid(cur[p, 0] + np.random.normal() * 0.25 * bend * step)
-        cand[p, 1] = _round_grid(cur[p, 1] + np.random.normal() * 0.25 * bend * step)
-    return m
-
-@njit(cache=True, nogil=True)
-def _place_layer(planes, best_err, canvas, err, planes_c, err_c, f, theta, births, width_mm, s,
-                 cost, min_len, max_len, min_seg, max_seg, max_turn, wall_w, wall_h,
-                 tries, patience, probe, give_up, seed, start_dab, moves, bend, out_pts, out_n, out_paint, out_gain,
-                 start_count):
-    """Place strokes for one layer from the given birth pixels; returns the stroke count.
-
-    Moves are judged on the evaluation grid (planes_c, err_c: sums over f×f pixel blocks; the
-    full raster itself when f == 1, err_c then a float64 copy of err); a stroke is painted only
-    if its exact gain on the raster beats its cost, and then with its exact best paint.
-    """
-    np.random.seed(seed)
-    h, w, k = planes.shape
-    cos_max_turn = math.cos(max_turn)
-    step = width_mm
-    s_c = s * f
-    runs, row_ab, row_n = footprint_scratch(h, MAX_POINTS)
-    runs_c, row_ab_c, row_n_c = footprint_scratch(planes_c.shape[0], MAX_POINTS)
-    sums = np.empty(k, np.float64)
-    cur = np.zeros((MAX_POINTS, 2), np.float64)
-    cand = np.zeros((MAX_POINTS, 2), np.float64)
-    count = start_count
-    max_strokes = out_pts.shape[0]
-    for b in range(births.shape[0]):
-        if count >= max_strokes:
-            break
-        bi = births[b, 0]
-        bj = births[b, 1]
-        if err[bi, bj] - best_err[bi, bj] <= 0.0:
-            continue
-        cx = (bj + 0.5) * s
-        cy = (bi + 0.5) * s
-        a = theta[bi, bj]
-        hx = 0.5 * step * math.cos(a)
-        hy = 0.5 * step * math.sin(a)
-        # start as a one-segment stroke through the birth pixel, or a dab if that won't fit
-        n = 2
-        if start_dab:
-            n = 1
-            cur[0, 0] = _round_grid(min(max(cx, 0.0), wall_w))
-            cur[0, 1] = _round_grid(min(max(cy, 0.0), wall_h))
-        cur[0, 0] = _round_grid(cx - hx) if n == 2 else cur[0, 0]
-        cur[0, 1] = _round_grid(cy - hy) if n == 2 else cur[0, 1]
-        cur[1, 0] = _round_grid(cx + hx)
-        cur[1, 1] = _round_grid(cy + hy)
-        if not _valid(cur, n, width_mm, min_len, max_len, min_seg, max_seg, cos_max_turn, wall_w, wall_h):
-            n = 1
-            cur[0, 0] = _round_grid(min(max(cx, 0.0), wall_w))
-            cur[0, 1] = _round_grid(min(max(cy, 0.0), wall_h))
-            if not _valid(cur, n, width_mm, min_len, max_len, min_seg, max_seg, cos_max_turn, wall_w, wall_h):
-                continue
-        gain, paint, nr = _footprint_gain(cur, n, width_mm, s_c, planes_c, err_c, sums, runs_c, row_ab_c, row_n_c)
-        fails = 0
-        for t in range(tries):
-            if fails >= patience:
-                break
-            # a stroke still far from paying its cost after a few moves is not worth refining
-            if t == probe and gain < give_up * cost:
-                break
-            for p in range(n):
-                cand[p, 0] = cur[p, 0]
-                cand[p, 1] = cur[p, 1]
-            m = _propose(cur, n, cand, theta, s, step, max_turn, moves, bend)
-            if m == 0:
-                fails += 1
-                continue
-            if not _valid(cand, m, width_mm, min_len, max_len, min_seg, max_seg, cos_max_turn, wall_w, wall_h):
-                fails += 1
-                continue
-            g2, q2, _ = _footprint_gain(cand, m, width_mm, s_c, planes_c, err_c, sums, runs_c, row_ab_c, row_n_c)
-            if g2 > gain + 1e-9:
-                gain = g2
-                paint = q2
-                n = m
-                for p in range(m):
-                    cur[p, 0] = cand[p, 0]
-                    cur[p, 1] = cand[p, 1]
-                fails = 0
-            else:
-                fails += 1
-        if f > 1:
-            if gain <= give_up * cost:
-                continue
-            gain, paint, nr = _footprint_gain(cur, n, width_mm, s, planes, err, sums, runs, row_ab, row_n)
-        elif gain > cost:
-            # the last evaluation may have been a refused move: the kept stroke's pixels again
-            nr = footprint_runs(cur, n, width_mm, s, h, w, runs, row_ab, row_n)
-        if gain > cost:
-            for c in range(nr):
-                i = runs[c, 0]
-                for j in range(runs[c, 1], runs[c, 2] + 1):
-                    if f > 1:
-                        err_c[i // f, j // f] += planes[i, j, paint] - err[i, j]
-                    else:
-                        err_c[i, j] = planes[i, j, paint]
-                    canvas[i, j] = paint
-                    err[i, j] = planes[i, j, paint]
-            for p in range(n):
-                out_pts[count, p, 0] = cur[p, 0]
-                out_pts[count, p, 1] = cur[p, 1]
-            out_n[count] = n
-            out_paint[count] = paint
-            out_gain[count] = gain
-            count += 1
-    return count
+    out = np.zeros(len(limits), dtype=BRUSH_RECORD)
+    for f in fields(BrushLimits):
+        out[f.name] = [getattr(lim, f.name) for lim in limits]
+    out["max_turn_rad"] = [math.radians(lim.max_turn_deg) for lim in limits]
+    out["cos_max_turn"] = [math.cos(math.radians(lim.max_turn_deg)) for lim in limits]
+    return out
 
 
 def block_sums(a: np.ndarray, f: int) -> np.ndarray:
@@ -490,6 +219,12 @@ def place_layer(planes, canvas, err, theta, limits: BrushLimits, *, mm_per_px: f
     out_n = np.zeros(max_strokes, np.int64)
     out_paint = np.zeros(max_strokes, np.int64)
     out_gain = np.zeros(max_strokes, np.float64)
+    out = (out_pts, out_n, out_paint, out_gain)
+    grid = (planes_c, err_c, f)
+    brush = brush_records([limits])[0]
+    search = np.array((cost, tries, patience, PROBE, GIVE_UP), dtype=SEARCH_RECORD)[()]
+    wall = (float(wall_mm[0]), float(wall_mm[1]))
+    moves = _cumulative(PLACE_MOVES)
     before = float(err.sum(dtype=np.float64))
     count = 0
     for r in range(rounds):
@@ -504,13 +239,9 @@ def place_layer(planes, canvas, err, theta, limits: BrushLimits, *, mm_per_px: f
         flat = rng.choice(h * w, size=n_births, replace=False, p=room / total)
         births = np.stack([flat // w, flat % w], axis=1).astype(np.int64)
         prev = count
-        count = _place_layer(
-            planes, best_err, canvas, err, planes_c, err_c, f, theta, births,
-            float(limits.width_mm), float(mm_per_px),
-            float(cost), float(limits.min_length_mm), float(limits.max_length_mm), float(limits.min_segment_mm),
-            float(limits.max_segment_mm), math.radians(limits.max_turn_deg), float(wall_mm[0]), float(wall_mm[1]),
-            int(tries), int(patience), PROBE, GIVE_UP, int(seed * 1000 + r), START_DAB, _cumulative(PLACE_MOVES),
-            PLACE_BEND, out_pts, out_n, out_paint, out_gain, count,
+        count = kernels.place_births(
+            planes, best_err, canvas, err, grid, theta, births, brush, search, float(mm_per_px), wall, moves,
+            PLACE_BEND, int(seed * 1000 + r), out, count,
         )
         if progress is not None:
             progress((r + 1) / rounds, f"{count} strokes")
@@ -526,35 +257,6 @@ def place_layer(planes, canvas, err, theta, limits: BrushLimits, *, mm_per_px: f
         error_after=float(err.sum(dtype=np.float64)),
         cost=float(cost),
     )
-
-
-@njit(cache=True, nogil=True)
-def _contributions(planes, top_idx, top_paint, under_paint, n):
-    """Error each stroke removes from the final picture: what would show without it, minus what shows."""
-    h, w, _ = planes.shape
-    out = np.zeros(n, np.float64)
-    for i in range(h):
-        for j in range(w):
-            t = top_idx[i, j]
-            if t >= 0:
-                out[t] += planes[i, j, under_paint[i, j]] - planes[i, j, top_paint[i, j]]
-    return out
-
-
-@njit(cache=True, nogil=True)
-def _conflicts(top_idx, under_idx, candidate):
-    """Pairs (top, under) of candidate strokes that meet at a pixel: removing both is not additive."""
-    h, w = top_idx.shape
-    out = np.empty((256, 2), np.int64)
-    c = 0
-    for i in range(h):
-        for j in range(w):
-            t = top_idx[i, j]
-            u = under_idx[i, j]
-            if t >= 0 and u >= 0 and candidate[t] and candidate[u]:
-                out = push_pair(out, c, t, u)
-                c += 1
-    return out[:c]
 
 
 def prune_strokes(planes, ground: int, points, widths, paints, *, mm_per_px: float, max_passes: int = 30):
@@ -597,11 +299,11 @@ def prune_strokes(planes, ground: int, points, widths, paints, *, mm_per_px: flo
     for _ in range(max_passes):
         top_idx, top_paint, under_paint, under_idx = stack_tops(
             h, w, float(mm_per_px), all_pts, starts, counts, widths, paints, alive, int(ground))
-        gain = _contributions(planes, top_idx, top_paint, under_paint, n)
+        gain = kernels.contributions(planes, top_idx, top_paint, under_paint, n)
         candidate = alive & (gain <= 0.0)
         if not candidate.any():
             break
-        pairs = _conflicts(top_idx, under_idx, candidate)
+        pairs = kernels.conflicts(top_idx, under_idx, candidate)
         blocked = np.zeros(n, dtype=np.bool_)
         # least useful first; a stroke meeting one already chosen waits for the next pass
         partners: dict[int, list[int]] = {}
@@ -617,203 +319,9 @@ def prune_strokes(planes, ground: int, points, widths, paints, *, mm_per_px: flo
     return alive
 
 
-@njit(cache=True, nogil=True)
-def _visible(st, paint, old_i, old_j, nold, top_idx, under_paint, stale, planes, vis_i, vis_j, vis_d, vis_s):
-    """The pixels of stroke st's footprint where it is on top: the error change if each showed the paint under it,
-    and whether that paint is stale. Returns their count."""
-    c = 0
-    for t in range(nold):
-        i = old_i[t]
-        j = old_j[t]
-        if top_idx[i, j] == st:
-            vis_i[c] = i
-            vis_j[c] = j
-            vis_d[c] = planes[i, j, under_paint[i, j]] - planes[i, j, paint]
-            vis_s[c] = stale[i, j]
-            c += 1
-    return c
-
-
-@njit(cache=True, nogil=True)
-def _relax_pass(planes, top_idx, top_paint, under_idx, under_paint, stale, all_pts, counts, paints, alive,
-                layer_of, thetas, widths, costs, min_len, max_len, min_seg, max_seg, max_turn, wall_w, wall_h,
-                s, tries, seed, delete, moves, bend):
-    """One relaxation pass over every live stroke, in file order; returns the energy change (≤ 0).
-
-    For stroke k, a candidate geometry F' with paint q changes the finished picture only where
-    k is on top after or before the move: pixels of F' not covered by a later stroke take q, and
-    pixels of the old footprint F where k was on top but F' no longer covers show the paint just
-    under k. The (top, under) stack is kept exact after each accepted move except for the
-    "under" of pixels k uncovered (or had been directly under the top): those are marked stale,
-    and a candidate needing a stale "under" is refused until the next pass rebuilds the stack.
-    Deleting k (energy change: the error it uncovers minus its cost) is tried first.
-    """
-    np.random.seed(seed)
-    h, w, k = planes.shape
-    n_strokes = counts.shape[0]
-    stamp = np.zeros((h, w), np.int32)
-    stamp_id = 0
-    cap = 1
-    for t in range(n_strokes):
-        r_px = int(math.ceil(widths[layer_of[t]] / s)) + 2
-        cap = max(cap, (2 * r_px + 2) * (2 * r_px + 2) * MAX_POINTS * 2)
-    cap = min(cap, h * w)
-    old_i = np.empty(cap, np.int32)
-    old_j = np.empty(cap, np.int32)
-    new_i = np.empty(cap, np.int32)
-    new_j = np.empty(cap, np.int32)
-    vis_i = np.empty(cap, np.int32)
-    vis_j = np.empty(cap, np.int32)
-    vis_d = np.empty(cap, np.float64)
-    vis_s = np.empty(cap, np.bool_)
-    sums = np.empty(k, np.float64)
-    runs, row_ab, row_n = footprint_scratch(h, MAX_POINTS)
-    cur = np.zeros((MAX_POINTS, 2), np.float64)
-    cand = np.zeros((MAX_POINTS, 2), np.float64)
-    total = 0.0
-    for st in range(n_strokes):
-        if not alive[st]:
-            continue
-        lay = layer_of[st]
-        width = widths[lay]
-        cos_max_turn = math.cos(max_turn[lay])
-        n = counts[st]
-        for p in range(n):
-            cur[p, 0] = all_pts[st, p, 0]
-            cur[p, 1] = all_pts[st, p, 1]
-        paint = paints[st]
-        stamp_id += 1
-        old_id = stamp_id
-        nold = _footprint_px(cur, n, width, s, h, w, stamp, old_id, old_i, old_j, runs, row_ab, row_n)
-        nvis = _visible(st, paint, old_i, old_j, nold, top_idx, under_paint, stale, planes, vis_i, vis_j, vis_d, vis_s)
-        # delete: k's visible pixels show what is under them
-        uncover = 0.0
-        ok = True
-        for v in range(nvis):
-            if vis_s[v]:
-                ok = False
-                break
-            uncover += vis_d[v]
-        if delete and ok and uncover - costs[lay] < -1e-9:
-            # stamp ids are never negative: every pixel of the old footprint is uncovered
-            _uncover(st, old_i, old_j, nold, stamp, -1, top_idx, top_paint, under_idx, under_paint, stale)
-            alive[st] = False
-            total += uncover - costs[lay]
-            continue
-        # recolour in place, then random local moves; each candidate takes its best paint
-        for t in range(tries + 1):
-            m = n
-            for p in range(n):
-                cand[p, 0] = cur[p, 0]
-                cand[p, 1] = cur[p, 1]
-            if t > 0:
-                m = _propose(cur, n, cand, thetas[lay], s, width, max_turn[lay], moves, bend)
-                if m == 0:
-                    continue
-                if not _valid(cand, m, width, min_len[lay], max_len[lay], min_seg[lay], max_seg[lay], cos_max_turn,
-                              wall_w, wall_h):
-                    continue
-            stamp_id += 1
-            new_id = stamp_id
-            nnew = _footprint_px(cand, m, width, s, h, w, stamp, new_id, new_i, new_j, runs, row_ab, row_n)
-            for q in range(k):
-                sums[q] = 0.0
-            base = 0.0
-            for c in range(nnew):
-                i = new_i[c]
-                j = new_j[c]
-                if top_idx[i, j] <= st:
-                    base -= planes[i, j, top_paint[i, j]]
-                    for q in range(k):
-                        sums[q] += planes[i, j, q]
-            ok = True
-            for v in range(nvis):
-                if stamp[vis_i[v], vis_j[v]] != new_id:
-                    if vis_s[v]:
-                        ok = False
-                        break
-                    base += vis_d[v]
-            if not ok:
-                continue
-            bq = 0
-            bd = 1e300
-            for q in range(k):
-                if sums[q] < bd:
-                    bd = sums[q]
-                    bq = q
-            d = base + bd
-            if d < -1e-9:
-                # keep the move and climb from the better stroke
-                n = m
-                for p in range(m):
-                    cur[p, 0] = cand[p, 0]
-                    cur[p, 1] = cand[p, 1]
-                    all_pts[st, p, 0] = cand[p, 0]
-                    all_pts[st, p, 1] = cand[p, 1]
-                # the old footprint and the stack still describe the stroke as it was: apply now
-                _apply_move(st, bq, new_i, new_j, nnew, old_i, old_j, nold, stamp, top_idx, top_paint, under_idx,
-                            under_paint, stale, new_id)
-                total += d
-                paint = bq
-                # the applied footprint is the stroke's footprint from here on
-                old_i[:nnew] = new_i[:nnew]
-                old_j[:nnew] = new_j[:nnew]
-                nold = nnew
-                nvis = _visible(st, paint, old_i, old_j, nold, top_idx, under_paint, stale, planes, vis_i, vis_j,
-                                vis_d, vis_s)
-        counts[st] = n
-        paints[st] = paint
-    return total
-
-
-@njit(cache=True, nogil=True)
-def _uncover(st, old_i, old_j, nold, stamp, keep_id, top_idx, top_paint, under_idx, under_paint, stale):
-    """Take stroke st off the stack at the old footprint's pixels not stamped keep_id.
-
-    Where st was on top, the stroke under it shows; its own "under" is then unknown, as is the
-    "under" of pixels where st was just under the top: both are marked stale.
-    """
-    for c in range(nold):
-        i = old_i[c]
-        j = old_j[c]
-        if stamp[i, j] == keep_id:
-            continue
-        if top_idx[i, j] == st:
-            top_idx[i, j] = under_idx[i, j]
-            top_paint[i, j] = under_paint[i, j]
-            stale[i, j] = True
-        elif under_idx[i, j] == st:
-            stale[i, j] = True
-
-
-@njit(cache=True, nogil=True)
-def _apply_move(st, q, new_i, new_j, nnew, old_i, old_j, nold, stamp, top_idx, top_paint, under_idx, under_paint,
-                stale, new_id):
-    """Update the (top, under) stack after stroke st moved from footprint old to new (stamped new_id) with paint q."""
-    _uncover(st, old_i, old_j, nold, stamp, new_id, top_idx, top_paint, under_idx, under_paint, stale)
-    for c in range(nnew):
-        i = new_i[c]
-        j = new_j[c]
-        t = top_idx[i, j]
-        if t == st:
-            top_paint[i, j] = q
-        elif t < st:
-            under_idx[i, j] = t
-            under_paint[i, j] = top_paint[i, j]
-            top_idx[i, j] = st
-            top_paint[i, j] = q
-            stale[i, j] = False
-        elif not stale[i, j]:
-            u = under_idx[i, j]
-            if u == st:
-                under_paint[i, j] = q
-            elif u < st:
-                under_idx[i, j] = st
-                under_paint[i, j] = q
-
-
 def relax_strokes(planes, ground: int, points, layer_of, paints, limits, costs, thetas, *, mm_per_px: float,
-                  wall_mm, seed: int, passes: int = 2, tries: int = 20, delete: bool = True, progress=None):
+                  wall_mm, seed: int, passes: int = RELAX_PASSES, tries: int = RELAX_TRIES, delete: bool = RELAX_DELETE,
+                  progress=None):
     """Revisit every stroke of the finished picture and keep local moves that lower its energy.
 
     After all layers are placed, each stroke in turn (file order) may be deleted, recoloured,
@@ -837,11 +345,11 @@ def relax_strokes(planes, ground: int, points, layer_of, paints, limits, costs, 
     wall_mm : (float, float)
     seed : int
     passes : int
-        Relaxation passes over all strokes.
+        Relaxation passes over all strokes (default `RELAX_PASSES`, as the planner uses).
     tries : int
-        Random local moves tried per stroke and pass.
+        Random local moves tried per stroke and pass (default `RELAX_TRIES`).
     delete : bool
-        Whether deleting a stroke is one of the moves.
+        Whether deleting a stroke is one of the moves (default `RELAX_DELETE`: off).
     progress : callable(fraction, message), optional
         Called after each pass.
 
@@ -867,9 +375,12 @@ def relax_strokes(planes, ground: int, points, layer_of, paints, limits, costs, 
     pts3 = np.zeros((n, MAX_POINTS, 2), dtype=np.float64)
     for i, p in enumerate(points):
         pts3[i, : len(p)] = p
-    widths = np.array([lim.width_mm for lim in limits], dtype=np.float64)
+    brushes = brush_records(limits)
+    widths = brushes["width_mm"].copy()
     th = np.ascontiguousarray(np.stack(thetas), dtype=np.float64)
-    arr = lambda f: np.array([f(lim) for lim in limits], dtype=np.float64)  # noqa: E731
+    costs = np.asarray(costs, dtype=np.float64)
+    wall = (float(wall_mm[0]), float(wall_mm[1]))
+    moves = _cumulative(RELAX_MOVES)
     change = 0.0
     for r in range(passes):
         counts_c = counts.copy()
@@ -879,13 +390,10 @@ def relax_strokes(planes, ground: int, points, layer_of, paints, limits, costs, 
         top_idx, top_paint, under_paint, under_idx = stack_tops(
             h, w, float(mm_per_px), flat, starts, counts_c, widths[layer_of], paints, alive, int(ground))
         stale = np.zeros((h, w), dtype=np.bool_)
-        change += _relax_pass(
-            planes, top_idx, top_paint, under_idx, under_paint, stale, pts3, counts, paints, alive, layer_of, th,
-            widths, np.asarray(costs, dtype=np.float64), arr(lambda lim: lim.min_length_mm),
-            arr(lambda lim: lim.max_length_mm), arr(lambda lim: lim.min_segment_mm),
-            arr(lambda lim: lim.max_segment_mm), np.radians(arr(lambda lim: lim.max_turn_deg)),
-            float(wall_mm[0]), float(wall_mm[1]), float(mm_per_px), int(tries), int(seed * 1000 + r),
-            bool(delete), _cumulative(RELAX_MOVES), RELAX_BEND)
+        stack = (top_idx, top_paint, under_idx, under_paint, stale)
+        change += kernels.relax_pass(
+            planes, stack, pts3, counts, paints, alive, layer_of, th, brushes, costs, float(mm_per_px), wall,
+            int(tries), int(seed * 1000 + r), bool(delete), moves, RELAX_BEND)
         if progress is not None:
             progress((r + 1) / passes, f"pass {r + 1} of {passes}")
     return [pts3[i, : counts[i]].copy() for i in range(n)], paints, alive, float(change)

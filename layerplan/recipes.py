@@ -45,11 +45,9 @@ from .colour import lab_to_srgb
 from .inventory import Inventory, default_inventory
 from .plan import hex_to_rgb, rgb_to_hex
 
-#: solver defaults, as the painter asked for them: at most 3 inventory paints in a mix, in at most 10 whole
-#: parts, counted mixable within ΔE00 3
-DEFAULT_MAX_PAINTS = 3
-DEFAULT_MAX_PARTS = 10
-DEFAULT_TOLERANCE_DE = 3.0
+DEFAULT_MAX_PAINTS = 3  # at most 3 stock paints a mix: fewer tins to open, colours stay clean (common practice)
+DEFAULT_MAX_PARTS = 10  # whole parts adding up to at most 10: ratios a painter measures out by the cup
+DEFAULT_TOLERANCE_DE = 3.0  # a mix within ΔE00 3 counts as reaching its colour (a few just noticeable differences)
 MAX_MIX_PAINTS = 4
 MAX_PARTS_LIMIT = 30
 MAX_TOLERANCE_DE = 100.0

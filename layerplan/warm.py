@@ -24,7 +24,7 @@ def warm_up():
     """
     from .export import build_files
     from .pipeline import make_plan
-    from .placer import _conflicts
+    from ._placer_kernels import conflicts
     from .settings import Settings
 
     rng = np.random.default_rng(0)
@@ -33,5 +33,5 @@ def warm_up():
     plan = make_plan(img, Settings(wall_width_mm=360.0, wall_height_mm=240.0, paints=3, brushes_mm=(60.0, 20.0),
                                    mm_per_px=5.0))
     build_files(plan)
-    _conflicts(np.full((2, 2), -1, np.int64), np.full((2, 2), -1, np.int64), np.zeros(1, np.bool_))
+    conflicts(np.full((2, 2), -1, np.int64), np.full((2, 2), -1, np.int64), np.zeros(1, np.bool_))
     return img, plan

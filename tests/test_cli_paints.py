@@ -1,4 +1,4 @@
-"""Tests for `layerplan paints` and `layerplan mix` (issue 3's command-line contract)."""
+"""Tests for `layerplan paints` and `layerplan mix`: their options, output and JSON forms."""
 
 import json
 import re
@@ -6,7 +6,8 @@ import re
 import numpy as np
 import pytest
 
-from layerplan import cli_paints, mixing
+from layerplan import mixing
+from layerplan.cli import main
 from layerplan.colour import delta_e00, srgb_to_lab
 from layerplan.inventory import default_inventory
 from layerplan.plan import hex_to_rgb
@@ -25,19 +26,7 @@ srgb = "#f0c814"
 """
 
 
-def _main():
-    # the real entry point once `paints`/`mix` are registered there, else this module's own
-    try:
-        from layerplan.cli import main
-
-        main(["paints", "--json"])
-        return main
-    except (SystemExit, ImportError):
-        return cli_paints.main
-
-
 def run(capsys, *argv):
-    main = _main()
     capsys.readouterr()
     code = main(list(argv))
     out, err = capsys.readouterr()
@@ -52,7 +41,7 @@ def kit(tmp_path):
 
 
 def test_paints_json_lists_name_and_srgb(capsys, kit):
-    # issue 3: `layerplan paints --json` -> a list of {"name", "srgb"}
+    # `layerplan paints --json` -> a list of {"name", "srgb"}
     code, out, _ = run(capsys, "paints", "--json")
     assert code == 0
     assert json.loads(out) == [{"name": p.name, "srgb": p.srgb} for p in default_inventory().paints]
@@ -63,7 +52,7 @@ def test_paints_json_lists_name_and_srgb(capsys, kit):
 
 
 def test_mix_json_gives_a_recipe_per_colour(capsys, kit):
-    # issue 3's JSON: {"target", "parts": [{"paint", "parts"}], "predicted_srgb", "delta_e", "in_gamut"}
+    # the recipe's JSON form: {"target", "parts": [{"paint", "parts"}], "predicted_srgb", "delta_e", "in_gamut"}
     code, out, _ = run(capsys, "mix", "#1b3a8c", "ff00ff", "--inventory", kit, "--json")
     assert code == 0
     stock, magenta = json.loads(out)
@@ -89,7 +78,7 @@ def test_mix_text_names_parts_and_cautions_to_test_a_swatch(capsys, kit):
 
 
 def test_combine_predicts_the_mix(capsys, kit):
-    # issue 3: `mix --combine NAME=PARTS ... --json` -> {"predicted_srgb", "lab"}; blue and yellow
+    # `mix --combine NAME=PARTS ... --json` -> {"predicted_srgb", "lab"}; blue and yellow
     # paint make a green (fact of the trade, common practice)
     code, out, _ = run(capsys, "mix", "--combine", "deep blue=1", "Sun yellow=2", "--inventory", kit, "--json")
     assert code == 0

@@ -73,7 +73,7 @@ def test_default_inventory_is_a_basic_set_and_says_its_colours_are_from_memory()
     lab = {p.name.lower(): p.lab for p in inv.paints}
     # common practice: a wall white is near L* 95, a black paint is very dark
     assert lab["white"][0] > 90 and lab["black"][0] < 25
-    # the basic set covers the hue circle: reds, yellows, blues and a green (issue 3)
+    # the basic set covers the hue circle, so its mixes reach every hue: reds, yellows, blues and a green
     hues = [np.degrees(np.arctan2(p.lab[2], p.lab[1])) % 360 for p in inv.paints if np.hypot(*p.lab[1:]) > 20]
     for lo, hi in ((0, 45), (70, 105), (130, 180), (260, 310)):
         assert any(lo <= h <= hi for h in hues), (lo, hi)

@@ -64,7 +64,8 @@ def _fill(areas, plan):
 
 
 def test_outline_maps_cover_each_paints_area():
-    # issue 5: rasterised contours vs the layer's mask, IoU >= 0.9 for every paint of every layer
+    # outlines a painter can trace: rasterised contours vs the layer's mask, IoU >= 0.9 for every paint of
+    # every layer
     plan = _random_plan()
     maps = outline_maps(plan)
     assert [m["layer"] for m in maps] == [1, 2, 3]

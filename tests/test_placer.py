@@ -55,6 +55,18 @@ def test_every_stroke_lowers_the_energy_and_gains_are_exact(s, width, cost):
     assert res.error_after < res.error_before
 
 
+def _assert_within(p, lim, wall):
+    """Every brush limit and the wall, checked on the polyline itself."""
+    seg = np.diff(p, axis=0)
+    lens = np.hypot(seg[:, 0], seg[:, 1])
+    assert lim.min_length_mm - 1e-6 <= lens.sum() + lim.width_mm <= lim.max_length_mm + 1e-6
+    assert ((lens >= lim.min_segment_mm - 1e-6) & (lens <= lim.max_segment_mm + 1e-6)).all()
+    cos_turn = math.cos(math.radians(lim.max_turn_deg))
+    for a, b in zip(seg[:-1], seg[1:]):
+        assert np.dot(a, b) >= cos_turn * np.linalg.norm(a) * np.linalg.norm(b) - 1e-6
+    assert (p >= 0).all() and (p[:, 0] <= wall[0]).all() and (p[:, 1] <= wall[1]).all()
+
+
 def test_brush_limits_hold_for_every_stroke():
     img = _noisy_blobs(seed=4)
     pal = [[230, 220, 200], [180, 40, 40], [40, 90, 170], [60, 140, 60]]
@@ -67,18 +79,38 @@ def test_brush_limits_hold_for_every_stroke():
     res = place_layer(planes, canvas, err, orientation_field(lab, 1.5), lim, mm_per_px=s, wall_mm=wall,
                       cost=5.0, seed=2)
     assert len(res.points) > 5
-    cos_turn = math.cos(math.radians(lim.max_turn_deg))
     for p in res.points:
-        seg = np.diff(p, axis=0)
-        lens = np.hypot(seg[:, 0], seg[:, 1])
-        length = lens.sum() + width
-        assert lim.min_length_mm - 1e-6 <= length <= lim.max_length_mm + 1e-6
-        assert ((lens >= lim.min_segment_mm - 1e-6) & (lens <= lim.max_segment_mm + 1e-6)).all()
-        for a, b in zip(seg[:-1], seg[1:]):
-            assert np.dot(a, b) >= cos_turn * np.linalg.norm(a) * np.linalg.norm(b) - 1e-6
-        assert (p >= 0).all() and (p[:, 0] <= wall[0]).all() and (p[:, 1] <= wall[1]).all()
+        _assert_within(p, lim, wall)
         # points sit on the 0.1 mm grid, so plan.json stores them exactly
         assert np.allclose(p * 10, np.round(p * 10), atol=1e-9)
+
+
+def test_limits_other_than_the_defaults_reach_the_compiled_search():
+    # every field of BrushLimits is packed into one record for the compiled code: tighter limits than
+    # for_brush's (shorter strokes, closer vertices, gentler turns) must hold in placing and in relaxing
+    from layerplan.placer import relax_strokes
+
+    img = _noisy_blobs(seed=4)
+    pal = [[230, 220, 200], [180, 40, 40], [40, 90, 170], [60, 140, 60]]
+    lab, planes = _setup(img, pal)
+    s, width = 4.0, 12.0
+    lim = BrushLimits(width_mm=width, min_length_mm=width, max_length_mm=3.0 * width, min_segment_mm=0.6 * width,
+                      max_segment_mm=1.1 * width, max_turn_deg=20.0)
+    canvas = np.zeros(img.shape[:2], np.int16)
+    err = np.ascontiguousarray(planes[:, :, 0])
+    wall = (img.shape[1] * s, img.shape[0] * s)
+    theta = orientation_field(lab, 1.5)
+    res = place_layer(planes, canvas, err, theta, lim, mm_per_px=s, wall_mm=wall, cost=5.0, seed=2)
+    assert len(res.points) > 5
+    assert max(len(p) for p in res.points) >= 3  # strokes still grow beyond a dab
+    for p in res.points:
+        _assert_within(p, lim, wall)
+    pts, _, _, change = relax_strokes(planes, 0, res.points, np.zeros(len(res.points), int), res.paints, [lim], [5.0],
+                                      [theta], mm_per_px=s, wall_mm=wall, seed=1, passes=2, tries=60)
+    assert change < 0.0
+    assert any(len(a) != len(b) or not np.array_equal(a, b) for a, b in zip(pts, res.points))  # strokes moved
+    for p in pts:
+        _assert_within(p, lim, wall)
 
 
 def test_placer_is_deterministic_under_a_seed():
@@ -197,17 +229,9 @@ def test_relaxation_lowers_the_finished_energy_by_what_it_reports(delete):
     assert after - before == pytest.approx(change, rel=1e-4, abs=1e-2)
     if not delete:
         assert alive.all()
-    # the moved strokes still obey their brush (same checks as test_brush_limits_hold_for_every_stroke)
+    # the moved strokes still obey their brush
     for p, lay in zip(new_pts, layer_of):
-        lim = limits[lay]
-        seg = np.diff(p, axis=0)
-        lens = np.hypot(seg[:, 0], seg[:, 1])
-        assert lim.min_length_mm - 1e-6 <= lens.sum() + lim.width_mm <= lim.max_length_mm + 1e-6
-        assert ((lens >= lim.min_segment_mm - 1e-6) & (lens <= lim.max_segment_mm + 1e-6)).all()
-        cos_turn = math.cos(math.radians(lim.max_turn_deg))
-        for a, b in zip(seg[:-1], seg[1:]):
-            assert np.dot(a, b) >= cos_turn * np.linalg.norm(a) * np.linalg.norm(b) - 1e-6
-        assert (p >= 0).all() and (p[:, 0] <= wall[0]).all() and (p[:, 1] <= wall[1]).all()
+        _assert_within(p, limits[lay], wall)
         assert np.allclose(p * 10, np.round(p * 10), atol=1e-9)
 
 

@@ -32,7 +32,7 @@ def _use(plan, name="P2", **kw):
 
 # ------------------------------------------------------------------ hand-worked
 def test_ground_only_wall_hand_worked():
-    # Issue 5's hand-worked example: a 4 × 2.5 m wall = 10 m², ground only, 2 coats at
+    # Worked by hand: a 4 × 2.5 m wall = 10 m², ground only, 2 coats at
     # 10 m²/L = 2 L, plus 15 % = 2.3 L.
     use = paint_use(_plan())
     ground = use["paints"][0]
@@ -62,7 +62,7 @@ def test_options_enter_the_formula_as_written():
 
 
 def test_overlaps_are_counted():
-    # paint hidden by a later stroke was still used (issue 5): the same stroke twice is twice the paint
+    # paint hidden by a later stroke was still used, so it is bought: the same stroke twice is twice the paint
     path = np.array([[500.0, 500.0], [900.0, 700.0]])
     one = _use(_plan([Layer(50.0, [Stroke("P2", 50.0, path)])]))
     two = _use(_plan([Layer(50.0, [Stroke("P2", 50.0, path), Stroke("P3", 50.0, path)]),
@@ -203,7 +203,7 @@ def test_recipes_add_up_per_stock_paint():
 
 
 def test_inventory_container_sizes_are_used():
-    # sizes from the painter's inventory (issue 3: containers_l) win over the common sizes
+    # sizes from the painter's inventory (its containers_l) win over the common sizes
     plan = _with_recipes(_plan())
     plan.extra["inventory"] = [{"name": "White", "srgb": "#ffffff", "containers_l": [0.75, 4.0]}]
     stock = {s["paint"]: s for s in paint_use(plan)["stock"]}

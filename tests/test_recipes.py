@@ -24,7 +24,8 @@ def _inv_rgb(inv):
 
 
 def test_a_stock_paints_own_colour_comes_back_as_that_paint_alone(inv):
-    # issue 3: "A stock paint's own colour comes back as that paint alone"
+    # the solver's tie-break (layerplan.recipes): of near-equal mixes the simplest wins, so a stock
+    # paint's own colour comes back as that paint alone
     got = recipes.recipes_for_srgb([p.srgb for p in inv.paints], inv)
     for paint, r in zip(inv.paints, got):
         assert r.parts == ((paint.name, 1),)
@@ -36,7 +37,7 @@ def _strengths(inv):
 
 
 def test_the_solver_finds_back_mixes_the_model_made_at_random_ratios(inv):
-    # issue 3: mixes made by the model (layerplan.mixing, a separate code path from the table)
+    # mixes made by the model (layerplan.mixing, a separate code path from the table)
     # at random whole-part ratios are found back: ΔE00 <= 1 and the same paints
     rng = np.random.default_rng(11)
     made = []
@@ -94,8 +95,9 @@ def test_tolerance_decides_in_gamut(inv):
     assert not r_strict.in_gamut and r_loose.in_gamut
 
 
-def test_recipe_json_has_exactly_the_issue_fields(inv):
-    # issue 3's JSON: {"target", "parts": [{"paint", "parts"}], "predicted_srgb", "delta_e", "in_gamut"}
+def test_recipe_json_has_exactly_its_documented_fields(inv):
+    # the recipe's JSON form, shared by `layerplan mix --json` and plan.json:
+    # {"target", "parts": [{"paint", "parts"}], "predicted_srgb", "delta_e", "in_gamut"}
     d = recipes.recipes_for_srgb(["#6b8e23"], inv)[0].to_dict()
     assert list(d) == ["target", "parts", "predicted_srgb", "delta_e", "in_gamut"]
     assert d["target"] == "#6b8e23"
