@@ -125,6 +125,17 @@ def test_wheel_installs_and_serves_the_start_page(tmp_path):
     assert helped.returncode == 0, helped.stderr
     assert all(cmd in helped.stdout for cmd in ("plan", "serve", "paints", "mix"))
 
+    # a small plan from the installed wheel: the printed plan's sheet templates and its style sheet ship too
+    # (templates/sheets/ is a sub-folder, which a package-data pattern can miss)
+    planned = subprocess.run([str(bin_dir / "layerplan"), "plan", str(REPO / "sample_images" / "community-wall.png"),
+                              "--out", str(tmp_path / "plan"), "--wall", "1x0.5m", "--pixel-mm", "25",
+                              "--brushes", "100,50", "--quiet"],
+                             cwd=run_dir, env=env, capture_output=True, text=True, timeout=600)
+    assert planned.returncode == 0, planned.stderr
+    printed = (tmp_path / "plan" / "plan.html").read_text("utf-8")
+    css = (REPO / "static" / "sheet.css").read_text("utf-8")
+    assert 'id="safety"' in printed and css.strip()[:200] in printed  # every sheet, the CSS inlined
+
     port = _free_port()
     log_path = tmp_path / "serve.log"
     log = log_path.open("w")

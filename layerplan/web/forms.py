@@ -178,26 +178,16 @@ def _unidentified(data: bytes) -> bool:
 INVENTORY_CHOICES = ("default", "upload", "edit")
 
 
-def inventory_module():
-    """:mod:`layerplan.inventory` if this build has it (mix recipes), else None."""
-    try:
-        from layerplan import inventory
-    except ImportError:  # pragma: no cover - recipes not installed
-        return None
-    return inventory
-
-
 def _inventory(form, files) -> tuple[str | None, int | None]:
     """The painter's inventory as checked TOML text (None for the default set), and its number of paints."""
     choice = _text(form, "inventory") or "default"
     if choice not in INVENTORY_CHOICES:
         raise RequestError(f"inventory must be one of {', '.join(INVENTORY_CHOICES)}, got {choice!r}",
                            field="inventory")
-    module = inventory_module()
+    from layerplan import inventory as module  # late: only a plan's form needs it
+
     if choice == "default":
-        return None, (len(module.default_inventory()) if module is not None else None)
-    if module is None:
-        raise RequestError("this layerplan has no mix recipes, so it takes no paint inventory", field="inventory")
+        return None, len(module.default_inventory())
     if choice == "upload":
         upload = files.get("inventory_file") if files else None
         raw = upload.read(module.MAX_FILE_BYTES + 1) if upload is not None else b""

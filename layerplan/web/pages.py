@@ -12,7 +12,7 @@ from flask import (Blueprint, abort, current_app, redirect, render_template, req
 from PIL import Image
 from werkzeug.exceptions import RequestEntityTooLarge
 
-from layerplan import quantities, wording
+from layerplan import options, quantities, wording
 from layerplan.export import EXPORTS
 from layerplan.plan import Plan
 from layerplan.settings import Settings
@@ -23,11 +23,11 @@ from .store import WEB_KEY
 bp = Blueprint("pages", __name__)
 
 _S = Settings()
-#: the recipe and quantity options the form starts with: the planner's and the export's own defaults
-OPTION_DEFAULTS = {"mix_paints": str(_S.mix_paints), "max_parts": str(_S.max_parts), "tolerance": f"{_S.tolerance_de:g}",
-                   "stroke_cost": f"{_S.stroke_cost:g}", "coverage": f"{quantities.COVERAGE_M2_PER_L:g}",
-                   "ground_coats": str(quantities.GROUND_COATS), "stroke_coats": str(quantities.STROKE_COATS),
-                   "waste": f"{quantities.WASTE * 100:g}%", "grid": ""}  # grid: empty = layerplan.report.default_grid_mm
+#: the recipe and quantity options the form starts with: each option's own default, from the one spec
+#: (grid empty: the sheets choose the square from the wall's size and unit)
+OPTION_DEFAULTS = {k: v for k, v in options.form_defaults().items()
+                   if k in ("mix_paints", "max_parts", "tolerance", "stroke_cost", "coverage", "ground_coats",
+                            "stroke_coats", "waste", "grid")}
 #: what the start page's form holds before anyone types
 FORM_DEFAULTS = {"wall_width": "3", "wall_height": "", "unit": "m", "paints": "8", "kit": forms.DEFAULT_KIT,
                  "brushes": "", "fit": "cover", "seed": "0", "pixel_mm": "", "inventory": "default",
@@ -60,15 +60,14 @@ def _limits() -> dict[str, Any]:
             "max_tolerance": f"{forms.MAX_TOLERANCE_DE:g}"}
 
 
-def _inventory_view() -> dict[str, Any] | None:
-    """The default inventory for the form, or None when this build has no mix recipes."""
-    module = forms.inventory_module()
-    if module is None:
-        return None
+def _inventory_view() -> dict[str, Any]:
+    """The default inventory for the form: its paints and its TOML text (to start an edited copy from)."""
     from importlib import resources
 
-    text = resources.files("layerplan").joinpath("data", module.DEFAULT_INVENTORY_NAME).read_text("utf-8")
-    return {"default": module.default_inventory().to_list(), "default_text": text}
+    from layerplan import inventory
+
+    text = resources.files("layerplan").joinpath("data", inventory.DEFAULT_INVENTORY_NAME).read_text("utf-8")
+    return {"default": inventory.default_inventory().to_list(), "default_text": text}
 
 
 @bp.get("/")
