@@ -470,7 +470,8 @@ OPTIONS: dict[str, Option] = {o.name: o for o in (
            minimum=0.0, strict=True, unit="m²/L", metavar="M2_PER_L"),
     Option("ground_coats", "whole", GROUND_COATS, "coats of the ground", "--ground-coats", "Ground coats",
            "ground coats", "ground_coats", "quantities", _OUT, target="output", minimum=0, metavar="N"),
-    Option("stroke_coats", "whole", STROKE_COATS, "coats of each stroke", "--stroke-coats", "Stroke coats",
+    Option("stroke_coats", "whole", STROKE_COATS, "least coats of any stroke; light over dark, and bright "
+           "reds and yellows, get more by themselves", "--stroke-coats", "Stroke coats",
            "stroke coats", "stroke_coats", "quantities", _OUT, target="output", minimum=1, metavar="N"),
     Option("waste", "fraction", WASTE, "extra paint to buy for spills and touch-ups", "--waste", "Waste",
            "waste", "waste", "quantities", _OUT, target="output", metavar="SHARE"),

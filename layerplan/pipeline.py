@@ -7,6 +7,7 @@ import dataclasses
 import numpy as np
 
 from . import __version__
+from .coats import with_coats
 from .colour import delta_e00, error_planes, srgb_to_lab
 from .fit import fit_to_wall
 from .ground import choose_ground
@@ -200,6 +201,8 @@ def make_plan(image: np.ndarray, settings: Settings, *, progress=None) -> Plan:
         wall_width_mm=wall_w, wall_height_mm=wall_h, width_px=width_px, height_px=height_px, mm_per_px=s,
         palette=palette, ground=ids[ground], layers=layers, wall_unit=settings.wall_unit,
     )
+    # coats from what each stroke covers, once the painting order is fixed
+    plan = with_coats(plan)
     # error after each layer, from the plan itself
     steps = [np.take_along_axis(planes, c[..., None].astype(np.intp), axis=2)[..., 0].mean(dtype=np.float64)
              for c in render_steps(plan)]

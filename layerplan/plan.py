@@ -10,9 +10,12 @@ version 1). The names and meanings below must hold because other tools read them
      "ground": {"paint": "P1"},
      "layers": [{"brush": {"width_mm": 100.0},
                  "strokes": [{"paint": "P2", "width_mm": 100.0,
-                              "path_mm": [[x, y], ...]}, ...]}, ...]}
+                              "path_mm": [[x, y], ...], "coats": 2}, ...]}, ...]}
 
-Coordinates are wall millimetres, origin top-left, x right, y down. Further
+Coordinates are wall millimetres, origin top-left, x right, y down. A stroke's
+``coats`` (a whole number >= 1) is how many coats it takes to hide what it covers
+(:mod:`layerplan.coats`); it is written only when more than 1, and a stroke without it
+has 1, so plans made before the field read unchanged. Further
 sections (``settings``, ``stats``, ``inventory``, ``paint_use``, ...) may be added
 freely; they travel in ``Plan.extra`` so a plan read and written again keeps them.
 The ones several modules read have typed access on the objects: ``settings.wall_unit``
@@ -89,12 +92,28 @@ class Paint:
 class Stroke:
     """One brush stroke: a polyline painted with a round brush, opaque.
 
-    ``path_mm`` is an (N, 2) float array of wall millimetres (x, y), N >= 1.
+    ``path_mm`` is an (N, 2) float array of wall millimetres (x, y), N >= 1. ``coats``
+    (a whole number >= 1, default 1) is how many coats the stroke takes to hide the
+    paint it covers (:mod:`layerplan.coats`); the picture is the same however many.
+
+    Raises
+    ------
+    ValueError
+        If ``coats`` is not a whole number >= 1.
     """
 
     paint: str
     width_mm: float
     path_mm: np.ndarray
+    coats: int = 1
+
+    def __post_init__(self):
+        coats = self.coats
+        if type(coats) is not int:
+            coats = _whole_coats(coats)
+            object.__setattr__(self, "coats", coats)
+        if coats < 1:
+            raise ValueError(f"stroke coats must be a whole number >= 1, got {coats!r}")
 
     def length_mm(self) -> float:
         """Length of the polyline (0 for a single-point dab)."""
@@ -230,6 +249,8 @@ class Plan:
                             "paint": s.paint,
                             "width_mm": _num(s.width_mm),
                             "path_mm": [[_num(x), _num(y)] for x, y in np.asarray(s.path_mm, float)],
+                            # one coat is the rule, so only the exceptions are written
+                            **({"coats": s.coats} if s.coats > 1 else {}),
                         }
                         for s in layer.strokes
                     ],
@@ -261,8 +282,8 @@ class Plan:
         ------
         ValueError
             If the document is not a layerplan plan, has another version, a required
-            field is missing or malformed, or ``settings.wall_unit`` is not a known unit
-            (the message names it).
+            field is missing or malformed, a stroke's ``coats`` is not a whole number
+            >= 1, or ``settings.wall_unit`` is not a known unit (the message names it).
         """
         if not isinstance(doc, dict) or doc.get("format") != FORMAT:
             raise ValueError(f"not a layerplan plan: 'format' must be {FORMAT!r}")
@@ -290,8 +311,9 @@ class Plan:
                         paint=str(s["paint"]),
                         width_mm=float(s["width_mm"]),
                         path_mm=np.asarray(s["path_mm"], dtype=float).reshape(-1, 2),
+                        coats=_read_coats(s.get("coats", 1), len(layers) + 1, k + 1),
                     )
-                    for s in layer["strokes"]
+                    for k, s in enumerate(layer["strokes"])
                 ]
                 layers.append(
                     Layer(
@@ -335,6 +357,20 @@ class Plan:
         except json.JSONDecodeError as exc:
             raise ValueError(f"plan.json is not valid JSON: {exc}") from exc
         return cls.from_dict(doc)
+
+
+def _whole_coats(value) -> int:
+    """A coats value as an int (numpy integers too); bools, fractions and text are refused."""
+    if isinstance(value, (bool, np.bool_)) or not isinstance(value, (int, np.integer)):
+        raise ValueError(f"stroke coats must be a whole number >= 1, got {value!r}")
+    return int(value)
+
+
+def _read_coats(value, layer: int, stroke: int) -> int:
+    """plan.json's ``coats`` of one stroke, checked (JSON integers only: 2, not 2.0 or "2")."""
+    if isinstance(value, bool) or not isinstance(value, int) or value < 1:
+        raise ValueError(f"layer {layer}, stroke {stroke}: coats must be a whole number >= 1, got {value!r}")
+    return value
 
 
 def _num(x: float) -> float | int:

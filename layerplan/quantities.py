@@ -3,8 +3,11 @@
 A paint's area is what its strokes cover on the wall, overlaps counted (paint that a
 later stroke hides was still used), plus the whole surface for the ground paint::
 
-    litres = (ground area × ground_coats + stroke area × stroke_coats)
+    litres = (ground area × ground_coats + Σ stroke area × max(stroke_coats, stroke.coats))
              / coverage_m2_per_litre × (1 + waste)
+
+Each stroke carries its own coats (:attr:`layerplan.plan.Stroke.coats`, from what it
+covers: :mod:`layerplan.coats`); ``stroke_coats`` is the least any stroke gets.
 
 A stroke's area is the exact area of its footprint: the polyline buffered by half
 the brush width (round ends and joins, as in the rendering rule), clipped to the
@@ -46,7 +49,7 @@ COVERAGE_M2_PER_L = 10.0
 WASTE = 0.15
 #: coats of the ground (common practice: two coats for an even, opaque ground)
 GROUND_COATS = 2
-#: coats of each stroke
+#: least coats of any stroke (a stroke's own ``coats`` may ask for more)
 STROKE_COATS = 1
 #: litres in one US liquid gallon, exact by definition (NIST Handbook 44, Appendix C)
 LITRES_PER_US_GALLON = 3.785411784
@@ -393,7 +396,7 @@ def paint_use(
     ground_coats : int
         Coats of the ground over the whole surface (>= 0).
     stroke_coats : int
-        Coats of each stroke (>= 1).
+        Least coats of any stroke (>= 1): a stroke gets ``max(stroke_coats, stroke.coats)``.
     containers : sequence of float or mapping, optional
         Container sizes in litres one can buy: one list for every paint, or a mapping
         from paint name (stock paint or palette id) to its list. Default: the sizes in
@@ -405,10 +408,11 @@ def paint_use(
     paint_use : dict
         ``{"coverage_m2_per_litre", "waste", "ground_coats", "stroke_coats",
         "wall_area_m2", "paints": [{"paint", "area_m2", "ground_area_m2",
-        "stroke_area_m2", "strokes", "litres", "containers"}, ...],
+        "stroke_area_m2", "stroke_coat_area_m2", "strokes", "litres", "containers"}, ...],
         "stock": [{"paint", "litres", "for", "containers"}, ...]}``. For walls given
         in ft or in, every paint and stock entry also has ``us_gallons`` and
-        ``us_quarts``. ``stock`` is empty when no palette entry has a recipe. Every
+        ``us_quarts``. ``stroke_coat_area_m2`` is the stroke area counted once per coat
+        (what the litres are worked from). ``stock`` is empty when no palette entry has a recipe. Every
         paint and stock entry has ``trace``: true when more than nothing but less than
         :data:`TRACE_LITRES` is needed (too little to buy a container for).
 
@@ -432,12 +436,14 @@ def paint_use(
     default_sizes = US_CONTAINERS_L if us else COMMON_CONTAINERS_L
 
     stroke_m2 = np.zeros(len(plan.palette))
+    coat_m2 = np.zeros(len(plan.palette))  # stroke area once per coat
     n_strokes = np.zeros(len(plan.palette), dtype=int)
     for layer, areas in zip(plan.layers, stroke_areas_mm2(plan)):
         for s, a in zip(layer.strokes, areas):
             if s.paint not in ids:
                 raise ValueError(f"stroke paint {s.paint!r} is not in the palette")
             stroke_m2[ids[s.paint]] += a / 1e6
+            coat_m2[ids[s.paint]] += a / 1e6 * max(stroke_coats, s.coats)
             n_strokes[ids[s.paint]] += 1
     wall_m2 = plan.wall_width_mm * plan.wall_height_mm / 1e6
     factor = (1.0 + waste) / coverage_m2_per_litre
@@ -447,12 +453,13 @@ def paint_use(
     for p in plan.palette:
         k = ids[p.id]
         ground_m2 = wall_m2 if p.id == plan.ground else 0.0
-        litres = (ground_m2 * ground_coats + stroke_m2[k] * stroke_coats) * factor
+        litres = (ground_m2 * ground_coats + coat_m2[k]) * factor
         entry = {
             "paint": p.id,
             "area_m2": round(ground_m2 + stroke_m2[k], 4),
             "ground_area_m2": round(ground_m2, 4),
             "stroke_area_m2": round(float(stroke_m2[k]), 4),
+            "stroke_coat_area_m2": round(float(coat_m2[k]), 4),
             "strokes": int(n_strokes[k]),
             "litres": round(litres, 3),
             "containers": buy_containers(litres, _container_sizes(p.id, plan, containers, default_sizes)),

@@ -24,7 +24,7 @@ import base64
 import io
 import math
 import re
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Any, Mapping
 
@@ -32,6 +32,7 @@ import numpy as np
 from markupsafe import Markup
 
 from . import wording as w
+from .coats import CoatNote, coat_notes
 from .outlines import outline_maps, place_labels
 from .plan import Plan
 from .quantities import TRACE_LITRES, US_UNITS
@@ -199,6 +200,8 @@ class LayerSheet:
     picture: Figure
     paints: tuple[LayerPaint, ...]
     map: Figure
+    #: "P1: 2 coats where it covers P6 (12 strokes)", a line per paint and covered paint taking more coats
+    coats: tuple[str, ...] = ()
 
 
 @dataclass(frozen=True)
@@ -234,12 +237,18 @@ def default_grid_mm(unit: str, *, shorter_side_mm: float | None = None) -> float
     return big
 
 
-def layer_time_s(layer) -> float:
-    """Rough painting time of a layer by the rule of thumb above (from memory), seconds."""
-    length = sum(s.length_mm() for s in layer.strokes)
+def layer_time_s(layer, *, stroke_coats: int = 1) -> float:
+    """Rough painting time of a layer by the rule of thumb above (from memory), seconds.
+
+    Each coat of a stroke is loaded, placed and drawn again: a stroke counts
+    ``max(stroke_coats, stroke.coats)`` times. Further coats are painted with the same
+    paint before the next one, so they add no washing.
+    """
+    coats = [max(stroke_coats, s.coats) for s in layer.strokes]
+    length = sum(s.length_mm() * c for s, c in zip(layer.strokes, coats))
     changes = sum(1 for a, b in zip(layer.strokes, layer.strokes[1:]) if a.paint != b.paint)
     runs = (changes + 1) if layer.strokes else 0
-    return (len(layer.strokes) * SECONDS_PER_STROKE + length / STROKE_MM_PER_SECOND
+    return (sum(coats) * SECONDS_PER_STROKE + length / STROKE_MM_PER_SECOND
             + runs * PAINT_CHANGE_SECONDS)
 
 
@@ -444,9 +453,10 @@ def _shopping(plan: Plan, use: dict[str, Any], unit: str) -> Shopping:
     inv = {e.get("name"): e for e in (plan.extra.get("inventory") or []) if isinstance(e, Mapping)}
     assumptions = (f"Worked out at {w.coverage(use['coverage_m2_per_litre'], us)} per coat, "
                    f"{w.count(use['ground_coats'], 'coat')} of ground, "
-                   f"{w.count(use['stroke_coats'], 'coat')} per stroke, "
+                   f"at least {w.count(use['stroke_coats'], 'coat')} per stroke (more where a light paint covers "
+                   "a dark one, or a bright red or yellow another colour: the layer sheets say where), "
                    f"plus {w.number(use['waste'] * 100, 0)} % for spills and touch-ups. Check the spreading rate on "
-                   "your tins: rough, porous or dark walls drink more, and light colours over dark need extra coats.")
+                   "your tins: rough, porous or dark walls drink more.")
     stock = tuple(StockRow(s["paint"], (inv.get(s["paint"]) or {}).get("srgb") or None, w.amount(s, us),
                            w.buy(s, us), ", ".join(s["for"])) for s in use.get("stock") or [])
     paints = []
@@ -466,7 +476,7 @@ def _brushes(plan: Plan, use: dict[str, Any], us: bool) -> Brushes:
     rows = [BrushRow("ground", None, "roller", "—", plan.ground, w.duration(ground_s) if ground_s else "—")]
     order_ix = plan.paint_index()
     for n, layer in enumerate(plan.layers, start=1):
-        t = layer_time_s(layer)
+        t = layer_time_s(layer, stroke_coats=use.get("stroke_coats", 1))
         total += t
         paints = sorted({s.paint for s in layer.strokes}, key=lambda i: order_ix[i])
         rows.append(BrushRow(f"layer {n}", n, w.brush(layer.brush_width_mm), str(len(layer.strokes)),
@@ -542,6 +552,15 @@ def _layer(plan: Plan, n: int, imgs, outline: dict[str, Any], changed: float, *,
     return LayerSheet(n, anchor, title, lead, picture, tuple(paints), Figure(map_w, caption, svg=map_svg))
 
 
+def coat_lines(notes: list[CoatNote]) -> tuple[str, ...]:
+    """One layer's extra coats in words: "P1: 2 coats where it covers P6 (12 strokes)"."""
+    lines = []
+    for n in notes:
+        coats = (f"{n.coats[0]}" if len(n.coats) == 1 else f"{n.coats[0]}–{n.coats[-1]}") + " coats"
+        lines.append(f"{n.paint}: {coats} where it covers {n.over} ({w.count(n.strokes, 'stroke')})")
+    return tuple(lines)
+
+
 # ------------------------------------------------------------------------------------ entry point
 def build_sheets(
     plan: Plan,
@@ -611,6 +630,7 @@ def build_sheets(
         source = (plan.extra.get("source") or {}).get("image")
         title = f"Wall painting plan — {Path(source).stem}" if source else "Wall painting plan"
     changed = [float(np.mean(steps[n] != steps[n - 1])) for n in range(1, len(steps))]
+    notes = coat_notes(plan, minimum=use.get("stroke_coats", 1))
     return Sheets(
         title=title,
         unit=unit,
@@ -619,6 +639,7 @@ def build_sheets(
         shopping=_shopping(plan, use, unit),
         brushes=_brushes(plan, use, us),
         grid=_grid(plan, imgs, grid_mm, unit),
-        layers=tuple(_layer(plan, n, imgs, outlines[n - 1], changed[n - 1], grid_mm=grid_mm, unit=unit)
+        layers=tuple(replace(_layer(plan, n, imgs, outlines[n - 1], changed[n - 1], grid_mm=grid_mm, unit=unit),
+                             coats=coat_lines(notes[n - 1]))
                      for n in range(1, len(plan.layers) + 1)),
     )

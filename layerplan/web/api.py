@@ -43,7 +43,8 @@ numbers are mm):
 ``tolerance``     a colour counts as mixable within this CIEDE2000; from 0 to 100 (``--tolerance``, default 3)
 ``coverage``      spreading rate of one coat (check your tins); > 0 m²/L (``--coverage``, default 10)
 ``ground_coats``  coats of the ground; whole number >= 0 (``--ground-coats``, default 2)
-``stroke_coats``  coats of each stroke; whole number >= 1 (``--stroke-coats``, default 1)
+``stroke_coats``  least coats of any stroke; light over dark, and bright reds and yellows, get more by
+                  themselves; whole number >= 1 (``--stroke-coats``, default 1)
 ``waste``         extra paint to buy for spills and touch-ups; 0.15 or 15% (a fraction or a percentage)
                   (``--waste``, default 15%)
 ``grid``          transfer-grid square, drawn on the print and the overlay; a length with a unit: 50cm, 2ft,
