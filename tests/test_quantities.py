@@ -71,6 +71,45 @@ def test_overlaps_are_counted():
     assert two["stroke_area_m2"] == pytest.approx(one["stroke_area_m2"] + single_25 / 1e6, abs=1e-4)
 
 
+# ------------------------------------------------------------------ coats per stroke
+def test_each_coat_adds_the_stroke_area_over_the_coverage():
+    # worked by hand: a straight 1 m × 0.1 m stroke is 0.1 + π·0.05² m² (plane geometry); at 10 m²/L
+    # and no waste, one coat is that ÷ 10 L, and each further coat adds exactly as much again
+    path = np.array([[1000.0, 1000.0], [2000.0, 1000.0]])
+    area = 0.1 + math.pi * 0.05 ** 2
+    one = _use(_plan([Layer(100.0, [Stroke("P2", 100.0, path)])]), waste=0.0)
+    three = _use(_plan([Layer(100.0, [Stroke("P2", 100.0, path, coats=3)])]), waste=0.0)
+    assert one["litres"] == pytest.approx(area / 10.0, abs=1e-3)
+    assert three["litres"] - one["litres"] == pytest.approx(2 * area / 10.0, abs=2e-3)
+    assert three["stroke_coat_area_m2"] == pytest.approx(3 * area, abs=1e-4)
+    # the area covered is the same: coats add paint, not wall
+    assert three["stroke_area_m2"] == one["stroke_area_m2"]
+
+
+def test_stroke_coats_option_is_a_minimum():
+    # two equal strokes, one asking for 3 coats: --stroke-coats 2 lifts the other to 2 and leaves the 3
+    a = np.array([[500.0, 500.0], [1500.0, 500.0]])
+    b = a + [0.0, 1000.0]
+    plan = _plan([Layer(100.0, [Stroke("P2", 100.0, a), Stroke("P2", 100.0, b, coats=3)])])
+    area = 0.1 + math.pi * 0.05 ** 2  # each stroke, plane geometry
+    use = _use(plan, stroke_coats=2, waste=0.0, coverage_m2_per_litre=8.0)
+    assert use["stroke_coat_area_m2"] == pytest.approx((2 + 3) * area, abs=1e-4)
+    assert use["litres"] == pytest.approx((2 + 3) * area / 8.0, abs=1e-3)
+    assert paint_use(plan, stroke_coats=2)["stroke_coats"] == 2
+    # a minimum of 4 is above both
+    assert _use(plan, stroke_coats=4, waste=0.0)["stroke_coat_area_m2"] == pytest.approx(8 * area, abs=1e-4)
+
+
+def test_a_plan_without_coats_costs_what_it_did():
+    # an old plan.json (no "coats" on its strokes) reads as one coat each: the old formula, unchanged
+    st = Stroke("P3", 50.0, np.array([[200.0, 300.0], [900.0, 700.0]]))
+    doc = _plan([Layer(50.0, [st])]).to_dict()
+    assert "coats" not in doc["layers"][0]["strokes"][0]
+    old = Plan.from_dict(doc)
+    area = math.hypot(700, 400) * 50 + math.pi * 25 ** 2  # mm², plane geometry
+    assert _use(old, "P3")["litres"] == pytest.approx(area / 1e6 / 10.0 * 1.15, abs=1e-3)
+
+
 # --------------------------------------------------------------------- geometry
 @pytest.mark.parametrize("length, width, angle", [(300.0, 50.0, 0.0), (1000.0, 100.0, 30.0),
                                                    (37.0, 12.0, 90.0), (250.0, 25.0, 137.0)])
