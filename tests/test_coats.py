@@ -245,3 +245,11 @@ def test_make_plan_gives_light_strokes_over_a_dark_ground_more_coats():
     # and what the pipeline wrote is the rule applied to its own plan
     assert [s.coats for layer in plan.layers for s in layer.strokes] == \
         [int(c) for coats, _ in stroke_coats(plan) for c in coats]
+
+
+def test_web_paint_card_says_how_many_strokes_take_more_coats():
+    from layerplan.web.pages import _coats_text
+
+    plan = plan_of([bar("P1", 100.0, coats=2), bar("P1", 200.0, coats=3), bar("P1", 300.0), bar("P2", 400.0)])
+    assert _coats_text(plan, "P1") == "2–3 coats on 2 strokes"
+    assert _coats_text(plan, "P2") is None

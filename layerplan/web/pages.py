@@ -174,13 +174,22 @@ def _photo_response(data: bytes, *, max_age: int):
 
 
 # ---------------------------------------------------------------------- plan view model
+def _coats_text(plan: Plan, paint_id: str) -> str | None:
+    """"2–3 coats on 12 strokes" for a paint some of whose strokes take more than one coat, else None."""
+    coats = [s.coats for layer in plan.layers for s in layer.strokes if s.paint == paint_id and s.coats > 1]
+    if not coats:
+        return None
+    lo, hi = min(coats), max(coats)
+    return f"{lo}{'' if lo == hi else f'–{hi}'} coats on {wording.count(len(coats), 'stroke')}"
+
+
 def _plan_view(plan: Plan, files: dict[str, str]) -> dict[str, Any]:
     """What the plan page shows of a finished plan; ``files`` maps its file names to URLs."""
     use = plan.extra.get("paint_use")  # the quantities its export wrote into plan.json
     use = use if isinstance(use, dict) else {}
     litres = {p.get("paint"): p for p in use.get("paints", []) if isinstance(p, dict)}
     paints = [{"id": p.id, "srgb": p.srgb, "lab": p.lab, "name": p.extra.get("name"), "recipe": p.recipe,
-               "use": litres.get(p.id), "ground": p.id == plan.ground}
+               "use": litres.get(p.id), "ground": p.id == plan.ground, "coats": _coats_text(plan, p.id)}
               for p in plan.palette]
     steps = []
     pictures = EXPORTS["step-pictures"]
