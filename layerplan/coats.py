@@ -20,6 +20,10 @@ wall painting; the numbers are our choice, from memory, to match it):
   away by CIEDE2000.
 * At most :data:`MAX_COATS`.
 
+Deep colours mixed in a clear base can need a second coat even over a lighter colour
+(common practice); the rule leaves that to the least coats the painter asks of every
+stroke (``--stroke-coats``), which it never lowers.
+
 Lightness difference drives the count because it is what shows through most: a light
 film has little absorption and hides only by scattering, so it needs more film over a
 dark ground (Kubelka 1948); paint makers measure hiding as the contrast ratio of a film
