@@ -12,7 +12,12 @@ version 1). The names and meanings below must hold because other tools read them
                  "strokes": [{"paint": "P2", "width_mm": 100.0,
                               "path_mm": [[x, y], ...]}, ...]}, ...]}
 
-Coordinates are wall millimetres, origin top-left, x right, y down. Further
+Coordinates are wall millimetres, origin top-left, x right, y down. A layer may
+carry ``"travel"`` (optional; absent in older plans): ``{"painted_m", "lifted_m",
+"lifted_before_m", "zone_visits", "zone_visits_before", "reach_m"}``, the length the
+brush paints, the lifted-brush travel from each stroke's last point to the next one's
+first in file order (and in the order before :func:`layerplan.order.short_travel`), how
+many times the painter sets up at a work zone, and the zone's side. Further
 sections (``settings``, ``stats``, ``inventory``, ``paint_use``, ...) may be added
 freely; they travel in ``Plan.extra`` so a plan read and written again keeps them.
 The ones several modules read have typed access on the objects: ``settings.wall_unit``
