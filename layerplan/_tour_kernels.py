@@ -160,31 +160,89 @@ def _two_opt(P, seq, flip, fixed, s, e, budget):
 
 
 @njit(cache=True, nogil=True)
-def _or_opt(P, seq, flip, fixed, s, e, budget):
+def _chain_out(P, i, last):
+    """What taking the chain of positions i..last out of the path saves (its two edges, less the one closing up)."""
+    m = len(P)
+    gain = _gap(P, i - 1)
+    if last + 1 < m:
+        gain += _gap(P, last) - _d(P[i - 1, 2], P[i - 1, 3], P[last + 1, 0], P[last + 1, 1])
+    return gain
+
+
+@njit(cache=True, nogil=True)
+def _chain_in(P, i, last, q, rev):
+    """Change in travel from putting the chain i..last (reversed or not) between q and q + 1, less what it saves out."""
+    m = len(P)
+    if rev:
+        ax, ay, bx, by = P[last, 2], P[last, 3], P[i, 0], P[i, 1]
+    else:
+        ax, ay, bx, by = P[i, 0], P[i, 1], P[last, 2], P[last, 3]
+    add = _d(P[q, 2], P[q, 3], ax, ay)
+    if q + 1 < m:
+        add += _d(bx, by, P[q + 1, 0], P[q + 1, 1]) - _gap(P, q)
+    return add
+
+
+@njit(cache=True, nogil=True)
+def _move_chain(P, seq, flip, fixed, pos, i, last, q, rev, tmpP, tmp_seq, tmp_flip, tmp_fixed):
+    """Move positions i..last (reversed when ``rev``) to just after position q (outside the chain)."""
+    c = last + 1
+    lo = min(i, q + 1)
+    hi = max(last, q)
+    if q < i:
+        parts = ((i, c, True), (q + 1, i, False))   # chain first, then what was between
+    else:
+        parts = ((c, q + 1, False), (i, c, True))
+    t = 0
+    for a0, a1, chain in parts:
+        if chain and rev:
+            for k in range(a1 - 1, a0 - 1, -1):
+                tmpP[t, 0], tmpP[t, 1], tmpP[t, 2], tmpP[t, 3] = P[k, 2], P[k, 3], P[k, 0], P[k, 1]
+                tmp_seq[t] = seq[k]
+                tmp_flip[t] = not flip[k]
+                tmp_fixed[t] = fixed[k]
+                t += 1
+        else:
+            for k in range(a0, a1):
+                for cc in range(4):
+                    tmpP[t, cc] = P[k, cc]
+                tmp_seq[t] = seq[k]
+                tmp_flip[t] = flip[k]
+                tmp_fixed[t] = fixed[k]
+                t += 1
+    for k in range(t):
+        for cc in range(4):
+            P[lo + k, cc] = tmpP[k, cc]
+        seq[lo + k] = tmp_seq[k]
+        flip[lo + k] = tmp_flip[k]
+        fixed[lo + k] = tmp_fixed[k]
+        pos[seq[lo + k]] = lo + k
+    return hi
+
+
+@njit(cache=True, nogil=True)
+def _any_fixed(fixed, i, j):
+    for k in range(i, j + 1):
+        if fixed[k]:
+            return True
+    return False
+
+
+@njit(cache=True, nogil=True)
+def _or_opt(P, seq, flip, fixed, pos, s, e, budget, tmp):
     """One pass of Or-opt moves inside the block [s, e): a chain of 1–3 strokes moved elsewhere, maybe reversed.
 
-    Returns (improved, evaluations).
+    Every insertion point of the block is tried. Returns (improved, evaluations).
     """
-    m = len(seq)
     improved = False
     evals = 0
-    tmpP = np.empty_like(P)
-    tmp_seq = np.empty_like(seq)
-    tmp_flip = np.empty_like(flip)
-    tmp_fixed = np.empty_like(fixed)
+    tmpP, tmp_seq, tmp_flip, tmp_fixed = tmp
     for L in range(1, 4):
         i = max(s, 1)
         while i + L <= e:
-            c = i + L  # first position after the chain
-            last = c - 1
-            can_rev = True
-            for k in range(i, c):
-                if fixed[k]:
-                    can_rev = False
-            # what taking the chain out saves
-            out_gain = _gap(P, i - 1)
-            if c < m:
-                out_gain += _gap(P, last) - _d(P[i - 1, 2], P[i - 1, 3], P[c, 0], P[c, 1])
+            last = i + L - 1
+            can_rev = not _any_fixed(fixed, i, last)
+            out_gain = _chain_out(P, i, last)
             best = 0.0
             best_q = -1
             best_rev = False
@@ -192,63 +250,154 @@ def _or_opt(P, seq, flip, fixed, s, e, budget):
                 if i - 1 <= q <= last:
                     continue
                 evals += 1
-                # put the chain between q and q + 1 (q + 1 is never in the chain)
-                old_q = _gap(P, q) if q + 1 < m else 0.0
                 for r in range(2 if can_rev else 1):
-                    if r == 0:
-                        ax, ay, bx, by = P[i, 0], P[i, 1], P[last, 2], P[last, 3]
-                    else:
-                        ax, ay, bx, by = P[last, 2], P[last, 3], P[i, 0], P[i, 1]
-                    add = _d(P[q, 2], P[q, 3], ax, ay)
-                    if q + 1 < m:
-                        add += _d(bx, by, P[q + 1, 0], P[q + 1, 1])
-                    delta = add - old_q - out_gain
+                    delta = _chain_in(P, i, last, q, r == 1) - out_gain
                     if delta < best - 1e-9:
                         best = delta
                         best_q = q
                         best_rev = r == 1
             if best_q >= 0:
-                # rebuild positions [lo, hi] with the chain moved
-                lo = min(i, best_q + 1)
-                hi = max(last, best_q)
-                t = 0
-                if best_q < i:
-                    order_a_start, order_a_end = i, c          # chain first
-                    order_b_start, order_b_end = best_q + 1, i  # then what was between
-                else:
-                    order_a_start, order_a_end = c, best_q + 1
-                    order_b_start, order_b_end = i, c
-                for part in range(2):
-                    chain = (part == 0) == (best_q < i)
-                    a0 = order_a_start if part == 0 else order_b_start
-                    a1 = order_a_end if part == 0 else order_b_end
-                    if chain and best_rev:
-                        for k in range(a1 - 1, a0 - 1, -1):
-                            tmpP[t, 0], tmpP[t, 1], tmpP[t, 2], tmpP[t, 3] = P[k, 2], P[k, 3], P[k, 0], P[k, 1]
-                            tmp_seq[t] = seq[k]
-                            tmp_flip[t] = not flip[k]
-                            tmp_fixed[t] = fixed[k]
-                            t += 1
-                    else:
-                        for k in range(a0, a1):
-                            for cc in range(4):
-                                tmpP[t, cc] = P[k, cc]
-                            tmp_seq[t] = seq[k]
-                            tmp_flip[t] = flip[k]
-                            tmp_fixed[t] = fixed[k]
-                            t += 1
-                for k in range(t):
-                    for cc in range(4):
-                        P[lo + k, cc] = tmpP[k, cc]
-                    seq[lo + k] = tmp_seq[k]
-                    flip[lo + k] = tmp_flip[k]
-                    fixed[lo + k] = tmp_fixed[k]
-                assert lo + t == hi + 1
+                _move_chain(P, seq, flip, fixed, pos, i, last, best_q, best_rev, tmpP, tmp_seq, tmp_flip, tmp_fixed)
                 improved = True
             i += 1
             if evals > budget:
                 return improved, evals
     return improved, evals
+
+
+@njit(cache=True, nogil=True)
+def _neighbours(A, B, s, e, K):
+    """For each end of the strokes s..e-1, the K nearest ends of other strokes there (ids 2·row + side; -1 pads).
+
+    Row r of the result is end id 2·(s + r // 2) + r % 2.
+    """
+    n = e - s
+    nb = np.full((2 * n, K), -1, np.int64)
+    bd = np.empty(K, np.float64)
+    for r in range(s, e):
+        for side in range(2):
+            px = B[r, 0] if side else A[r, 0]
+            py = B[r, 1] if side else A[r, 1]
+            bd[:] = 1e300
+            row = nb[2 * (r - s) + side]
+            for t in range(s, e):
+                if t == r:
+                    continue
+                for side2 in range(2):
+                    qx = B[t, 0] if side2 else A[t, 0]
+                    qy = B[t, 1] if side2 else A[t, 1]
+                    d = (px - qx) * (px - qx) + (py - qy) * (py - qy)
+                    if d < bd[K - 1]:
+                        k = K - 1
+                        while k > 0 and bd[k - 1] > d:
+                            bd[k] = bd[k - 1]
+                            row[k] = row[k - 1]
+                            k -= 1
+                        bd[k] = d
+                        row[k] = 2 * t + side2
+    return nb
+
+
+@njit(cache=True, nogil=True)
+def _end_id(seq, flip, k, end):
+    """Id of the end (``end`` True) or start of the stroke at position k."""
+    return 2 * seq[k] + (1 if flip[k] != end else 0)
+
+
+@njit(cache=True, nogil=True)
+def _near_pass(P, seq, flip, fixed, pos, nb, s, e, tmp):
+    """2-opt and Or-opt moves that join a stroke end to one of its nearest ends (neighbour lists).
+
+    For big zones, where trying every pair is too slow. Returns (improved, evaluations).
+    """
+    m = len(seq)
+    improved = False
+    evals = 0
+    K = nb.shape[1]
+    tmpP, tmp_seq, tmp_flip, tmp_fixed = tmp
+    for i in range(max(s, 1), e):
+        # 2-opt joining the end before position i to a near end further on: reverse i..j
+        a = _end_id(seq, flip, i - 1, True) if i - 1 >= s else -1
+        if a >= 0:
+            for c in nb[2 * (a // 2 - s) + a % 2]:
+                if c < 0:
+                    break
+                j = pos[c // 2]
+                if j < i or j >= e or c != _end_id(seq, flip, j, True) or _any_fixed(fixed, i, j):
+                    continue
+                evals += 1
+                old = _gap(P, i - 1)
+                new = _d(P[i - 1, 2], P[i - 1, 3], P[j, 2], P[j, 3])
+                if j + 1 < m:
+                    old += _gap(P, j)
+                    new += _d(P[i, 0], P[i, 1], P[j + 1, 0], P[j + 1, 1])
+                if new < old - 1e-9:
+                    _reverse(P, seq, flip, fixed, i, j)
+                    _swap_ends(P, flip, i, j)
+                    for k in range(i, j + 1):
+                        pos[seq[k]] = k
+                    improved = True
+                    break
+        # 2-opt joining the start at position i to a near start before it: reverse j..i-1
+        a = _end_id(seq, flip, i, False)
+        for c in nb[2 * (a // 2 - s) + a % 2]:
+            if c < 0:
+                break
+            j = pos[c // 2]
+            if j < max(s, 1) or j > i - 1 or c != _end_id(seq, flip, j, False) or _any_fixed(fixed, j, i - 1):
+                continue
+            evals += 1
+            old = _gap(P, j - 1) + _gap(P, i - 1)
+            new = _d(P[j - 1, 2], P[j - 1, 3], P[i - 1, 2], P[i - 1, 3]) + _d(P[j, 0], P[j, 1], P[i, 0], P[i, 1])
+            if new < old - 1e-9:
+                _reverse(P, seq, flip, fixed, j, i - 1)
+                _swap_ends(P, flip, j, i - 1)
+                for k in range(j, i):
+                    pos[seq[k]] = k
+                improved = True
+                break
+        # Or-opt: chains starting at i, put next to a near end
+        for L in range(1, 4):
+            last = i + L - 1
+            if last >= e:
+                break
+            can_rev = not _any_fixed(fixed, i, last)
+            out_gain = _chain_out(P, i, last)
+            best = 0.0
+            best_q = -1
+            best_rev = False
+            for which in range(2):
+                a = _end_id(seq, flip, i, False) if which == 0 else _end_id(seq, flip, last, True)
+                for c in nb[2 * (a // 2 - s) + a % 2]:
+                    if c < 0:
+                        break
+                    k = pos[c // 2]
+                    if k < s or k >= e or i <= k <= last:
+                        continue
+                    is_end = c == _end_id(seq, flip, k, True)
+                    # chain start next to an end: after k, forwards; next to a start: before k, reversed;
+                    # chain end next to a start: before k, forwards; next to an end: after k, reversed
+                    q = k if is_end else k - 1
+                    rev = (which == 0) != is_end
+                    if (rev and not can_rev) or q < max(s - 1, 0) or i - 1 <= q <= last:
+                        continue
+                    evals += 1
+                    delta = _chain_in(P, i, last, q, rev) - out_gain
+                    if delta < best - 1e-9:
+                        best = delta
+                        best_q = q
+                        best_rev = rev
+            if best_q >= 0:
+                _move_chain(P, seq, flip, fixed, pos, i, last, best_q, best_rev, tmpP, tmp_seq, tmp_flip, tmp_fixed)
+                improved = True
+                break
+    return improved, evals
+
+
+#: a zone with more strokes than this is searched through neighbour lists first (every pair after)
+NEAR_FROM = 150
+#: nearest stroke ends kept per end
+NEAR_K = 10
 
 
 @njit(cache=True, nogil=True)
@@ -278,13 +427,27 @@ def run_tour(A, B, block, flippable, budget):
         else:
             P[k, 0], P[k, 1], P[k, 2], P[k, 3] = A[q, 0], A[q, 1], B[q, 0], B[q, 1]
         fixed[k] = not flippable[q]
+    pos = np.empty(m, np.int64)
+    for k in range(m):
+        pos[seq[k]] = k
+    tmp = (np.empty_like(P), np.empty_like(seq), np.empty_like(flip), np.empty_like(fixed))
     spent = 0
     for z in range(len(block) - 1):
         s, e = block[z], block[z + 1]
+        if e - s > NEAR_FROM:
+            nb = _neighbours(A, B, s, e, min(NEAR_K, 2 * (e - s) - 2))
+            while spent < budget:
+                a, ev = _near_pass(P, seq, flip, fixed, pos, nb, s, e, tmp)
+                spent += ev
+                if not a:
+                    break
+            continue  # trying every pair of a big zone costs far more than it saves
         while spent < budget:
             a, ev = _two_opt(P, seq, flip, fixed, s, e, budget - spent)
             spent += ev
-            b, ev = _or_opt(P, seq, flip, fixed, s, e, budget - spent)
+            for k in range(s, e):
+                pos[seq[k]] = k
+            b, ev = _or_opt(P, seq, flip, fixed, pos, s, e, budget - spent, tmp)
             spent += ev
             if not (a or b):
                 break

@@ -129,6 +129,27 @@ def test_travel_is_never_longer_than_file_order():
                 assert t.painted_mm == pytest.approx(sum(math.dist(a, b) for p in pts for a, b in zip(p, p[1:])))
 
 
+def test_big_zones_searched_by_nearest_ends_keep_every_rule():
+    # over 150 strokes of a run in one zone take the neighbour-list search (_tour_kernels.NEAR_FROM)
+    for seed, sort in ((0, True), (1, False)):
+        pts, paints = _wall_strokes(700, seed, k=2, sort=sort)
+        t = _travel(pts, paints, reach=5000.0)
+        assert sorted(t.order.tolist()) == list(range(len(pts)))
+        assert np.array_equal(paints[t.order], paints)
+        assert t.lifted_mm == pytest.approx(_lifted(t.paths(pts)))
+        assert t.lifted_mm <= t.lifted_before_mm
+        if sort:  # two long runs: the tour cuts the sweep across the wall several times over
+            assert t.lifted_mm < t.lifted_before_mm / 4
+    width, s, shape = 18.0, 2.0, (100, 100)
+    pts, paints = _random_strokes(600, 7, k=2)
+    order = painting_order(pts, paints, width, s, shape)
+    pts, paints = [pts[i] for i in order], paints[order]
+    assert max(len(r) for r in _runs(paints)) > 150
+    t = short_travel(pts, paints, reach_mm=1000.0, wall_width_mm=200.0, width_mm=width, mm_per_px=s, shape=shape)
+    assert np.array_equal(_render(pts, paints, range(len(pts)), width, s, shape),
+                          _render(t.paths(pts), paints[t.order], range(len(pts)), width, s, shape))
+
+
 def test_travel_shrinks_a_lot_when_runs_are_long():
     # one run per paint, strokes in random order: a tour should cut the sweep across the wall several times over
     pts, paints = _wall_strokes(800, 3, sort=True)
