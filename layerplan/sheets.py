@@ -553,7 +553,7 @@ def _travel_line(layer, unit: str) -> str:
     return (f"Work zone by zone from the top ({side} squares, one ladder or lift position each; "
             f"{w.count(int(t['zone_visits']), 'set-up')}). The brush paints {w.length(t['painted_m'] * 1000, unit)} "
             f"and travels {w.length(t['lifted_m'] * 1000, unit)} lifted between strokes "
-            f"({w.length(t['lifted_before_m'] * 1000, unit)} in the order the strokes were placed).")
+            f"({w.length(t['lifted_before_m'] * 1000, unit)} without this short-travel order).")
 
 
 # ------------------------------------------------------------------------------------ entry point

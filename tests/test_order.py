@@ -248,8 +248,10 @@ def test_a_real_plan_reports_its_travel_and_a_second_tour_keeps_its_picture(smal
     from layerplan.raster import render_steps
     import dataclasses
 
+    assert plan.extra["settings"]["reach_mm"] == 1000.0
     new_layers = []
     for layer in plan.layers:
+        assert layer.extra["travel"]["reach_m"] == 1.0
         paths = [s.path_mm for s in layer.strokes]
         t = layer.extra["travel"]
         # the figures written are those of the file's own stroke order
