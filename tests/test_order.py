@@ -267,6 +267,16 @@ def test_a_real_plan_reports_its_travel_and_a_second_tour_keeps_its_picture(smal
                           width_mm=layer.brush_width_mm, mm_per_px=plan.mm_per_px,
                           shape=(plan.height_px, plan.width_px))
         assert tr.lifted_mm <= tr.lifted_before_mm
+        # every run is worked zone by zone from the top, unless keeping the order it came in was shorter
+        zones = work_zones(pts, 1000.0, plan.wall_width_mm)
+        np_order = np.asarray(tr.order)
+        kept = 0
+        for r in _runs(paints[shuffled]):
+            z = zones[np_order[r]]
+            if np.any(np.diff(z) < 0):
+                assert np.array_equal(np_order[r], r)
+                kept += len(r)
+        assert kept <= 0.1 * len(pts)
         strokes = [dataclasses.replace(layer.strokes[shuffled[i]], path_mm=p)
                    for i, p in zip(tr.order, tr.paths(pts))]
         new_layers.append(Layer(layer.brush_width_mm, strokes, layer.extra))
