@@ -256,7 +256,7 @@ def short_travel(points, paints, *, reach_mm: float, wall_width_mm: float, width
     nearer the next run's start); across the layer, each run keeps whichever of the two gives
     the shorter total travel, the walks between runs included (a two-state dynamic programme),
     so the layer never travels further than before. Only then does a run leave the zone
-    order: on the bench's community-wall plan at 4 × 2 m, runs of at most a few strokes.
+    order: in the community-wall sample at 4 × 2 m, 8 runs of 2–6 strokes (29 of 541 strokes).
 
     References
     ----------
