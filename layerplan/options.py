@@ -450,6 +450,9 @@ OPTIONS: dict[str, Option] = {o.name: o for o in (
     Option("stroke_cost", "number", _S.stroke_cost, "colour error (ΔE00 per brush-width square) a stroke "
            "must remove to be painted; lower for more detail, higher for fewer strokes", "--stroke-cost",
            "Stroke cost", "stroke cost", "stroke_cost", "planning", minimum=0.0, metavar="DE"),
+    Option("reach", "length", _S.reach_mm, "side of a work zone, what you paint from one ladder or lift position: "
+           "each paint's strokes are ordered zone by zone, top of the wall first", "--reach", "Work zone (reach)",
+           "work zone", "reach_mm", "planning", unit="mm", metavar="LENGTH", default_text="2m"),
     # --- mixing
     Option("inventory", "file", None, "the paints you own, to mix recipes from", "--inventory", "Paint inventory",
            "inventory", "inventory", "mixing", metavar="FILE", default_text="a basic acrylic set", form=False),

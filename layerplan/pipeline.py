@@ -12,7 +12,7 @@ from .colour import delta_e00, error_planes, srgb_to_lab
 from .fit import fit_to_wall
 from .ground import choose_ground
 from .layers import layer_specs
-from .order import painting_order
+from .order import painting_order, short_travel
 from .palette import lightest_first, palette_from_image
 from .placer import orientation_field, place_layer, prune_strokes, relax_strokes
 from .plan import Layer, Paint, Plan, Stroke, rgb_to_hex
@@ -195,8 +195,13 @@ def make_plan(image: np.ndarray, settings: Settings, *, progress=None) -> Plan:
         points = [result.points[i] for i in kept]
         paints = result.paints[kept]
         order = painting_order(points, paints, spec.limits.width_mm, s, (height_px, width_px))
-        strokes = [Stroke(paint=ids[int(paints[i])], width_mm=spec.limits.width_mm, path_mm=points[i]) for i in order]
-        layers.append(Layer(brush_width_mm=spec.limits.width_mm, strokes=strokes))
+        points, paints = [points[i] for i in order], paints[order]
+        travel = short_travel(points, paints, reach_mm=settings.reach_mm, wall_width_mm=wall_w,
+                              width_mm=spec.limits.width_mm, mm_per_px=s, shape=(height_px, width_px))
+        strokes = [Stroke(paint=ids[int(paints[i])], width_mm=spec.limits.width_mm, path_mm=path)
+                   for i, path in zip(travel.order, travel.paths(points))]
+        layers.append(Layer(brush_width_mm=spec.limits.width_mm, strokes=strokes,
+                            extra={"travel": travel.to_dict()}))
     plan = Plan(
         wall_width_mm=wall_w, wall_height_mm=wall_h, width_px=width_px, height_px=height_px, mm_per_px=s,
         palette=palette, ground=ids[ground], layers=layers, wall_unit=settings.wall_unit,

@@ -15,7 +15,12 @@ version 1). The names and meanings below must hold because other tools read them
 Coordinates are wall millimetres, origin top-left, x right, y down. A stroke's
 ``coats`` (a whole number >= 1) is how many coats it takes to hide what it covers
 (:mod:`layerplan.coats`); it is written only when more than 1, and a stroke without it
-has 1, so plans made before the field read unchanged. Further
+has 1, so plans made before the field read unchanged. A layer may
+carry ``"travel"`` (optional; absent in older plans): ``{"painted_m", "lifted_m",
+"lifted_before_m", "zone_visits", "zone_visits_before", "reach_m"}``, the length the
+brush paints, the lifted-brush travel from each stroke's last point to the next one's
+first in file order (and in the order before :func:`layerplan.order.short_travel`), how
+many times the painter sets up at a work zone, and the zone's side. Further
 sections (``settings``, ``stats``, ``inventory``, ``paint_use``, ...) may be added
 freely; they travel in ``Plan.extra`` so a plan read and written again keeps them.
 The ones several modules read have typed access on the objects: ``settings.wall_unit``

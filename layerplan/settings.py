@@ -28,6 +28,9 @@ FITS = ("cover", "contain")
 #: ladder: on the bench photos it keeps plans near 1.1 × the palette's floor with a fifth or less of the
 #: strokes of the Hertzmann (1998) baseline (bench/results.md); lower it for more detail, raise it for fewer strokes
 DEFAULT_STROKE_COST = 5.5
+#: side of a work zone, mm: about what a painter reaches from one ladder or scaffold-tower or lift position
+#: (common practice, from memory: an arm's span either side and a little over head height)
+DEFAULT_REACH_MM = 2000.0
 
 
 @dataclass(frozen=True)
@@ -68,6 +71,9 @@ class Settings:
         Whole parts of a recipe add up to at most this (1–30).
     tolerance_de : float
         A paint counts as mixable when its recipe is within this CIEDE2000 (0–100).
+    reach_mm : float
+        Side of a square work zone (one ladder or lift position): each paint's strokes in a
+        layer are painted zone by zone (:func:`layerplan.order.short_travel`).
     """
 
     wall_width_mm: float = DEFAULT_WALL_WIDTH_MM
@@ -84,6 +90,7 @@ class Settings:
     mix_paints: int = 3  # the solver's defaults (layerplan.recipes): 3 paints, 10 parts, ΔE00 3
     max_parts: int = 10
     tolerance_de: float = 3.0
+    reach_mm: float = DEFAULT_REACH_MM
     extra: dict[str, Any] = field(default_factory=dict, compare=False)
 
     def validated(self) -> "Settings":

@@ -202,6 +202,7 @@ class LayerSheet:
     map: Figure
     #: "P1: 2 coats where it covers P6 (12 strokes)", a line per paint and covered paint taking more coats
     coats: tuple[str, ...] = ()
+    travel: str = ""
 
 
 @dataclass(frozen=True)
@@ -549,7 +550,20 @@ def _layer(plan: Plan, n: int, imgs, outline: dict[str, Any], changed: float, *,
         f" (≈ {w.number(layer.brush_width_mm / w.MM_PER_INCH, 1)} in)" if w.is_us(unit) else "")
     picture = Figure(pic_w, f"The wall after layer {n}.", png_uri(imgs[f"steps/{n:02d}"]), f"the wall after layer {n}")
     map_svg = _svg(outline_map_svg(plan, labelled, grid_mm=grid_mm), anchor)
-    return LayerSheet(n, anchor, title, lead, picture, tuple(paints), Figure(map_w, caption, svg=map_svg))
+    return LayerSheet(n, anchor, title, lead, picture, tuple(paints), Figure(map_w, caption, svg=map_svg),
+                      _travel_line(layer, unit))
+
+
+def _travel_line(layer, unit: str) -> str:
+    """How the layer is worked across the wall and how far the brush travels (plan.json layer ``travel``)."""
+    t = layer.extra.get("travel")
+    if not isinstance(t, Mapping) or not layer.strokes:
+        return ""
+    side = w.length(t["reach_m"] * 1000, unit)
+    return (f"Work zone by zone from the top ({side} squares, one ladder or lift position each; "
+            f"{w.count(int(t['zone_visits']), 'set-up')}). The brush paints {w.length(t['painted_m'] * 1000, unit)} "
+            f"and travels {w.length(t['lifted_m'] * 1000, unit)} lifted between strokes "
+            f"({w.length(t['lifted_before_m'] * 1000, unit)} without this short-travel order).")
 
 
 def coat_lines(notes: list[CoatNote]) -> tuple[str, ...]:

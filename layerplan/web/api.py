@@ -35,6 +35,9 @@ numbers are mm):
                   4294967295 (``--seed``, default 0)
 ``stroke_cost``   colour error (ΔE00 per brush-width square) a stroke must remove to be painted; lower for
                   more detail, higher for fewer strokes; >= 0 (``--stroke-cost``, default 5.5)
+``reach``         side of a work zone, what you paint from one ladder or lift position: each paint's strokes
+                  are ordered zone by zone, top of the wall first; a length with a unit: 50cm, 2ft, 1/2m
+                  (plain numbers are mm) (``--reach``, default 2m)
 ``free_palette``  keep the photo's own colours instead of the colours the recipes will mix to; on or off
                   (``--free-palette``, default off)
 ``mix_paints``    most inventory paints in one mix; whole number from 1 to 4 (``--mix-paints``, default 3)
