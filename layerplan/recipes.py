@@ -151,6 +151,7 @@ def paint_optics(inventory: Inventory) -> mixing.PaintOptics:
 
     Tinted paints are fitted from masstone and tint with the inventory's white (its
     ``tinting_strength`` the reference scattering); the others use the simpler model.
+    ``from_tint`` is True for the tinted paints and for that white.
 
     References
     ----------
@@ -158,18 +159,31 @@ def paint_optics(inventory: Inventory) -> mixing.PaintOptics:
     """
     paints = inventory.paints
     white = inventory.white
-    nan = (math.nan,) * 3
+    nan = np.full(3, math.nan)
     optics = mixing.fit_paint_optics(
-        mixing.lab_to_xyz(np.array([p.lab for p in paints])),
+        np.array([_xyz(p.srgb, p.lab) for p in paints]),
         tinting_strength=np.array([p.tinting_strength for p in paints]),
-        white_xyz=None if white is None else mixing.lab_to_xyz(np.array(white.lab)),
-        tint_xyz=mixing.lab_to_xyz(np.array([p.tint.lab if p.tint else nan for p in paints])),
+        white_xyz=None if white is None else _xyz(white.srgb, white.lab),
+        tint_xyz=np.array([_xyz(p.tint.srgb, p.tint.lab) if p.tint else nan for p in paints]),
         tint_paint_fraction=np.array([p.tint.paint_fraction if p.tint else 0.5 for p in paints]),
         white_strength=1.0 if white is None else white.tinting_strength,
     )
+    # the white the tints were made with is the reference of the fit, as sure as any tinted paint
+    known = optics.from_tint | np.array([p.white for p in paints])
+    optics = mixing.PaintOptics(optics.absorption, optics.scattering, known)
     for a in (optics.absorption, optics.scattering, optics.from_tint):
         a.setflags(write=False)
     return optics
+
+
+def _xyz(srgb: str, lab) -> np.ndarray:
+    """XYZ of an inventory colour: exactly its sRGB where it was given so, else its measured CIELAB."""
+    from .colour import srgb_to_lab
+
+    rgb = np.array(hex_to_rgb(srgb), dtype=np.uint8)
+    if np.allclose(srgb_to_lab(rgb), lab, atol=1e-3):  # the CIELAB is that of the sRGB (rounded)
+        return mixing.srgb_to_xyz(rgb)
+    return mixing.lab_to_xyz(np.asarray(lab, dtype=np.float64))
 
 
 def check_options(max_paints, max_parts, tolerance=None) -> None:
