@@ -92,8 +92,6 @@ import numpy as np
 
 #: reflectance floor: K/S is infinite at R = 0 (only pure #000000 reaches it)
 R_MIN = 1e-4
-#: rows of mixes evaluated at once (bounds memory: rows × 81 wavelengths × 8 bytes)
-_CHUNK_ROWS = 32768
 #: CIE 1976 L*a*b* constants (CIE 15:2004)
 _LAB_EPS = 216.0 / 24389.0
 _LAB_KAPPA = 24389.0 / 27.0
@@ -139,6 +137,14 @@ def _tables():
         "white": white,
         "xyz_to_rgb": np.array(_XYZ_TO_SRGB, dtype=np.float64),
     }
+
+
+def xyz_weights() -> np.ndarray:
+    """(W, 3) weights that turn a reflectance into XYZ: D65 × CIE 1931 2° colour-matching
+    functions, normalised so the perfect white reflector has Y = 1 (read-only)."""
+    w = _tables()["weights"]
+    w.setflags(write=False)
+    return w
 
 
 def wavelengths_nm() -> np.ndarray:
@@ -206,6 +212,7 @@ def srgb_to_xyz(rgb) -> np.ndarray:
     return _srgb_decode(v) @ _srgb_to_xyz_matrix().T
 
 
+@lru_cache(maxsize=1)
 def _slope_matrix() -> np.ndarray:
     """(W, W) DᵀD for first differences D: the squared-slope penalty of LHTSS."""
     n = len(_tables()["wavelengths"])
@@ -679,31 +686,3 @@ def mix_optics_colours(optics: PaintOptics, parts) -> tuple[np.ndarray, np.ndarr
     """
     xyz = reflectance_to_xyz(mix_reflectance(optics, parts))
     return xyz_to_lab(xyz), xyz_to_srgb(xyz)
-
-
-def mix_table_colours(optics: PaintOptics, weights) -> tuple[np.ndarray, np.ndarray]:
-    """CIELAB and sRGB of many mixes at once, evaluated in chunks.
-
-    Parameters
-    ----------
-    optics : PaintOptics
-    weights : (M, P) float array
-        Parts of each paint in each mix (rows with a positive total; any scale).
-
-    Returns
-    -------
-    lab : (M, 3) float64
-    srgb : (M, 3) uint8
-
-    References
-    ----------
-    Kubelka & Munk (1931); Duncan (1940); CIE 15:2004.
-    """
-    w = np.asarray(weights, dtype=np.float64)
-    lab = np.empty((len(w), 3))
-    srgb = np.empty((len(w), 3), dtype=np.uint8)
-    for start in range(0, len(w), _CHUNK_ROWS):
-        xyz = reflectance_to_xyz(_mix(optics, w[start : start + _CHUNK_ROWS]))
-        lab[start : start + _CHUNK_ROWS] = xyz_to_lab(xyz)
-        srgb[start : start + _CHUNK_ROWS] = xyz_to_srgb(xyz)
-    return lab, srgb

@@ -277,11 +277,11 @@ def _cached_table(inventory: Inventory, max_paints: int, max_parts: int) -> MixT
         part_blocks.append(np.pad(parts, ((0, 0), (0, pad)), constant_values=0))
     paint_idx = np.concatenate(idx_blocks)
     parts = np.concatenate(part_blocks)
-    rows = np.arange(len(paint_idx))[:, None]
-    weights = np.zeros((len(paint_idx), n_inv))
     used = paint_idx >= 0
-    np.add.at(weights, (np.broadcast_to(rows, paint_idx.shape)[used], paint_idx[used]), parts[used])
-    lab, rgb = mixing.mix_table_colours(optics, weights)
+    xyz = np.empty((len(paint_idx), 3))
+    _mix_table_xyz(paint_idx, parts.astype(np.float64), optics.absorption, optics.scattering,
+                   mixing.xyz_weights(), mixing.SAUNDERSON_K1, mixing.SAUNDERSON_K2, xyz)
+    lab, rgb = mixing.xyz_to_lab(xyz), mixing.xyz_to_srgb(xyz)
     for a in (paint_idx, parts, lab, rgb):
         a.setflags(write=False)
     return MixTable(
@@ -363,6 +363,38 @@ def solve_recipes(
         target = targets_srgb[i] if targets_srgb is not None else rgb_to_hex(lab_to_srgb(wanted))
         recipes.append(_recipe(table, row, target, float(de[row]), tolerance))
     return recipes
+
+
+@njit(cache=True, nogil=True)
+def _mix_table_xyz(paint_idx, parts, absorption, scattering, weights, k1, k2, out):
+    """XYZ of every mix of the table: Duncan's rule, Kubelka–Munk R∞, Saunderson, CIE weights.
+
+    The same formulae as :func:`layerplan.mixing.mix_optics_colours` (the tests compare), compiled
+    so that only the few paints of each mix are read and no (mixes × wavelengths) temporaries are
+    made.
+    """
+    n_w = absorption.shape[1]
+    for m in range(paint_idx.shape[0]):
+        x = 0.0
+        y = 0.0
+        z = 0.0
+        for w in range(n_w):
+            k = 0.0
+            s = 0.0
+            for j in range(paint_idx.shape[1]):
+                i = paint_idx[m, j]
+                if i >= 0:
+                    k += parts[m, j] * absorption[i, w]
+                    s += parts[m, j] * scattering[i, w]
+            q = k / s
+            ri = 1.0 + q - math.sqrt(q * q + 2.0 * q)
+            r = (1.0 - k1) * (1.0 - k2) * ri / (1.0 - k2 * ri)
+            x += r * weights[w, 0]
+            y += r * weights[w, 1]
+            z += r * weights[w, 2]
+        out[m, 0] = x
+        out[m, 1] = y
+        out[m, 2] = z
 
 
 @njit(cache=True, nogil=True)

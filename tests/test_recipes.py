@@ -57,6 +57,22 @@ def test_the_solver_finds_back_mixes_the_model_made_at_random_ratios(inv):
         assert {name: n for name, n in r.parts} == {inv.paints[i].name: int(v) // g for i, v in enumerate(full) if v}
 
 
+def test_the_compiled_table_agrees_with_the_mixing_model(inv):
+    # the table's compiled kernel and layerplan.mixing.mix_optics_colours compute the same formulae
+    # (Duncan 1940, Kubelka & Munk 1931, Saunderson 1942) by separate code
+    table = recipes.build_mix_table(inv)
+    optics = recipes.paint_optics(inv)
+    rows = np.random.default_rng(5).choice(len(table), 300, replace=False)
+    parts = np.zeros((len(rows), len(inv)))
+    for k, row in enumerate(rows):
+        for i, n in zip(table.paint_idx[row], table.parts[row]):
+            if i >= 0:
+                parts[k, i] = n
+    lab, rgb = mixing.mix_optics_colours(optics, parts)
+    assert np.allclose(lab, table.lab[rows], atol=1e-9)
+    assert np.array_equal(rgb, table.rgb[rows])
+
+
 def test_recipes_keep_to_the_limits_in_whole_parts_in_lowest_terms(inv):
     rng = np.random.default_rng(2)
     targets = rng.uniform([15, -50, -50], [95, 50, 50], (25, 3))
