@@ -513,11 +513,11 @@ def fit_paint_optics(
     if has_tint.any():
         if white_xyz is None:
             raise ValueError("a tint needs the white it was made with (white_xyz)")
-        frac = np.asarray(tint_paint_fraction, dtype=np.float64).reshape(-1) if tint_paint_fraction is not None else None
+        frac = None if tint_paint_fraction is None else np.asarray(tint_paint_fraction, dtype=np.float64).reshape(-1)
         if frac is None or frac.shape != (p,) or not np.all((frac[has_tint] > 0) & (frac[has_tint] < 1)):
             raise ValueError("tint_paint_fraction must give each tinted paint's share of its tint, in (0, 1)")
-        q_w = ks_from_reflectance(internal_reflectance(reflectance_from_xyz(np.asarray(white_xyz, float).reshape(1, 3),
-                                                                             method=method)))[0]
+        white_r = reflectance_from_xyz(np.asarray(white_xyz, dtype=np.float64).reshape(1, 3), method=method)
+        q_w = ks_from_reflectance(internal_reflectance(white_r))[0]
         q_t = ks_from_reflectance(internal_reflectance(reflectance_from_xyz(tint[has_tint], method=method)))
         f = frac[has_tint][:, None]
         s[has_tint] = white_strength * _scattering_from_tint(q_m[has_tint], q_t, q_w, f)

@@ -143,6 +143,8 @@ def _bad(text):
 
 
 PAINT = '[[paint]]\nname = "White"\nsrgb = "#ffffff"\n'
+#: a white and a blue, the blue's tint table to follow on line 8
+BLUE = PAINT + 'white = true\n[[paint]]\nname = "Blue"\nsrgb = "#23308a"\n'
 
 
 @pytest.mark.parametrize(
@@ -178,28 +180,30 @@ PAINT = '[[paint]]\nname = "White"\nsrgb = "#ffffff"\n'
         ('paint = [{name = "White", srgb = "#fff"}, {name = "Black", srgb = "black"}]\n',
          r"kit\.toml: paint 2 \('Black'\): field 'srgb': not a hex colour"),
         ('format = 3\n' + PAINT, r"kit\.toml: 'format' must be one of 1, 2, got 3"),
-        ('[[paint]]\nname = "W"\nsrgb = "#fff"\nwhite = "yes"\n', r"line 4: paint 1 \('W'\): field 'white': must be true or false"),
+        ('[[paint]]\nname = "W"\nsrgb = "#fff"\nwhite = "yes"\n',
+         r"line 4: paint 1 \('W'\): field 'white': must be true or false"),
         (PAINT + 'white = true\n[[paint]]\nname = "Chalk"\nsrgb = "#eee"\nwhite = true\n',
          r"line 8: paint 2 \('Chalk'\): field 'white': 'White' \(paint 1\) is already the white"),
-        (PAINT + '[[paint]]\nname = "Blue"\nsrgb = "#23308a"\ntint = { srgb = "#8f9ad0", paint_parts = 1, white_parts = 9 }\n',
+        (PAINT + '[[paint]]\nname = "Blue"\nsrgb = "#23308a"\n'
+         'tint = { srgb = "#8f9ad0", paint_parts = 1, white_parts = 9 }\n',
          r"line 7: paint 2 \('Blue'\): field 'tint': a tint needs the white it was made with; add `white = true`"),
         (PAINT + 'white = true\ntint = { srgb = "#eee", paint_parts = 1, white_parts = 9 }\n',
          r"line 5: paint 1 \('White'\): field 'tint': the white has no tint"),
-        (PAINT + 'white = true\n[[paint]]\nname = "Blue"\nsrgb = "#23308a"\ntint = "#8f9ad0"\n',
+        (BLUE + 'tint = "#8f9ad0"\n',
          r"line 8: paint 2 \('Blue'\): field 'tint': must be a table like"),
-        (PAINT + 'white = true\n[[paint]]\nname = "Blue"\nsrgb = "#23308a"\ntint = { paint_parts = 1, white_parts = 9 }\n',
+        (BLUE + 'tint = { paint_parts = 1, white_parts = 9 }\n',
          r"line 8: paint 2 \('Blue'\): field 'tint\.srgb': give exactly one of 'srgb'"),
-        (PAINT + 'white = true\n[[paint]]\nname = "Blue"\nsrgb = "#23308a"\ntint = { srgb = "#8f9azz", paint_parts = 1, white_parts = 9 }\n',
+        (BLUE + 'tint = { srgb = "#8f9azz", paint_parts = 1, white_parts = 9 }\n',
          r"field 'tint\.srgb': not a hex colour"),
-        (PAINT + 'white = true\n[[paint]]\nname = "Blue"\nsrgb = "#23308a"\ntint = { lab = [120, 0, 0], paint_parts = 1, white_parts = 9 }\n',
+        (BLUE + 'tint = { lab = [120, 0, 0], paint_parts = 1, white_parts = 9 }\n',
          r"field 'tint\.lab': L must be from 0 to 100, got 120"),
-        (PAINT + 'white = true\n[[paint]]\nname = "Blue"\nsrgb = "#23308a"\ntint = { srgb = "#8f9ad0", white_parts = 9 }\n',
+        (BLUE + 'tint = { srgb = "#8f9ad0", white_parts = 9 }\n',
          r"line 8: paint 2 \('Blue'\): field 'tint\.paint_parts': missing"),
-        (PAINT + 'white = true\n[[paint]]\nname = "Blue"\nsrgb = "#23308a"\ntint = { srgb = "#8f9ad0", paint_parts = 1, white_parts = 0 }\n',
+        (BLUE + 'tint = { srgb = "#8f9ad0", paint_parts = 1, white_parts = 0 }\n',
          r"field 'tint\.white_parts': must be a number > 0 and at most 1000, got 0"),
-        (PAINT + 'white = true\n[[paint]]\nname = "Blue"\nsrgb = "#23308a"\ntint = { srgb = "#8f9ad0", paint_parts = 1, white_part = 9 }\n',
+        (BLUE + 'tint = { srgb = "#8f9ad0", paint_parts = 1, white_part = 9 }\n',
          r"field 'tint\.white_part': unknown field of a tint"),
-        (PAINT + 'white = true\n[[paint]]\nname = "Blue"\nsrgb = "#23308a"\ntinting_strength = 2\n'
+        (BLUE + 'tinting_strength = 2\n'
          'tint = { srgb = "#8f9ad0", paint_parts = 1, white_parts = 9 }\n',
          r"line 8: paint 2 \('Blue'\): field 'tinting_strength': not used with a tint"),
     ],

@@ -176,7 +176,8 @@ def test_duncans_rule_is_the_weighted_sum_of_k_over_the_weighted_sum_of_s():
     # equal scattering reduces it to the single-constant mean of K/S (Berns & Mohammadi 2007)
     o1 = mixing.PaintOptics(o.absorption, np.ones((2, 81)), o.from_tint)
     ks1 = (2 * 0.2 + 3.0) / 3
-    assert np.allclose(mixing.mix_reflectance(o1, [2, 1]), mixing.observed_reflectance(1 + ks1 - np.sqrt(ks1**2 + 2 * ks1)))
+    ri1 = 1 + ks1 - np.sqrt(ks1**2 + 2 * ks1)
+    assert np.allclose(mixing.mix_reflectance(o1, [2, 1]), mixing.observed_reflectance(ri1))
 
 
 def test_a_fitted_paint_gives_back_its_masstone_and_its_tint():
@@ -348,10 +349,11 @@ def _revigo():
     out = {}
     for sample in fractions:
         r1, g1, r2, g2 = (spectra[f"{sample}_{bg}"] for bg in ("ob", "b", "ow", "w"))
-        # Kubelka (1948): a layer over two backgrounds g gives a = (1/R∞ + R∞)/2 from
+        # Kubelka (1948, JOSA 38:448): a layer over two backgrounds g gives a = (1/R∞ + R∞)/2 from
         # (1 + R g - a (R + g)) / (R - g) being the same for both
         with np.errstate(divide="ignore", invalid="ignore"):
-            a = ((1 + r2 * g2) / (r2 - g2) - (1 + r1 * g1) / (r1 - g1)) / ((r2 + g2) / (r2 - g2) - (r1 + g1) / (r1 - g1))
+            b1, b2 = (1 + r1 * g1) / (r1 - g1), (1 + r2 * g2) / (r2 - g2)
+            a = (b2 - b1) / ((r2 + g2) / (r2 - g2) - (r1 + g1) / (r1 - g1))
             rinf = np.maximum(a, 1.0) - np.sqrt(np.maximum(a, 1.0) ** 2 - 1.0)
         opaque = np.abs(r2 - r1) < 0.003  # hiding: both backgrounds give the same reflectance
         rinf = np.where(opaque | ~np.isfinite(rinf), r2, rinf)

@@ -126,7 +126,8 @@ def test_mixes_of_paints_without_a_tint_say_so():
     # in the recipe and its JSON form; a paint alone needs no prediction and says nothing
     text = ('[[paint]]\nname = "White"\nsrgb = "#f4f3ee"\nwhite = true\n'
             '[[paint]]\nname = "Blue"\nsrgb = "#123d75"\n'
-            '[[paint]]\nname = "Yellow"\nsrgb = "#f0dc28"\ntint = { srgb = "#f5ea95", paint_parts = 1, white_parts = 9 }\n')
+            '[[paint]]\nname = "Yellow"\nsrgb = "#f0dc28"\n'
+            'tint = { srgb = "#f5ea95", paint_parts = 1, white_parts = 9 }\n')
     inv = loads_inventory(text)
     mixed, alone = recipes.recipes_for_srgb(["#7f95b5", "#123d75"], inv)
     assert len(mixed.parts) >= 2 and "Blue" in dict(mixed.parts)
