@@ -33,6 +33,22 @@ name = "Violet"
 srgb = "#4b2a6e"
 tint = { srgb = "#b2a3c8", paint_parts = 1, white_parts = 9 }
 """
+#: accuracy of the mixing model, before (single-constant Kubelka–Munk from one colour per paint,
+#: Mallett & Yuksel spectra) and after (two-constant from masstone and tint, Burns spectra,
+#: Saunderson correction): measured once on 2026-12-03 by the tests' own data and checks
+#: (tests/test_mixing.py; the table in layerplan/mixing.py's docstring), not re-run by this bench
+MODEL_NOTES = """\
+## Mixing model accuracy, before and after (measured once, not re-run by this bench)
+
+| measure | before | after |
+|---|---|---|
+| Revigo oil paints (Geldof et al. 2018): ~50 % tint predicted from the colours of masstone and ~10 % tint, mean / median ΔE00 over 6 pigments | 7.5 / 7.0 (masstone only) | 1.9 / 1.3 |
+| ultramarine + chrome yellow (Revigo) at 1:3, 1:1, 3:1: CIELAB hue | — | 141°, 155°, 170° (green) |
+| default set: 57 checks of facts of the trade (blue + yellow green, red + yellow orange, red + blue violet, complementaries near-neutral, white tints keep hue, black + yellow olive) | 37 hold | 51 hold |
+| default set: blue + yellow green, 12 checks | 6 | 10 (not: violet-leaning blue + orange-leaning yellow at 1:3 and 3:1) |
+| `mix --combine 'Warm blue=1' 'Cool yellow=1'` | #304b5d (hue 251°, a greyish blue) | #568559 (hue 143°, a green) |
+| this bench: table + 12 recipes, empty cache, median | 0.341 s | see above (under load) |
+"""
 RUNS = 5
 TARGET_S = 2.0  # mixing must not be what a planner waits for: a small share of a plan's time
 
@@ -120,6 +136,7 @@ def main() -> int:
     for r in result:
         parts = " + ".join(f"{n} {name}" for name, n in r.parts)
         lines.append(f"| {r.target} | {parts} | {r.predicted_srgb} | {r.delta_e:.2f} | {'yes' if r.in_gamut else 'no'} |")
+    lines += ["", MODEL_NOTES.rstrip("\n")]
     out = Path(__file__).with_name("results-recipes.md")
     tmp = out.with_suffix(".md.tmp")
     tmp.write_text("\n".join(lines) + "\n", encoding="utf-8")
