@@ -245,3 +245,23 @@ def test_file_problems_are_reported_with_the_file_name(tmp_path):
     g = tmp_path / "bom.toml"
     g.write_bytes(b"\xef\xbb\xbf" + PAINT.encode())  # a UTF-8 byte-order mark is accepted
     assert load_inventory(g).names() == ["White"]
+
+
+def test_the_documented_examples_are_valid_inventories():
+    # the README's inventory example and this module's docstring example read as written (format 2:
+    # a white, a tinted paint, a measured paint without a tint)
+    import re
+    import textwrap
+    from pathlib import Path
+
+    from layerplan import inventory
+
+    readme = (Path(__file__).resolve().parents[1] / "README.md").read_text("utf-8")
+    section = readme[readme.index("## Your paints and mix recipes"):]
+    examples = [re.search(r"```toml\n(.*?)```", section, re.S).group(1)]
+    doc = inventory.__doc__
+    examples.append(textwrap.dedent(doc[doc.index("::") + 3:doc.index("Each paint gives")]))
+    for text in examples:
+        inv = loads_inventory(text)
+        assert inv.white is not None and any(p.tint is not None for p in inv.paints)
+        assert any(p.tint is None and not p.white for p in inv.paints)
