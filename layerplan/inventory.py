@@ -35,7 +35,8 @@ with the inventory's white, as ``srgb`` or ``lab``, and the parts it was mixed i
 recipes). One part colour to about nine parts white is a clear tint that tells the most
 (common practice for tint tests). Exactly one paint, the white the tints were made with,
 says ``white = true``; it has no tint itself. Black is described like any colour, by its
-grey tint. From masstone and tint the mixing model (:mod:`layerplan.mixing`) fits how the
+grey tint. A tint's lightness must lie between the paint's and the white's (within
+:data:`TINT_LIGHTNESS_SLACK`), which catches swapped parts. From masstone and tint the mixing model (:mod:`layerplan.mixing`) fits how the
 paint absorbs and scatters light at each wavelength, which is what makes a blue and a
 yellow mix to green; a tint also measures how strongly the paint colours a mix, so
 ``tinting_strength`` may not be given beside it.
@@ -83,6 +84,8 @@ _TINT_KEYS = ("srgb", "lab", "paint_parts", "white_parts")
 _TOP_KEYS = ("title", "format", "paint")
 #: the inventory formats this version reads (1: masstones only; 2: adds ``white`` and ``tint``)
 FORMATS = (1, 2)
+#: CIELAB L* by which a tint may fall outside its paint's and its white's lightness (measuring noise)
+TINT_LIGHTNESS_SLACK = 2.0
 #: largest number of parts in a tint (a tint of 1 part in 1000 is already near-white)
 MAX_TINT_PARTS = 1000.0
 _HEADER_RE = re.compile(r"^\s*\[\[\s*paint\s*\]\]")
@@ -329,6 +332,16 @@ def _check_white(paints: list[StockPaint], header_lines, field_lines, source: st
             f"{at(tinted[0], 'tint')}: field 'tint': a tint needs the white it was made with; add "
             f"`white = true` to that white's [[paint]] table"
         )
+    for i in tinted:
+        # white lightens: a tint darker than its paint or lighter than the white is a slip (swapped
+        # parts, or colours of the wrong swatch), and would make the fit nonsense
+        L_paint, L_tint, L_white = paints[i].lab[0], paints[i].tint.lab[0], paints[whites[0]].lab[0]
+        if not L_paint - TINT_LIGHTNESS_SLACK <= L_tint <= L_white + TINT_LIGHTNESS_SLACK:
+            raise InventoryError(
+                f"{at(i, 'tint')}: field 'tint': its lightness (L* {L_tint:.0f}) should lie between the paint's "
+                f"(L* {L_paint:.0f}) and the white's (L* {L_white:.0f}); check the tint's colour and that "
+                f"paint_parts and white_parts are not swapped"
+            )
 
 
 def _field_lines(lines: list[str], header_lines: list[int]) -> list[dict[str, int]]:

@@ -203,6 +203,8 @@ BLUE = PAINT + 'white = true\n[[paint]]\nname = "Blue"\nsrgb = "#23308a"\n'
          r"field 'tint\.white_parts': must be a number > 0 and at most 1000, got 0"),
         (BLUE + 'tint = { srgb = "#8f9ad0", paint_parts = 1, white_part = 9 }\n',
          r"field 'tint\.white_part': unknown field of a tint"),
+        (BLUE + 'tint = { srgb = "#101840", paint_parts = 9, white_parts = 1 }\n',
+         r"line 8: paint 2 \('Blue'\): field 'tint': its lightness \(L\* 10\) should lie between the paint's \(L\* 25\)"),
         (BLUE + 'tinting_strength = 2\n'
          'tint = { srgb = "#8f9ad0", paint_parts = 1, white_parts = 9 }\n',
          r"line 8: paint 2 \('Blue'\): field 'tinting_strength': not used with a tint"),
