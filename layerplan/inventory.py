@@ -36,10 +36,11 @@ recipes). One part colour to about nine parts white is a clear tint that tells t
 (common practice for tint tests). Exactly one paint, the white the tints were made with,
 says ``white = true``; it has no tint itself. Black is described like any colour, by its
 grey tint. A tint's lightness must lie between the paint's and the white's (within
-:data:`TINT_LIGHTNESS_SLACK`), which catches swapped parts. From masstone and tint the mixing model (:mod:`layerplan.mixing`) fits how the
-paint absorbs and scatters light at each wavelength, which is what makes a blue and a
-yellow mix to green; a tint also measures how strongly the paint colours a mix, so
-``tinting_strength`` may not be given beside it.
+:data:`TINT_LIGHTNESS_SLACK`), which catches swapped parts. From masstone and tint the
+mixing model (:mod:`layerplan.mixing`) fits how the paint absorbs and scatters light at
+each wavelength, which is what makes a blue and a yellow mix to green; a tint also
+measures how strongly the paint colours a mix, so ``tinting_strength`` may not be given
+beside it.
 
 **Paints without a tint** (every paint of a format-1 file) use the simpler model: the
 paint scatters light alike at all wavelengths, as strongly as its ``tinting_strength``
