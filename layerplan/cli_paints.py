@@ -4,9 +4,10 @@
     List the inventory (JSON: ``[{"name", "srgb"}, ...]``).
 ``layerplan mix COLOUR... [--inventory FILE] [--json]``
     A recipe for each colour (JSON: a list of ``{"target", "parts", "predicted_srgb",
-    "delta_e", "in_gamut"}``).
+    "delta_e", "in_gamut"}``, with ``"no_tint": [names]`` where a mix uses paints the
+    inventory gives no tint for).
 ``layerplan mix --combine NAME=PARTS ... [--inventory FILE] [--json]``
-    What that mix looks like (JSON: ``{"predicted_srgb", "lab"}``).
+    What that mix looks like (JSON: ``{"predicted_srgb", "lab"}``, and ``"no_tint"`` likewise).
 
 Errors go to stderr as ``layerplan: error: ...`` with exit status 2, and nothing is
 printed on stdout.
@@ -128,6 +129,12 @@ def _paints_text(args) -> str:
     lines = [inv.title or inv.source, ""] if (inv.title or args.inventory) else []
     for p in inv.paints:
         extra = []
+        if p.white:
+            extra.append("the white tints are made with")
+        if p.tint is not None:
+            extra.append(f"tint {p.tint.srgb} at {p.tint.paint_parts:g} : {p.tint.white_parts:g} with the white")
+        elif not p.white and inv.white is not None:
+            extra.append("no tint given")
         if p.tinting_strength != 1.0:
             extra.append(f"tinting strength {p.tinting_strength:g}")
         if p.containers_l:
@@ -180,7 +187,10 @@ def _mix_text(args) -> str:
             return json.dumps(result, ensure_ascii=False) + "\n"
         recipe = " + ".join(f"{v:g} {inv.paint(k).name}" for k, v in parts.items())
         L, a, b = result["lab"]
-        return f"{recipe}  ->  {result['predicted_srgb']}  (CIELAB {L:.1f}, {a:.1f}, {b:.1f})\n"
+        text = f"{recipe}  ->  {result['predicted_srgb']}  (CIELAB {L:.1f}, {a:.1f}, {b:.1f})\n"
+        if result.get("no_tint"):
+            text += f"  {_less_sure(result['no_tint'])}\n"
+        return text
 
     colours = [parse_colour(c) for c in args.colours]
     inv = inventory_from_arg(args.inventory)
@@ -194,9 +204,16 @@ def _mix_text(args) -> str:
         out.append(f"{r.target}: {verdict}: {r.predicted_srgb}, ΔE00 {r.delta_e:.1f}")
         for name, n in r.parts:
             out.append(f"  {n:>2} part{'s' if n != 1 else ' '} {name}")
+        if r.no_tint:
+            out.append(f"  {_less_sure(r.no_tint)}")
     out.append("")
     out.append("Mixes are model predictions: mix a small swatch and let it dry before mixing the batch.")
     return "\n".join(out) + "\n"
+
+
+def _less_sure(names) -> str:
+    """The caution for a mix using paints the inventory gives no tint for."""
+    return f"no tint given: prediction less sure ({', '.join(names)})"
 
 
 def main(argv=None) -> int:

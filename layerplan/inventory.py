@@ -5,35 +5,56 @@ An inventory is a small TOML file (TOML 1.0, read with Python's ``tomllib``) wit
 
     # My wall paints
     title = "Community-centre wall kit"      # optional, shown by `layerplan paints`
+    format = 2                               # optional: the format of this file (1 or 2)
 
     [[paint]]
-    name = "White"                  # required; unique (ignoring case); no '='
+    name = "Titanium white"         # required; unique (ignoring case); no '='
     srgb = "#f4f3ee"                # the paint's colour as sRGB hex ...
-    tinting_strength = 1.0          # optional, > 0; default 1 (see below)
+    white = true                    # the white your tints are made with (at most one paint)
     containers_l = [1.0, 4.0]       # optional: tin sizes you can buy, litres
     note = "covers well"            # optional free text
 
     [[paint]]
+    name = "Warm blue"
+    srgb = "#23308a"                                              # masstone ...
+    tint = { srgb = "#8f9ad0", paint_parts = 1, white_parts = 9 }  # ... and a tint with the white
+
+    [[paint]]
     name = "Earth red"
     lab = [38.5, 30.1, 28.7]        # ... or CIELAB (D65, 2°) if you measured it
+    tinting_strength = 1.2          # optional, only for a paint without a tint (see below)
 
 Each paint gives exactly one of ``srgb`` (``#rrggbb`` or ``#rgb``) or ``lab``
-(``[L, a, b]``, L from 0 to 100). A measured colour outside the sRGB gamut is modelled
-by its nearest sRGB colour (clipped), because the spectral model starts from sRGB.
+(``[L, a, b]``, L from 0 to 100): its **masstone**, the colour of the paint alone, thick
+enough to hide what is under it. A measured colour outside the sRGB gamut is shown as its
+nearest sRGB colour; the mixing model uses the measured CIELAB.
 
-``tinting_strength`` says how strongly a paint colours a mix compared with the others:
-in the mixing model (:mod:`layerplan.mixing`) a paint's parts are multiplied by it, so a
-paint of strength 2 counts as if twice as much were in the mix. A paint alone is
-unchanged whatever its strength. Leave it at 1 if you do not know it; compare tints of
-each paint with white at the same ratio to set it (common practice).
+**Tints (format 2).** A paint may also give ``tint``: the colour of a mix of that paint
+with the inventory's white, as ``srgb`` or ``lab``, and the parts it was mixed in
+(``paint_parts`` and ``white_parts``, numbers > 0, decimals allowed; by volume, like the
+recipes). One part colour to about nine parts white is a clear tint that tells the most
+(common practice for tint tests). Exactly one paint, the white the tints were made with,
+says ``white = true``; it has no tint itself. Black is described like any colour, by its
+grey tint. A tint's lightness must lie between the paint's and the white's (within
+:data:`TINT_LIGHTNESS_SLACK`), which catches swapped parts. From masstone and tint the
+mixing model (:mod:`layerplan.mixing`) fits how the paint absorbs and scatters light at
+each wavelength, which is what makes a blue and a yellow mix to green; a tint also
+measures how strongly the paint colours a mix, so ``tinting_strength`` may not be given
+beside it.
+
+**Paints without a tint** (every paint of a format-1 file) use the simpler model: the
+paint scatters light alike at all wavelengths, as strongly as its ``tinting_strength``
+says (default 1: like the white). A paint of strength 2 counts as if twice as much were
+in the mix; a paint alone is unchanged whatever its strength. Recipes that use such a
+paint with others say "no tint given: prediction less sure".
 
 Unknown keys are refused (so a misspelt ``tinting_strenght`` is not silently ignored);
 every error names the file, the line (of the faulty field where it is written on a line
 of its own, else of the paint's ``[[paint]]`` header), the paint's number and name, and
-the field.
+the field (``tint.white_parts`` for a part of a tint).
 
 A default inventory ships with the package (``layerplan/data/default_inventory.toml``):
-a basic acrylic set for wall work, its colours approximate values from memory.
+a basic acrylic set for wall work with masstones and tints, approximate values from memory.
 """
 
 from __future__ import annotations
@@ -59,8 +80,15 @@ MAX_CONTAINER_L = 200.0
 #: largest inventory file read, bytes
 MAX_FILE_BYTES = 1_000_000
 
-_PAINT_KEYS = ("name", "srgb", "lab", "tinting_strength", "containers_l", "note")
-_TOP_KEYS = ("title", "paint")
+_PAINT_KEYS = ("name", "srgb", "lab", "white", "tint", "tinting_strength", "containers_l", "note")
+_TINT_KEYS = ("srgb", "lab", "paint_parts", "white_parts")
+_TOP_KEYS = ("title", "format", "paint")
+#: the inventory formats this version reads (1: masstones only; 2: adds ``white`` and ``tint``)
+FORMATS = (1, 2)
+#: CIELAB L* by which a tint may fall outside its paint's and its white's lightness (measuring noise)
+TINT_LIGHTNESS_SLACK = 2.0
+#: largest number of parts in a tint (a tint of 1 part in 1000 is already near-white)
+MAX_TINT_PARTS = 1000.0
 _HEADER_RE = re.compile(r"^\s*\[\[\s*paint\s*\]\]")
 #: a ``key = value`` line of a table (bare or quoted key; TOML 1.0, "Keys")
 _KEY_RE = re.compile(r"""^\s*(?:"([^"]+)"|'([^']+)'|([A-Za-z0-9_-]+))\s*=""")
@@ -70,6 +98,31 @@ DEFAULT_INVENTORY_NAME = "default_inventory.toml"
 
 class InventoryError(ValueError):
     """An inventory file or entry is wrong; the message names file, line/entry and field."""
+
+
+@dataclass(frozen=True)
+class Tint:
+    """A tint of a paint with the inventory's white.
+
+    Parameters
+    ----------
+    srgb : str
+        ``#rrggbb`` of the tint (shown; the nearest sRGB colour if ``lab`` was measured).
+    lab : tuple of float
+        CIELAB (D65, 2°) of the tint, as measured or that of ``srgb``.
+    paint_parts, white_parts : float
+        The parts of paint and white it was mixed from (> 0).
+    """
+
+    srgb: str
+    lab: tuple[float, float, float]
+    paint_parts: float
+    white_parts: float
+
+    @property
+    def paint_fraction(self) -> float:
+        """Share of the paint in the tint, in (0, 1)."""
+        return self.paint_parts / (self.paint_parts + self.white_parts)
 
 
 @dataclass(frozen=True)
@@ -85,10 +138,14 @@ class StockPaint:
     lab : tuple of float
         CIELAB (D65, 2°): as measured if the file gave ``lab``, else that of ``srgb``.
     tinting_strength : float
-        Weight of one part of this paint in a mix (1 = ordinary).
+        Scattering of a paint without a tint in the simpler model (1 = like the white).
     containers_l : tuple of float
         Tin sizes the painter buys, litres (may be empty).
     note : str
+    white : bool
+        The white the inventory's tints are made with.
+    tint : Tint or None
+        A tint with that white, if given.
     """
 
     name: str
@@ -97,6 +154,8 @@ class StockPaint:
     tinting_strength: float = 1.0
     containers_l: tuple[float, ...] = ()
     note: str = ""
+    white: bool = False
+    tint: Tint | None = None
 
     @property
     def rgb(self) -> tuple[int, int, int]:
@@ -137,6 +196,11 @@ class Inventory:
 
     def paint(self, name: str) -> StockPaint:
         return self.paints[self.index(name)]
+
+    @property
+    def white(self) -> StockPaint | None:
+        """The paint marked ``white = true`` (the white of the tints), or None."""
+        return next((p for p in self.paints if p.white), None)
 
     def to_list(self) -> list[dict]:
         """``[{"name", "srgb"}, ...]``: the JSON listing of ``layerplan paints --json``."""
@@ -214,6 +278,9 @@ def loads_inventory(text: str, *, source: str = "<inventory>") -> Inventory:
     title = doc.get("title", "")
     if not isinstance(title, str):
         raise InventoryError(f"{source}: 'title' must be text, got {title!r}")
+    fmt = doc.get("format", 1)
+    if isinstance(fmt, bool) or fmt not in FORMATS:
+        raise InventoryError(f"{source}: 'format' must be one of {', '.join(map(str, FORMATS))}, got {fmt!r}")
     entries = doc.get("paint")
     if entries is None or entries == []:
         raise InventoryError(f"{source}: no paints: add one [[paint]] table per paint")
@@ -244,7 +311,38 @@ def loads_inventory(text: str, *, source: str = "<inventory>") -> Inventory:
             )
         seen[key] = i
         paints.append(paint)
+    _check_white(paints, header_lines, field_lines, source)
     return Inventory(paints=tuple(paints), title=title.strip(), source=source)
+
+
+def _check_white(paints: list[StockPaint], header_lines, field_lines, source: str) -> None:
+    """At most one white; a tint needs it."""
+    def at(i: int, fieldname: str) -> str:
+        line = (field_lines[i].get(fieldname, header_lines[i]) if field_lines else None)
+        return _where(source, i + 1, line, paints[i].name)
+
+    whites = [i for i, p in enumerate(paints) if p.white]
+    if len(whites) > 1:
+        raise InventoryError(
+            f"{at(whites[1], 'white')}: field 'white': {paints[whites[0]].name!r} (paint {whites[0] + 1}) is "
+            f"already the white; mark only the white your tints are made with"
+        )
+    tinted = [i for i, p in enumerate(paints) if p.tint is not None]
+    if tinted and not whites:
+        raise InventoryError(
+            f"{at(tinted[0], 'tint')}: field 'tint': a tint needs the white it was made with; add "
+            f"`white = true` to that white's [[paint]] table"
+        )
+    for i in tinted:
+        # white lightens: a tint darker than its paint or lighter than the white is a slip (swapped
+        # parts, or colours of the wrong swatch), and would make the fit nonsense
+        L_paint, L_tint, L_white = paints[i].lab[0], paints[i].tint.lab[0], paints[whites[0]].lab[0]
+        if not L_paint - TINT_LIGHTNESS_SLACK <= L_tint <= L_white + TINT_LIGHTNESS_SLACK:
+            raise InventoryError(
+                f"{at(i, 'tint')}: field 'tint': its lightness (L* {L_tint:.0f}) should lie between the paint's "
+                f"(L* {L_paint:.0f}) and the white's (L* {L_white:.0f}); check the tint's colour and that "
+                f"paint_parts and white_parts are not swapped"
+            )
 
 
 def _field_lines(lines: list[str], header_lines: list[int]) -> list[dict[str, int]]:
@@ -273,7 +371,8 @@ def _parse_paint(entry: dict, number: int, line: int | None, source: str, *,
     shown = raw_name.strip() if isinstance(raw_name, str) and raw_name.strip() else None
 
     def fail(fieldname: str, message: str) -> InventoryError:
-        at = (field_lines or {}).get(fieldname, line)  # the field's own line, else the paint's header
+        # the field's own line (a tint's parts are on the tint's line), else the paint's header
+        at = (field_lines or {}).get(fieldname.split(".")[0], line)
         return InventoryError(f"{_where(source, number, at, shown)}: field {fieldname!r}: {message}")
 
     for key in entry:
@@ -290,35 +389,19 @@ def _parse_paint(entry: dict, number: int, line: int | None, source: str, *,
     if "=" in name or any(ord(c) < 32 for c in name):
         raise fail("name", f"may not contain '=' or control characters, got {name!r}")
 
-    has_srgb, has_lab = "srgb" in entry, "lab" in entry
-    if has_srgb == has_lab:
-        raise fail("srgb", "give exactly one of 'srgb' (\"#rrggbb\") or 'lab' ([L, a, b])")
-    if has_srgb:
-        value = entry["srgb"]
-        if not isinstance(value, str):
-            raise fail("srgb", f"must be a text hex colour like \"#c8962e\", got {value!r}")
-        try:
-            rgb = hex_to_rgb(value)
-        except ValueError:
-            raise fail("srgb", f"not a hex colour (#rrggbb): {value!r}") from None
-        srgb = rgb_to_hex(rgb)
-        lab = _lab_of_srgb(rgb)
-    else:
-        value = entry["lab"]
-        if (
-            not isinstance(value, list)
-            or len(value) != 3
-            or not all(isinstance(v, (int, float)) and not isinstance(v, bool) for v in value)
-            or not all(math.isfinite(v) for v in value)
-        ):
-            raise fail("lab", f"must be three numbers [L, a, b], got {value!r}")
-        L, a, b = (float(v) for v in value)
-        if not 0.0 <= L <= 100.0:
-            raise fail("lab", f"L must be from 0 to 100, got {L:g}")
-        if abs(a) > 200.0 or abs(b) > 200.0:
-            raise fail("lab", f"a and b must be within ±200, got [{L:g}, {a:g}, {b:g}]")
-        lab = (L, a, b)
-        srgb = _srgb_of_lab(lab)
+    srgb, lab = _colour(entry, fail, "")
+
+    white = entry.get("white", False)
+    if not isinstance(white, bool):
+        raise fail("white", f"must be true or false, got {white!r}")
+    tint = None
+    if "tint" in entry:
+        if white:
+            raise fail("tint", "the white has no tint (tints are made with it)")
+        tint = _parse_tint(entry["tint"], fail)
+        if "tinting_strength" in entry:
+            raise fail("tinting_strength", "not used with a tint (the tint measures how strongly the paint "
+                                           "colours a mix); remove one of them")
 
     strength = entry.get("tinting_strength", 1.0)
     if (
@@ -355,7 +438,66 @@ def _parse_paint(entry: dict, number: int, line: int | None, source: str, *,
         tinting_strength=float(strength),
         containers_l=tuple(sorted(float(c) for c in containers)),
         note=note.strip(),
+        white=white,
+        tint=tint,
     )
+
+
+def _colour(entry: dict, fail, prefix: str) -> tuple[str, tuple[float, float, float]]:
+    """``(srgb, lab)`` of a table giving exactly one of ``srgb`` or ``lab``."""
+    has_srgb, has_lab = "srgb" in entry, "lab" in entry
+    if has_srgb == has_lab:
+        raise fail(prefix + "srgb", "give exactly one of 'srgb' (\"#rrggbb\") or 'lab' ([L, a, b])")
+    if has_srgb:
+        value = entry["srgb"]
+        if not isinstance(value, str):
+            raise fail(prefix + "srgb", f"must be a text hex colour like \"#c8962e\", got {value!r}")
+        try:
+            rgb = hex_to_rgb(value)
+        except ValueError:
+            raise fail(prefix + "srgb", f"not a hex colour (#rrggbb): {value!r}") from None
+        return rgb_to_hex(rgb), _lab_of_srgb(rgb)
+    value = entry["lab"]
+    if (
+        not isinstance(value, list)
+        or len(value) != 3
+        or not all(isinstance(v, (int, float)) and not isinstance(v, bool) for v in value)
+        or not all(math.isfinite(v) for v in value)
+    ):
+        raise fail(prefix + "lab", f"must be three numbers [L, a, b], got {value!r}")
+    L, a, b = (float(v) for v in value)
+    if not 0.0 <= L <= 100.0:
+        raise fail(prefix + "lab", f"L must be from 0 to 100, got {L:g}")
+    if abs(a) > 200.0 or abs(b) > 200.0:
+        raise fail(prefix + "lab", f"a and b must be within ±200, got [{L:g}, {a:g}, {b:g}]")
+    lab = (L, a, b)
+    return _srgb_of_lab(lab), lab
+
+
+def _parse_tint(value, fail) -> Tint:
+    """The ``tint = {srgb|lab, paint_parts, white_parts}`` table of a paint."""
+    if not isinstance(value, dict):
+        raise fail("tint", "must be a table like { srgb = \"#8f9ad0\", paint_parts = 1, white_parts = 9 }, "
+                           f"got {value!r}")
+
+    for key in value:
+        if key not in _TINT_KEYS:
+            raise fail("tint." + key, f"unknown field of a tint (allowed: {', '.join(_TINT_KEYS)})")
+    srgb, lab = _colour(value, fail, "tint.")
+    parts = {}
+    for key in ("paint_parts", "white_parts"):
+        if key not in value:
+            raise fail("tint." + key, "missing; say how many parts of paint and of white the tint was mixed from")
+        v = value[key]
+        if (
+            isinstance(v, bool)
+            or not isinstance(v, (int, float))
+            or not math.isfinite(v)
+            or not 0.0 < v <= MAX_TINT_PARTS
+        ):
+            raise fail("tint." + key, f"must be a number > 0 and at most {MAX_TINT_PARTS:g}, got {v!r}")
+        parts[key] = float(v)
+    return Tint(srgb=srgb, lab=lab, **parts)
 
 
 def _lab_of_srgb(rgb) -> tuple[float, float, float]:

@@ -2,8 +2,11 @@
 
 A recipe is at most ``max_paints`` inventory paints in whole parts with a total of at
 most ``max_parts`` ("2 parts Earth yellow, 1 part White"), together with the colour the
-mixing model (:mod:`layerplan.mixing`, single-constant Kubelka–Munk) predicts for it and
-the CIEDE2000 difference to the wanted colour.
+mixing model (:mod:`layerplan.mixing`: each paint's absorption and scattering fitted from
+its masstone and tint, two-constant Kubelka–Munk) predicts for it and the CIEDE2000
+difference to the wanted colour. A recipe mixing paints of which some have no tint in the
+inventory (so they use the simpler model) names them in ``no_tint``: its prediction is
+less sure.
 
 The solver is exhaustive over that grid: every candidate mix of the inventory is
 predicted once and kept as a :class:`MixTable` (cached per inventory and options, a few
@@ -22,8 +25,8 @@ A colour whose best mix is more than ``tolerance`` ΔE00 away is flagged
 
 References
 ----------
-.. [1] P. Kubelka, F. Munk (1931); R. S. Berns, M. Mohammadi (2007) — see
-   :mod:`layerplan.mixing`.
+.. [1] P. Kubelka, F. Munk (1931); D. R. Duncan (1940); E. Allen (1980); J. L. Saunderson
+   (1942); S. A. Burns (2020) — see :mod:`layerplan.mixing`.
 .. [2] G. Sharma, W. Wu, E. N. Dalal, "The CIEDE2000 color-difference formula:
    implementation notes, supplementary test data, and mathematical observations",
    Color Res. Appl. 30(1):21-30, 2005.
@@ -77,6 +80,9 @@ class Recipe:
         CIEDE2000 between the wanted colour and ``predicted_lab``.
     in_gamut : bool
         ``delta_e <= tolerance``.
+    no_tint : tuple of str
+        Paints of a mix of two or more that have no tint in the inventory (the simpler
+        model; the prediction is less sure). Empty for a paint alone.
     """
 
     target: str
@@ -85,16 +91,24 @@ class Recipe:
     predicted_lab: tuple[float, float, float]
     delta_e: float
     in_gamut: bool
+    no_tint: tuple[str, ...] = ()
 
     def to_dict(self) -> dict[str, Any]:
-        """The recipe's JSON form (``layerplan mix --json`` and plan.json palette entries)."""
-        return {
+        """The recipe's JSON form (``layerplan mix --json`` and plan.json palette entries).
+
+        ``{"target", "parts": [{"paint", "parts"}], "predicted_srgb", "delta_e", "in_gamut"}``
+        and, only when some of a mix's paints have no tint, ``"no_tint": [names]``.
+        """
+        out = {
             "target": self.target,
             "parts": [{"paint": name, "parts": int(n)} for name, n in self.parts],
             "predicted_srgb": self.predicted_srgb,
             "delta_e": round(float(self.delta_e), 2),
             "in_gamut": bool(self.in_gamut),
         }
+        if self.no_tint:
+            out["no_tint"] = list(self.no_tint)
+        return out
 
 
 @dataclass(frozen=True, eq=False)
@@ -114,6 +128,8 @@ class MixTable:
         Predicted CIELAB (D65, 2°).
     rgb : (M, 3) uint8 array
         Predicted sRGB, clipped.
+    from_tint : (P,) bool array
+        Per inventory paint: K and S fitted from a tint.
     """
 
     names: tuple[str, ...]
@@ -123,9 +139,51 @@ class MixTable:
     total_parts: np.ndarray
     lab: np.ndarray
     rgb: np.ndarray
+    from_tint: np.ndarray
 
     def __len__(self) -> int:
         return len(self.lab)
+
+
+@lru_cache(maxsize=8)
+def paint_optics(inventory: Inventory) -> mixing.PaintOptics:
+    """K(λ) and S(λ) of every inventory paint (cached per inventory).
+
+    Tinted paints are fitted from masstone and tint with the inventory's white (its
+    ``tinting_strength`` the reference scattering); the others use the simpler model.
+    ``from_tint`` is True for the tinted paints and for that white.
+
+    References
+    ----------
+    Kubelka & Munk (1931); Duncan (1940); Allen (1980) — see :mod:`layerplan.mixing`.
+    """
+    paints = inventory.paints
+    white = inventory.white
+    nan = np.full(3, math.nan)
+    optics = mixing.fit_paint_optics(
+        np.array([_xyz(p.srgb, p.lab) for p in paints]),
+        tinting_strength=np.array([p.tinting_strength for p in paints]),
+        white_xyz=None if white is None else _xyz(white.srgb, white.lab),
+        tint_xyz=np.array([_xyz(p.tint.srgb, p.tint.lab) if p.tint else nan for p in paints]),
+        tint_paint_fraction=np.array([p.tint.paint_fraction if p.tint else 0.5 for p in paints]),
+        white_strength=1.0 if white is None else white.tinting_strength,
+    )
+    # the white the tints were made with is the reference of the fit, as sure as any tinted paint
+    known = optics.from_tint | np.array([p.white for p in paints])
+    optics = mixing.PaintOptics(optics.absorption, optics.scattering, known)
+    for a in (optics.absorption, optics.scattering, optics.from_tint):
+        a.setflags(write=False)
+    return optics
+
+
+def _xyz(srgb: str, lab) -> np.ndarray:
+    """XYZ of an inventory colour: exactly its sRGB where it was given so, else its measured CIELAB."""
+    from .colour import srgb_to_lab
+
+    rgb = np.array(hex_to_rgb(srgb), dtype=np.uint8)
+    if np.allclose(srgb_to_lab(rgb), lab, atol=1e-3):  # the CIELAB is that of the sRGB (rounded)
+        return mixing.srgb_to_xyz(rgb)
+    return mixing.lab_to_xyz(np.asarray(lab, dtype=np.float64))
 
 
 def check_options(max_paints, max_parts, tolerance=None) -> None:
@@ -189,7 +247,7 @@ def build_mix_table(
 
     References
     ----------
-    Kubelka & Munk (1931); Berns & Mohammadi (2007).
+    Kubelka & Munk (1931); Duncan (1940).
     """
     if not isinstance(inventory, Inventory) or not inventory.paints:
         raise ValueError("inventory must be a non-empty Inventory")
@@ -207,7 +265,7 @@ def build_mix_table(
 @lru_cache(maxsize=8)
 def _cached_table(inventory: Inventory, max_paints: int, max_parts: int) -> MixTable:
     n_inv = len(inventory)
-    strength = np.array([p.tinting_strength for p in inventory.paints], dtype=np.float64)
+    optics = paint_optics(inventory)
     idx_blocks, part_blocks = [], []
     for n in range(1, min(max_paints, n_inv, max_parts) + 1):
         comps = _compositions(n, max_parts)
@@ -219,14 +277,11 @@ def _cached_table(inventory: Inventory, max_paints: int, max_parts: int) -> MixT
         part_blocks.append(np.pad(parts, ((0, 0), (0, pad)), constant_values=0))
     paint_idx = np.concatenate(idx_blocks)
     parts = np.concatenate(part_blocks)
-    rows = np.arange(len(paint_idx))[:, None]
-    weights = np.zeros((len(paint_idx), n_inv))
     used = paint_idx >= 0
-    eff = parts * strength[np.where(used, paint_idx, 0)]
-    np.add.at(weights, (np.broadcast_to(rows, paint_idx.shape)[used], paint_idx[used]), eff[used])
-    weights /= weights.sum(axis=1, keepdims=True)
-    rgb_inv = np.array([p.rgb for p in inventory.paints], dtype=np.uint8)
-    lab, rgb = mixing.mix_table_colours(rgb_inv, weights)
+    xyz = np.empty((len(paint_idx), 3))
+    _mix_table_xyz(paint_idx, parts.astype(np.float64), optics.absorption, optics.scattering,
+                   mixing.xyz_weights(), mixing.SAUNDERSON_K1, mixing.SAUNDERSON_K2, xyz)
+    lab, rgb = mixing.xyz_to_lab(xyz), mixing.xyz_to_srgb(xyz)
     for a in (paint_idx, parts, lab, rgb):
         a.setflags(write=False)
     return MixTable(
@@ -237,6 +292,7 @@ def _cached_table(inventory: Inventory, max_paints: int, max_parts: int) -> MixT
         total_parts=parts.sum(axis=1).astype(np.int16),
         lab=lab,
         rgb=rgb,
+        from_tint=optics.from_tint,
     )
 
 
@@ -279,7 +335,7 @@ def solve_recipes(
 
     References
     ----------
-    Kubelka & Munk (1931); Berns & Mohammadi (2007); Sharma, Wu & Dalal (2005).
+    Kubelka & Munk (1931); Duncan (1940); Sharma, Wu & Dalal (2005).
     """
     lab = np.asarray(target_lab, dtype=np.float64)
     if lab.ndim == 1:
@@ -307,6 +363,38 @@ def solve_recipes(
         target = targets_srgb[i] if targets_srgb is not None else rgb_to_hex(lab_to_srgb(wanted))
         recipes.append(_recipe(table, row, target, float(de[row]), tolerance))
     return recipes
+
+
+@njit(cache=True, nogil=True)
+def _mix_table_xyz(paint_idx, parts, absorption, scattering, weights, k1, k2, out):
+    """XYZ of every mix of the table: Duncan's rule, Kubelka–Munk R∞, Saunderson, CIE weights.
+
+    The same formulae as :func:`layerplan.mixing.mix_optics_colours` (the tests compare), compiled
+    so that only the few paints of each mix are read and no (mixes × wavelengths) temporaries are
+    made.
+    """
+    n_w = absorption.shape[1]
+    for m in range(paint_idx.shape[0]):
+        x = 0.0
+        y = 0.0
+        z = 0.0
+        for w in range(n_w):
+            k = 0.0
+            s = 0.0
+            for j in range(paint_idx.shape[1]):
+                i = paint_idx[m, j]
+                if i >= 0:
+                    k += parts[m, j] * absorption[i, w]
+                    s += parts[m, j] * scattering[i, w]
+            q = k / s
+            ri = 1.0 + q - math.sqrt(q * q + 2.0 * q)
+            r = (1.0 - k1) * (1.0 - k2) * ri / (1.0 - k2 * ri)
+            x += r * weights[w, 0]
+            y += r * weights[w, 1]
+            z += r * weights[w, 2]
+        out[m, 0] = x
+        out[m, 1] = y
+        out[m, 2] = z
 
 
 @njit(cache=True, nogil=True)
@@ -387,6 +475,7 @@ def _recipe(table: MixTable, row: int, target: str, de: float, tolerance: float)
     n = int(table.n_paints[row])
     pairs = [(int(table.paint_idx[row, j]), int(table.parts[row, j])) for j in range(n)]
     pairs.sort(key=lambda ip: (-ip[1], ip[0]))  # most parts first, then inventory order
+    no_tint = tuple(table.names[i] for i, _ in pairs if not table.from_tint[i]) if n > 1 else ()
     return Recipe(
         target=target,
         parts=tuple((table.names[i], p) for i, p in pairs),
@@ -394,6 +483,7 @@ def _recipe(table: MixTable, row: int, target: str, de: float, tolerance: float)
         predicted_lab=tuple(float(v) for v in table.lab[row]),
         delta_e=de,
         in_gamut=bool(de <= tolerance),
+        no_tint=no_tint,
     )
 
 
@@ -434,7 +524,8 @@ def predict_mix(parts: Mapping[str, float], inventory: Inventory | None = None) 
     Returns
     -------
     dict
-        ``{"predicted_srgb": "#rrggbb", "lab": [L, a, b]}`` (Lab rounded to 0.01).
+        ``{"predicted_srgb": "#rrggbb", "lab": [L, a, b]}`` (Lab rounded to 0.01), and
+        ``"no_tint": [names]`` when a mix of two or more uses paints without a tint.
 
     Raises
     ------
@@ -444,7 +535,7 @@ def predict_mix(parts: Mapping[str, float], inventory: Inventory | None = None) 
 
     References
     ----------
-    Kubelka & Munk (1931); Berns & Mohammadi (2007).
+    Kubelka & Munk (1931); Duncan (1940).
     """
     inventory = default_inventory() if inventory is None else inventory
     if not parts:
@@ -457,8 +548,10 @@ def predict_mix(parts: Mapping[str, float], inventory: Inventory | None = None) 
         if isinstance(amount, bool) or not isinstance(amount, (int, float)) or not math.isfinite(amount) or amount <= 0:
             raise ValueError(f"parts of {inventory.paints[i].name!r} must be a number > 0, got {amount!r}")
         amounts[i] = float(amount)
-    used = amounts > 0
-    rgb = np.array([p.rgb for p in inventory.paints], dtype=np.uint8)[used]
-    strength = np.array([p.tinting_strength for p in inventory.paints])[used]
-    lab, srgb = mixing.mix_colours(rgb, amounts[used], tinting_strength=strength)
-    return {"predicted_srgb": rgb_to_hex(srgb), "lab": [round(float(v), 2) for v in lab]}
+    used = np.flatnonzero(amounts > 0)
+    optics = paint_optics(inventory).take(used)
+    lab, srgb = mixing.mix_optics_colours(optics, amounts[used])
+    out = {"predicted_srgb": rgb_to_hex(srgb), "lab": [round(float(v), 2) for v in lab]}
+    if len(used) > 1 and not optics.from_tint.all():
+        out["no_tint"] = [inventory.paints[i].name for i, t in zip(used, optics.from_tint) if not t]
+    return out

@@ -78,13 +78,17 @@ def test_mix_text_names_parts_and_cautions_to_test_a_swatch(capsys, kit):
 
 
 def test_combine_predicts_the_mix(capsys, kit):
-    # `mix --combine NAME=PARTS ... --json` -> {"predicted_srgb", "lab"}; blue and yellow
-    # paint make a green (fact of the trade, common practice)
+    # `mix --combine NAME=PARTS ... --json` -> {"predicted_srgb", "lab"}, with "no_tint" naming the
+    # paints this inventory gives no tint for; blue and yellow paint make a green (fact of the trade,
+    # common practice)
     code, out, _ = run(capsys, "mix", "--combine", "deep blue=1", "Sun yellow=2", "--inventory", kit, "--json")
     assert code == 0
     got = json.loads(out)
     lab, srgb = mixing.mix_colours(np.array([hex_to_rgb("#1b3a8c"), hex_to_rgb("#f0c814")], np.uint8), [1, 2])
-    assert got == {"predicted_srgb": "#%02x%02x%02x" % tuple(srgb), "lab": [round(float(v), 2) for v in lab]}
+    assert got == {"predicted_srgb": "#%02x%02x%02x" % tuple(srgb), "lab": [round(float(v), 2) for v in lab],
+                   "no_tint": ["Deep blue", "Sun yellow"]}
+    code, out, _ = run(capsys, "mix", "--combine", "deep blue=1", "Sun yellow=2", "--inventory", kit)
+    assert "no tint given: prediction less sure (Deep blue, Sun yellow)" in out
     hue = np.degrees(np.arctan2(lab[2], lab[1])) % 360
     assert 100 < hue < 200
 

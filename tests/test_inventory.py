@@ -52,6 +52,58 @@ def test_a_good_file_is_read_with_every_field(tmp_path):
     assert float(delta_e00(white.lab, srgb_to_lab(np.array(hex_to_rgb("#f2f1ea"), np.uint8)))) < 1e-3
 
 
+FORMAT2 = """\
+title = "Hall kit"
+format = 2
+
+[[paint]]
+name = "Titanium white"
+srgb = "#f4f3ee"
+white = true
+
+[[paint]]
+name = "Warm blue"
+srgb = "#23308a"
+tint = { srgb = "#8f9ad0", paint_parts = 1, white_parts = 9 }
+
+[[paint]]
+name = "Measured green"
+lab = [42.0, -30.0, 10.0]
+tint = { lab = [75.0, -18.0, 4.0], paint_parts = 0.5, white_parts = 4.5 }
+
+[[paint]]
+name = "Umber"
+srgb = "#4d3526"
+tinting_strength = 1.5
+"""
+
+
+def test_format_2_reads_the_white_and_each_paints_tint():
+    inv = loads_inventory(FORMAT2)
+    white, blue, green, umber = inv.paints
+    assert inv.white is white and white.white and white.tint is None
+    assert blue.tint.srgb == "#8f9ad0" and blue.tint.paint_parts == 1.0 and blue.tint.white_parts == 9.0
+    assert blue.tint.paint_fraction == pytest.approx(0.1)
+    assert green.tint.lab == (75.0, -18.0, 4.0) and green.tint.paint_fraction == pytest.approx(0.1)
+    # the sRGB shown for a measured tint agrees with colour-science's Lab -> sRGB (outside reference)
+    ref = colour.XYZ_to_sRGB(colour.Lab_to_XYZ([75.0, -18.0, 4.0]))
+    assert np.abs(np.array(hex_to_rgb(green.tint.srgb)) - np.clip(ref, 0, 1) * 255).max() <= 1.0
+    assert umber.tint is None and umber.tinting_strength == 1.5 and not umber.white
+
+
+def test_format_1_files_read_as_before_without_white_or_tints():
+    inv = loads_inventory(GOOD)
+    assert inv.white is None and all(p.tint is None and not p.white for p in inv.paints)
+    assert loads_inventory("format = 1\n" + GOOD) == inv
+
+
+def test_a_tint_may_be_a_sub_table_of_its_own():
+    # TOML 1.0: [paint.tint] after a [[paint]] header is a table of that paint, same as the inline form
+    text = '[[paint]]\nname = "W"\nsrgb = "#ffffff"\nwhite = true\n[[paint]]\nname = "B"\nsrgb = "#23308a"\n' \
+           '[paint.tint]\nsrgb = "#8f9ad0"\npaint_parts = 1\nwhite_parts = 9\n'
+    assert loads_inventory(text).paints[1].tint == loads_inventory(FORMAT2).paints[1].tint
+
+
 def test_names_are_found_ignoring_case_and_unknown_names_list_the_inventory():
     inv = loads_inventory(GOOD)
     assert inv.index("  measured OCHRE ") == 1
@@ -77,6 +129,12 @@ def test_default_inventory_is_a_basic_set_and_says_its_colours_are_from_memory()
     hues = [np.degrees(np.arctan2(p.lab[2], p.lab[1])) % 360 for p in inv.paints if np.hypot(*p.lab[1:]) > 20]
     for lo, hi in ((0, 45), (70, 105), (130, 180), (260, 310)):
         assert any(lo <= h <= hi for h in hues), (lo, hi)
+    # format 2: the white is marked and every other paint, black too, has a tint with it that lies
+    # between the white and the paint's masstone in lightness (common practice: a tint is lighter)
+    assert inv.white is not None and inv.white.name == "White"
+    for p in inv.paints:
+        if p is not inv.white:
+            assert p.tint is not None and p.lab[0] < p.tint.lab[0] < inv.white.lab[0], p.name
 
 
 # ------------------------------------------------------------------ errors
@@ -85,6 +143,8 @@ def _bad(text):
 
 
 PAINT = '[[paint]]\nname = "White"\nsrgb = "#ffffff"\n'
+#: a white and a blue, the blue's tint table to follow on line 8
+BLUE = PAINT + 'white = true\n[[paint]]\nname = "Blue"\nsrgb = "#23308a"\n'
 
 
 @pytest.mark.parametrize(
@@ -119,6 +179,35 @@ PAINT = '[[paint]]\nname = "White"\nsrgb = "#ffffff"\n'
          r"line 6: paint 2 \('white'\): field 'name': 'white' is already used by paint 1 \(line 1\)"),
         ('paint = [{name = "White", srgb = "#fff"}, {name = "Black", srgb = "black"}]\n',
          r"kit\.toml: paint 2 \('Black'\): field 'srgb': not a hex colour"),
+        ('format = 3\n' + PAINT, r"kit\.toml: 'format' must be one of 1, 2, got 3"),
+        ('[[paint]]\nname = "W"\nsrgb = "#fff"\nwhite = "yes"\n',
+         r"line 4: paint 1 \('W'\): field 'white': must be true or false"),
+        (PAINT + 'white = true\n[[paint]]\nname = "Chalk"\nsrgb = "#eee"\nwhite = true\n',
+         r"line 8: paint 2 \('Chalk'\): field 'white': 'White' \(paint 1\) is already the white"),
+        (PAINT + '[[paint]]\nname = "Blue"\nsrgb = "#23308a"\n'
+         'tint = { srgb = "#8f9ad0", paint_parts = 1, white_parts = 9 }\n',
+         r"line 7: paint 2 \('Blue'\): field 'tint': a tint needs the white it was made with; add `white = true`"),
+        (PAINT + 'white = true\ntint = { srgb = "#eee", paint_parts = 1, white_parts = 9 }\n',
+         r"line 5: paint 1 \('White'\): field 'tint': the white has no tint"),
+        (BLUE + 'tint = "#8f9ad0"\n',
+         r"line 8: paint 2 \('Blue'\): field 'tint': must be a table like"),
+        (BLUE + 'tint = { paint_parts = 1, white_parts = 9 }\n',
+         r"line 8: paint 2 \('Blue'\): field 'tint\.srgb': give exactly one of 'srgb'"),
+        (BLUE + 'tint = { srgb = "#8f9azz", paint_parts = 1, white_parts = 9 }\n',
+         r"field 'tint\.srgb': not a hex colour"),
+        (BLUE + 'tint = { lab = [120, 0, 0], paint_parts = 1, white_parts = 9 }\n',
+         r"field 'tint\.lab': L must be from 0 to 100, got 120"),
+        (BLUE + 'tint = { srgb = "#8f9ad0", white_parts = 9 }\n',
+         r"line 8: paint 2 \('Blue'\): field 'tint\.paint_parts': missing"),
+        (BLUE + 'tint = { srgb = "#8f9ad0", paint_parts = 1, white_parts = 0 }\n',
+         r"field 'tint\.white_parts': must be a number > 0 and at most 1000, got 0"),
+        (BLUE + 'tint = { srgb = "#8f9ad0", paint_parts = 1, white_part = 9 }\n',
+         r"field 'tint\.white_part': unknown field of a tint"),
+        (BLUE + 'tint = { srgb = "#101840", paint_parts = 9, white_parts = 1 }\n',
+         r"line 8: paint 2 \('Blue'\): field 'tint': its lightness \(L\* 10\) should lie between the paint's \(L\* 25\)"),
+        (BLUE + 'tinting_strength = 2\n'
+         'tint = { srgb = "#8f9ad0", paint_parts = 1, white_parts = 9 }\n',
+         r"line 8: paint 2 \('Blue'\): field 'tinting_strength': not used with a tint"),
     ],
 )
 def test_each_documented_error_names_file_line_entry_and_field(text, message):
@@ -158,3 +247,23 @@ def test_file_problems_are_reported_with_the_file_name(tmp_path):
     g = tmp_path / "bom.toml"
     g.write_bytes(b"\xef\xbb\xbf" + PAINT.encode())  # a UTF-8 byte-order mark is accepted
     assert load_inventory(g).names() == ["White"]
+
+
+def test_the_documented_examples_are_valid_inventories():
+    # the README's inventory example and this module's docstring example read as written (format 2:
+    # a white, a tinted paint, a measured paint without a tint)
+    import re
+    import textwrap
+    from pathlib import Path
+
+    from layerplan import inventory
+
+    readme = (Path(__file__).resolve().parents[1] / "README.md").read_text("utf-8")
+    section = readme[readme.index("## Your paints and mix recipes"):]
+    examples = [re.search(r"```toml\n(.*?)```", section, re.S).group(1)]
+    doc = inventory.__doc__
+    examples.append(textwrap.dedent(doc[doc.index("::") + 3:doc.index("Each paint gives")]))
+    for text in examples:
+        inv = loads_inventory(text)
+        assert inv.white is not None and any(p.tint is not None for p in inv.paints)
+        assert any(p.tint is None and not p.white for p in inv.paints)

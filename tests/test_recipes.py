@@ -32,13 +32,9 @@ def test_a_stock_paints_own_colour_comes_back_as_that_paint_alone(inv):
         assert r.predicted_srgb == paint.srgb and r.delta_e < 0.05 and r.in_gamut
 
 
-def _strengths(inv):
-    return np.array([p.tinting_strength for p in inv.paints])
-
-
 def test_the_solver_finds_back_mixes_the_model_made_at_random_ratios(inv):
-    # mixes made by the model (layerplan.mixing, a separate code path from the table)
-    # at random whole-part ratios are found back: ΔE00 <= 1 and the same paints
+    # mixes made by the model (layerplan.mixing.mix_optics_colours, a separate code path from the
+    # table) at random whole-part ratios are found back: ΔE00 <= 1 and the same paints
     rng = np.random.default_rng(11)
     made = []
     for _ in range(40):
@@ -50,7 +46,7 @@ def test_the_solver_finds_back_mixes_the_model_made_at_random_ratios(inv):
                 break
         full = np.zeros(len(inv))
         full[idx] = parts
-        lab, _ = mixing.mix_colours(_inv_rgb(inv), full, tinting_strength=_strengths(inv))
+        lab, _ = mixing.mix_optics_colours(recipes.paint_optics(inv), full)
         made.append((lab, {inv.paints[i].name for i in idx}, full))
     found = recipes.solve_recipes(np.array([m[0] for m in made]), inv)
     for (lab, names, full), r in zip(made, found):
@@ -59,6 +55,22 @@ def test_the_solver_finds_back_mixes_the_model_made_at_random_ratios(inv):
         # and the same ratio, in lowest terms
         g = reduce(math.gcd, [int(v) for v in full if v])
         assert {name: n for name, n in r.parts} == {inv.paints[i].name: int(v) // g for i, v in enumerate(full) if v}
+
+
+def test_the_compiled_table_agrees_with_the_mixing_model(inv):
+    # the table's compiled kernel and layerplan.mixing.mix_optics_colours compute the same formulae
+    # (Duncan 1940, Kubelka & Munk 1931, Saunderson 1942) by separate code
+    table = recipes.build_mix_table(inv)
+    optics = recipes.paint_optics(inv)
+    rows = np.random.default_rng(5).choice(len(table), 300, replace=False)
+    parts = np.zeros((len(rows), len(inv)))
+    for k, row in enumerate(rows):
+        for i, n in zip(table.paint_idx[row], table.parts[row]):
+            if i >= 0:
+                parts[k, i] = n
+    lab, rgb = mixing.mix_optics_colours(optics, parts)
+    assert np.allclose(lab, table.lab[rows], atol=1e-9)
+    assert np.array_equal(rgb, table.rgb[rows])
 
 
 def test_recipes_keep_to_the_limits_in_whole_parts_in_lowest_terms(inv):
@@ -87,7 +99,7 @@ def test_out_of_reach_colours_are_flagged_with_the_nearest_mix(inv):
 
 def test_tolerance_decides_in_gamut(inv):
     # a mix of the model itself, nudged 2 L* units: ΔE00 about 1.5-2 to the nearest mix
-    lab, _ = mixing.mix_colours(_inv_rgb(inv)[[0, 7]], [3, 1])
+    lab, _ = mixing.mix_optics_colours(recipes.paint_optics(inv).take([0, 7]), [3, 1])
     nudged = lab + np.array([2.0, 0.0, 0.0])
     r_strict = recipes.solve_recipes(nudged, inv, tolerance=0.1)[0]
     r_loose = recipes.solve_recipes(nudged, inv, tolerance=5.0)[0]
@@ -97,7 +109,8 @@ def test_tolerance_decides_in_gamut(inv):
 
 def test_recipe_json_has_exactly_its_documented_fields(inv):
     # the recipe's JSON form, shared by `layerplan mix --json` and plan.json:
-    # {"target", "parts": [{"paint", "parts"}], "predicted_srgb", "delta_e", "in_gamut"}
+    # {"target", "parts": [{"paint", "parts"}], "predicted_srgb", "delta_e", "in_gamut"}; every paint
+    # of the default set has a tint, so no "no_tint" field
     d = recipes.recipes_for_srgb(["#6b8e23"], inv)[0].to_dict()
     assert list(d) == ["target", "parts", "predicted_srgb", "delta_e", "in_gamut"]
     assert d["target"] == "#6b8e23"
@@ -108,8 +121,39 @@ def test_recipe_json_has_exactly_its_documented_fields(inv):
     assert abs(float(delta_e00(pred, srgb_to_lab(np.array([0x6b, 0x8e, 0x23], np.uint8)))) - d["delta_e"]) < 0.3
 
 
+def test_mixes_of_paints_without_a_tint_say_so():
+    # a recipe of two or more paints names those without a tint (not the white, the fit's reference),
+    # in the recipe and its JSON form; a paint alone needs no prediction and says nothing
+    text = ('[[paint]]\nname = "White"\nsrgb = "#f4f3ee"\nwhite = true\n'
+            '[[paint]]\nname = "Blue"\nsrgb = "#123d75"\n'
+            '[[paint]]\nname = "Yellow"\nsrgb = "#f0dc28"\n'
+            'tint = { srgb = "#f5ea95", paint_parts = 1, white_parts = 9 }\n')
+    inv = loads_inventory(text)
+    mixed, alone = recipes.recipes_for_srgb(["#7f95b5", "#123d75"], inv)
+    assert len(mixed.parts) >= 2 and "Blue" in dict(mixed.parts)
+    assert mixed.no_tint == ("Blue",)
+    assert mixed.to_dict()["no_tint"] == list(mixed.no_tint)
+    assert alone.parts == (("Blue", 1),) and alone.no_tint == () and "no_tint" not in alone.to_dict()
+    assert recipes.predict_mix({"Blue": 1, "Yellow": 1}, inv)["no_tint"] == ["Blue"]
+    assert "no_tint" not in recipes.predict_mix({"Yellow": 1, "White": 3}, inv)
+
+
+def test_a_tint_supersedes_tinting_strength_and_changes_the_recipe():
+    # a tint with white measures how strongly a paint colours a mix: a blue whose 1:9 tint is darker
+    # is stronger, so the same pale blue takes more white (fewer parts of blue) from it
+    def inv(tint):
+        return loads_inventory('[[paint]]\nname = "White"\nsrgb = "#f4f3ee"\nwhite = true\n'
+                               f'[[paint]]\nname = "Blue"\nsrgb = "#123d75"\n'
+                               f'tint = {{ srgb = "{tint}", paint_parts = 1, white_parts = 9 }}\n')
+    weak, strong = inv("#b3c6dc"), inv("#5a7fb0")
+    lab, _ = mixing.mix_optics_colours(recipes.paint_optics(weak), [6, 1])
+    assert dict(recipes.solve_recipes(lab, weak)[0].parts) == {"White": 6, "Blue": 1}
+    r = dict(recipes.solve_recipes(lab, strong, max_parts=30)[0].parts)
+    assert r["White"] / r["Blue"] > 6
+
+
 def test_tinting_strength_changes_recipes_as_equivalent_parts():
-    # definition (layerplan.mixing): a paint of strength 2 counts as twice its parts, so a colour
+    # definition (layerplan.mixing, paints without a tint): a paint of strength 2 counts as twice its parts, so a colour
     # made 1 Blue : 4 White at strength 1 takes 1 Blue : 8 White once Blue has strength 2
     text = '[[paint]]\nname = "White"\nsrgb = "#f4f3ee"\n[[paint]]\nname = "Blue"\nsrgb = "#123d75"\n'
     weak = loads_inventory(text)
@@ -157,7 +201,7 @@ def test_compiled_ciede2000_matches_sharma_2005_pairs_and_scikit_image():
 
 def test_predict_mix_matches_the_model_and_names_ignore_case(inv):
     got = recipes.predict_mix({"cool BLUE": 1, "White": 3}, inv)
-    lab, srgb = mixing.mix_colours(_inv_rgb(inv)[[7, 0]], [1, 3], tinting_strength=_strengths(inv)[[7, 0]])
+    lab, srgb = mixing.mix_optics_colours(recipes.paint_optics(inv).take([7, 0]), [1, 3])
     assert got["lab"] == [round(float(v), 2) for v in lab]
     assert got["predicted_srgb"] == "#%02x%02x%02x" % tuple(srgb)
     # the predicted sRGB is the predicted CIELAB's (layerplan.colour, scikit-image)
