@@ -77,6 +77,8 @@ def plan_html(
     paint_use: dict[str, Any] | None = None,
     title: str | None = None,
     steps: list[np.ndarray] | None = None,
+    paper: str = "a4",
+    canvases: list[np.ndarray] | None = None,
 ) -> str:
     """The printable plan as one self-contained HTML document.
 
@@ -100,6 +102,10 @@ def plan_html(
     steps : list of (H, W) int arrays, optional
         The wall after the ground and after each layer, as
         :func:`layerplan.raster.render_steps` gives them; rendered if missing.
+    paper : str
+        ``"a4"``, ``"letter"``, ``"a3"`` or ``"tabloid"`` (:data:`layerplan.sheets.PAPERS`).
+    canvases : list of (H, W) int arrays, optional
+        Each layer alone (:func:`layerplan.outlines.layer_canvas`); made if missing.
 
     Returns
     -------
@@ -116,4 +122,5 @@ def plan_html(
     ISO 216 (A4); ANSI/ASME Y14.1 (Letter); W3C CSS Paged Media and Fragmentation.
     """
     return render_sheets(build_sheets(plan, images=images, grid_mm=grid_mm, outlines=outlines,
-                                      paint_use=paint_use, title=title, steps=steps))
+                                      paint_use=paint_use, title=title, steps=steps, paper=paper,
+                                      canvases=canvases))

@@ -97,8 +97,14 @@ def plan_and_html():
 def test_every_section_is_there_in_order(plan_and_html):
     plan, text = plan_and_html
     doc = _parse(text)
-    expect = ["cover", "paint-card", "shopping", "brushes", "transfer-grid", "layer-01", "layer-02", "safety"]
-    assert list(doc.sections) == expect
+    got = list(doc.sections)
+    # each layer sheet is followed by its enlargements (none for a layer the overview shows well)
+    layers = [s for s in got if re.fullmatch(r"layer-\d\d", s)]
+    expect = ["cover", "paint-card", "shopping", "brushes", "transfer-grid"]
+    for sid in layers:
+        expect += [sid] + [s for s in got if re.fullmatch(rf"{sid}-part-\d\d", s)]
+    assert got == expect + ["safety"]
+    assert layers == ["layer-01", "layer-02"]
     assert all("sheet" in cls for cls in doc.sections.values())
     assert text.count('class="sheet layer"') == len(plan.layers)
 
@@ -166,12 +172,12 @@ def test_layer_pages_have_picture_paints_brush_and_outline_map(plan_and_html):
             assert paint in page
         body = text[text.index(f'id="{sid}"'):]
         body = body[:body.index("</section>")]
-        assert body.count("<img") == 1 and body.count("<svg") == 1
+        assert body.count("<img") == 1 and body.count("<svg") == 2  # the map and its paint key
         # the outline map labels areas with their paint id: only paints of areas there, and
         # no two label boxes overlap (plane geometry; text about 0.62 em per character)
-        texts = [(float(x), float(y), float(f), t) for x, y, f, t in re.findall(
-            r'<text font-size="([\d.]+)"[^>]*x="([\d.]+)" y="([\d.]+)"[^>]*>(P\d+)</text>', body)]
-        texts = [(x, y, f, t) for f, x, y, t in texts]
+        texts = [(float(x), float(y), float(f), t) for f, x, y, t in re.findall(
+            r'<text class="area-label"[^>]*font-size="([\d.]+)"[^>]*x="([\d.]+)" y="([\d.]+)"[^>]*>(P\d+)</text>',
+            body)]
         assert texts and {t for *_, t in texts} <= {a["paint"] for a in maps[n - 1]["areas"]}
         for i, (x, y, f, t) in enumerate(texts):
             for x2, y2, f2, t2 in texts[i + 1:]:
