@@ -713,6 +713,7 @@ def place_labels_around(
     bounds: tuple[float, float, float, float],
     gap: float = 0.3,
     rings: int = 4,
+    fixed: list[tuple[float, float, float, float]] = (),
 ) -> list[dict[str, Any]]:
     """Place a label for every item, moving it off its point (for a leader line) when it does not fit.
 
@@ -735,6 +736,8 @@ def place_labels_around(
         Clearance between labels, in label heights (>= 0).
     rings : int
         How far out a label may go, in label heights (>= 0).
+    fixed : list of (x, y, half_w, half_h)
+        Boxes already on the map (other text) that labels keep clear of, as of each other.
 
     Returns
     -------
@@ -746,12 +749,14 @@ def place_labels_around(
     ----------
     E. Imhof, "Positioning names on maps", The American Cartographer 2(2):128-144, 1975.
     """
-    n = len(items)
+    n, m = len(items), len(fixed)
     px = np.array([it["x"] for it in items], dtype=float)
     py = np.array([it["y"] for it in items], dtype=float)
     bx0, by0, bx1, by1 = bounds
-    cx, cy = np.empty(n), np.empty(n)
-    hw, hh = np.empty(n), np.empty(n)
+    cx, cy = np.empty(m + n), np.empty(m + n)
+    hw, hh = np.empty(m + n), np.empty(m + n)
+    for k, (fx, fy, fw, fh) in enumerate(fixed):
+        cx[k], cy[k], hw[k], hh[k] = fx, fy, fw, fh
     out = []
     angles = [np.linspace(0, 2 * np.pi, 8 + 4 * min(r, 2), endpoint=False) for r in range(rings + 1)]
     for i, it in enumerate(items):
@@ -766,9 +771,10 @@ def place_labels_around(
         for qx, qy, moved in cands:
             if qx - bw < bx0 or qx + bw > bx1 or qy - bh < by0 or qy + bh > by1:
                 continue
-            if i:
-                pad = gap * 2.0 * np.maximum(bh, hh[:i])
-                if np.any((np.abs(qx - cx[:i]) < bw + hw[:i] + pad) & (np.abs(qy - cy[:i]) < bh + hh[:i] + pad)):
+            if m + i:
+                j = m + i
+                pad = gap * 2.0 * np.maximum(bh, hh[:j])
+                if np.any((np.abs(qx - cx[:j]) < bw + hw[:j] + pad) & (np.abs(qy - cy[:j]) < bh + hh[:j] + pad)):
                     continue
             others = (np.abs(px - qx) < bw) & (np.abs(py - qy) < bh)
             others[i] = False
@@ -779,6 +785,6 @@ def place_labels_around(
         clash = best is None
         if clash:
             best = (x, y, False)
-        cx[i], cy[i], hw[i], hh[i] = best[0], best[1], bw, bh
+        cx[m + i], cy[m + i], hw[m + i], hh[m + i] = best[0], best[1], bw, bh
         out.append({"x": best[0], "y": best[1], "moved": best[2], "clash": clash})
     return out

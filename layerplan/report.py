@@ -79,6 +79,7 @@ def plan_html(
     steps: list[np.ndarray] | None = None,
     paper: str = "a4",
     canvases: list[np.ndarray] | None = None,
+    enlargements_per_layer: int | None = None,
 ) -> str:
     """The printable plan as one self-contained HTML document.
 
@@ -106,6 +107,9 @@ def plan_html(
         ``"a4"``, ``"letter"``, ``"a3"`` or ``"tabloid"`` (:data:`layerplan.sheets.PAPERS`).
     canvases : list of (H, W) int arrays, optional
         Each layer alone (:func:`layerplan.outlines.layer_canvas`); made if missing.
+    enlargements_per_layer : int, optional
+        Most enlargement sheets of one layer; default
+        :data:`layerplan.sheets.MAX_ENLARGEMENTS_PER_LAYER`.
 
     Returns
     -------
@@ -123,4 +127,5 @@ def plan_html(
     """
     return render_sheets(build_sheets(plan, images=images, grid_mm=grid_mm, outlines=outlines,
                                       paint_use=paint_use, title=title, steps=steps, paper=paper,
-                                      canvases=canvases))
+                                      canvases=canvases, **({} if enlargements_per_layer is None else
+                                                            {"enlargements_per_layer": enlargements_per_layer})))

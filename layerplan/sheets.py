@@ -38,7 +38,7 @@ from .quantities import TRACE_LITRES, US_UNITS
 from .quantities import paint_use as compute_paint_use
 from .raster import render_steps
 from .svg import (LABEL_EM_PER_CHAR, check_grid, column_label, enlargement_svg, grid_over_image_svg, grid_part_svg,
-                  label_box_mm, outline_map_svg, paint_key_svg)
+                  label_box_mm, outline_map_svg, paint_key_svg, square_name_boxes)
 
 #: default transfer-grid square, mm (50 cm: a comfortable square to copy freehand; common practice)
 GRID_MM = 500.0
@@ -593,7 +593,8 @@ def _grid(plan: Plan, imgs, grid_mm: float, unit: str) -> TransferGrid:
 
 def _overview_width_mm(plan: Plan, paper: Paper) -> float:
     """Printed width of a layer sheet's outline map (the whole wall), mm."""
-    return _fit_box(plan, paper.print_w_mm, 140.0 * paper.print_h_mm / PRINT_H_MM)
+    # 118 mm tall at most on A4/Letter, leaving room for the paint key and the note under the map
+    return _fit_box(plan, paper.print_w_mm, 118.0 * paper.print_h_mm / PRINT_H_MM)
 
 
 def _overview_labels(plan: Plan, outline: dict[str, Any], paper: Paper) -> dict[str, Any]:
@@ -765,7 +766,7 @@ def _enlargements(plan: Plan, n: int, outline: dict[str, Any], labelled: dict[st
             hw, hh = 0.5 * LABEL_EM_PER_CHAR * font * len(str(a["paint"])), 0.5 * font
             items.append({"x": a["label_mm"][0], "y": a["label_mm"][1], "half_w": hw, "half_h": hh,
                           "fits": a["label_room_mm"] >= 0.6 * font and a["area_mm2"] >= 4 * hw * hh})
-        placed = place_labels_around(items, bounds=box)
+        placed = place_labels_around(items, bounds=box, fixed=square_name_boxes(box, grid_mm, scale))
         labels = [{"area": i, "x": p["x"], "y": p["y"], "moved": p["moved"], "font_mm": font,
                    "half_w_mm": it["half_w"], "half_h_mm": it["half_h"]}
                   for i, it, p in zip(order, items, placed)]
@@ -804,8 +805,8 @@ def _enlargements(plan: Plan, n: int, outline: dict[str, Any], labelled: dict[st
     note = (f"{len(tiles)} enlargement sheet{'s' if len(tiles) != 1 else ''} follow at {_scale_text(scale)}, "
             f"because {reason}: each labels every area of its squares"
             + ("." if total == len(tiles) else
-               f"; {total - len(tiles)} more squares with paint are left out (at most {limit} sheets per layer: "
-               "the ones with the most areas are kept; the map above shows the rest)."))
+               f"; the squares of {total - len(tiles)} more sheets with paint are left out (at most {limit} sheets "
+               "per layer: the ones with the most areas are kept; the map above shows the rest)."))
     return sheets, note, layer_key
 
 

@@ -439,6 +439,24 @@ def _square_name(i: int, j: int) -> str:
     return f"{column_label(i)}{j + 1}"
 
 
+#: square names on enlargements: text height, paper mm, and inset from the square's corner
+SQUARE_NAME_MM, SQUARE_NAME_INSET_MM = 2.6, 0.6
+
+
+def square_name_boxes(box_mm: tuple[float, float, float, float], grid_mm: float,
+                      paper_per_wall: float) -> list[tuple[float, float, float, float]]:
+    """Where :func:`enlargement_svg` writes each square's name: (x, y, half width, half height), wall mm."""
+    x0, y0, x1, y1 = box_mm
+    font = SQUARE_NAME_MM / paper_per_wall
+    out = []
+    for i in range(math.floor(x0 / grid_mm + 1e-9), math.ceil(x1 / grid_mm - 1e-9)):
+        for j in range(math.floor(y0 / grid_mm + 1e-9), math.ceil(y1 / grid_mm - 1e-9)):
+            hw = 0.5 * LABEL_EM_PER_CHAR * font * len(_square_name(i, j))
+            out.append((max(i * grid_mm, x0) + SQUARE_NAME_INSET_MM / paper_per_wall + hw,
+                        max(j * grid_mm, y0) + 0.55 * font, hw, 0.55 * font))
+    return out
+
+
 def enlargement_svg(plan: Plan, outline: dict[str, Any], *, box_mm: tuple[float, float, float, float],
                     paper_per_wall: float, grid_mm: float, labels: Sequence[dict[str, Any]]) -> str:
     """Part of a layer's outline map at a readable scale, for an enlargement sheet.
@@ -505,13 +523,13 @@ def enlargement_svg(plan: Plan, outline: dict[str, Any], *, box_mm: tuple[float,
         y = min(max(j * grid_mm, y0), y1)
         lines.add(dwg.line(start=(_f(x0), _f(y)), end=(_f(x1), _f(y))))
     g.add(lines)
-    font = 2.6 / s
+    font = SQUARE_NAME_MM / s
     names = dwg.g(fill=INK, font_size=_f(font), font_family="sans-serif", font_weight="bold", stroke="#ffffff",
                   stroke_width=_f(font * 0.25), **{"paint-order": "stroke", "class": "square-name"})
     for i in range(i0, i1):
         for j in range(j0, j1):
-            names.add(dwg.text(_square_name(i, j), insert=(_f(max(i * grid_mm, x0) + 0.6 / s),
-                                                           _f(max(j * grid_mm, y0) + font * 1.05))))
+            names.add(dwg.text(_square_name(i, j), insert=(_f(max(i * grid_mm, x0) + SQUARE_NAME_INSET_MM / s),
+                                                           _f(max(j * grid_mm, y0) + font * 0.9))))
     g.add(names)
     dwg.add(g)
     line = 0.3 / s

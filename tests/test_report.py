@@ -647,7 +647,7 @@ def test_enlargements_are_capped_and_the_layer_sheet_says_so(fine):
     full = len(sheets.enlargements_of(3))
     capped = build_sheets(plan, outlines=maps, enlargements_per_layer=2)
     assert len(capped.enlargements_of(3)) == 2 < full
-    assert f"{full - 2} more squares with paint are left out" in capped.enlargement_note(3)
+    assert f"the squares of {full - 2} more sheets with paint are left out" in capped.enlargement_note(3)
     with pytest.raises(ValueError, match="enlargements_per_layer must be a whole number >= 0"):
         build_sheets(plan, outlines=maps, enlargements_per_layer=-1)
 
