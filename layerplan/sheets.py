@@ -38,7 +38,7 @@ from .quantities import TRACE_LITRES, US_UNITS
 from .quantities import paint_use as compute_paint_use
 from .raster import render_steps
 from .svg import (LABEL_EM_PER_CHAR, check_grid, column_label, enlargement_svg, grid_over_image_svg, grid_part_svg,
-                  label_box_mm, outline_map_svg, paint_key_svg, square_name_boxes)
+                  label_box_mm, outline_map_svg, paint_key_svg, square_name_boxes, area_bounds, areas_meeting)
 
 #: default transfer-grid square, mm (50 cm: a comfortable square to copy freehand; common practice)
 GRID_MM = 500.0
@@ -723,7 +723,9 @@ def _enlargements(plan: Plan, n: int, outline: dict[str, Any], labelled: dict[st
     if not too_thin and not unlabelled:
         return [], "", layer_key
     box_w, box_h = paper.print_w_mm, paper.print_h_mm - ENLARGEMENT_HEADER_MM
-    cell, cols, rows, k, scale = _tiling(plan, grid_mm, brush, box_w, box_h)
+    # a layer the overview shows well enough gets its crowded squares at twice the overview's scale at least
+    readable = brush if too_thin else min(brush, MIN_BRUSH_PAPER_MM / (2.0 * overview))
+    cell, cols, rows, k, scale = _tiling(plan, grid_mm, readable, box_w, box_h)
     step_x, step_y = cols * cell, rows * cell
     nx = math.ceil(plan.wall_width_mm / step_x - 1e-9)
     ny = math.ceil(plan.wall_height_mm / step_y - 1e-9)
@@ -757,6 +759,7 @@ def _enlargements(plan: Plan, n: int, outline: dict[str, Any], labelled: dict[st
         keep = sorted(sorted(range(total), key=lambda i: -len(tiles[i][2]))[:limit])
         tiles = [tiles[i] for i in keep]
     font = ENLARGEMENT_LABEL_MM / scale
+    bounds = area_bounds(outline)
     sheets = []
     for number, (t, box, held) in enumerate(tiles, start=1):
         order = sorted(held.tolist(), key=lambda i: -areas[i]["area_mm2"])
@@ -776,9 +779,9 @@ def _enlargements(plan: Plan, n: int, outline: dict[str, Any], labelled: dict[st
         names = _square_names(box, grid_mm, part)
         anchor = f"layer-{n:02d}-part-{number:02d}"
         svg = _svg(enlargement_svg(plan, outline, box_mm=box, paper_per_wall=scale, grid_mm=grid_mm,
-                                   labels=labels), anchor)
-        here = sorted({areas[i]["paint"] for i in held.tolist()} | {a["paint"] for a in _areas_in(areas, box)},
-                      key=plan.paint_index().get)
+                                   labels=labels, bounds=bounds), anchor)
+        here = sorted({areas[i]["paint"] for i in held.tolist()}
+                      | {areas[i]["paint"] for i in areas_meeting(bounds, box)}, key=plan.paint_index().get)
         bar = _scale_bar(scale, unit)
         key = Figure(box_w, "", svg=_svg(paint_key_svg(plan, here, width_mm=box_w, scale_bar=bar,
                                                        paper_per_wall=scale,
@@ -801,22 +804,15 @@ def _enlargements(plan: Plan, n: int, outline: dict[str, Any], labelled: dict[st
             n, anchor, f"Layer {n}, enlargement {number} of {len(tiles)}: {names}", lead, _scale_text(scale), key,
             Figure((box[2] - box[0]) * scale, caption, svg=svg), len(labels), moved, crowded))
     reason = (f"the {w.number(brush)} mm brush prints {w.number(brush * overview, 1)} mm wide on the map above"
-              if too_thin else f"{len(unlabelled)} areas carry no label on the map above")
-    note = (f"{len(tiles)} enlargement sheet{'s' if len(tiles) != 1 else ''} follow at {_scale_text(scale)}, "
+              if too_thin else f"{w.count(len(unlabelled), 'area')} "
+                               f"{'carries' if len(unlabelled) == 1 else 'carry'} no label on the map above")
+    note = (f"{w.count(len(tiles), 'enlargement sheet')} follow{'s' if len(tiles) == 1 else ''} at "
+            f"{_scale_text(scale)}, "
             f"because {reason}: each labels every area of its squares"
             + ("." if total == len(tiles) else
                f"; the squares of {total - len(tiles)} more sheets with paint are left out (at most {limit} sheets "
                "per layer: the ones with the most areas are kept; the map above shows the rest)."))
     return sheets, note, layer_key
-
-
-def _areas_in(areas, box):
-    """The areas whose outline's bounding box meets ``box``."""
-    x0, y0, x1, y1 = box
-    for a in areas:
-        pts = np.asarray(a["contours_mm"][0], dtype=float)
-        if pts[:, 0].max() >= x0 and pts[:, 0].min() <= x1 and pts[:, 1].max() >= y0 and pts[:, 1].min() <= y1:
-            yield a
 
 
 def _grid_parts(plan: Plan, final: np.ndarray, grid_mm: float, unit: str, paper: Paper) -> tuple[GridPart, ...]:

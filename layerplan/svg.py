@@ -457,8 +457,25 @@ def square_name_boxes(box_mm: tuple[float, float, float, float], grid_mm: float,
     return out
 
 
+def area_bounds(outline: dict[str, Any]) -> np.ndarray:
+    """(N, 4) float: each area's outside contour's bounding box (x0, y0, x1, y1), mm of wall."""
+    out = np.zeros((len(outline["areas"]), 4))
+    for k, a in enumerate(outline["areas"]):
+        pts = np.asarray(a["contours_mm"][0], dtype=float)
+        out[k] = pts[:, 0].min(), pts[:, 1].min(), pts[:, 0].max(), pts[:, 1].max()
+    return out
+
+
+def areas_meeting(bounds: np.ndarray, box_mm: tuple[float, float, float, float]) -> list[int]:
+    """Indices of the areas whose bounding box (:func:`area_bounds`) meets ``box_mm``."""
+    x0, y0, x1, y1 = box_mm
+    hit = (bounds[:, 2] >= x0) & (bounds[:, 0] <= x1) & (bounds[:, 3] >= y0) & (bounds[:, 1] <= y1)
+    return np.flatnonzero(hit).tolist()
+
+
 def enlargement_svg(plan: Plan, outline: dict[str, Any], *, box_mm: tuple[float, float, float, float],
-                    paper_per_wall: float, grid_mm: float, labels: Sequence[dict[str, Any]]) -> str:
+                    paper_per_wall: float, grid_mm: float, labels: Sequence[dict[str, Any]],
+                    bounds: np.ndarray | None = None) -> str:
     """Part of a layer's outline map at a readable scale, for an enlargement sheet.
 
     Parameters
@@ -477,6 +494,8 @@ def enlargement_svg(plan: Plan, outline: dict[str, Any], *, box_mm: tuple[float,
         Labels placed by :func:`layerplan.outlines.place_labels_around`: ``area`` (index into
         ``outline["areas"]``), ``x``, ``y`` (the label, wall mm), ``moved`` (drawn away from
         its area, with a leader line to the area's label point).
+    bounds : (N, 4) array, optional
+        :func:`area_bounds` of the outline, if the caller has it already.
 
     Returns
     -------
@@ -493,11 +512,7 @@ def enlargement_svg(plan: Plan, outline: dict[str, Any], *, box_mm: tuple[float,
                            viewBox=f"{_f(x0)} {_f(y0)} {_f(w)} {_f(h)}", profile="full", debug=False)
     areas = outline["areas"]
     n = int(outline["layer"])
-    inside = []
-    for k, a in enumerate(areas):
-        pts = np.asarray(a["contours_mm"][0], dtype=float)
-        if pts[:, 0].max() >= x0 and pts[:, 0].min() <= x1 and pts[:, 1].max() >= y0 and pts[:, 1].min() <= y1:
-            inside.append(k)
+    inside = areas_meeting(area_bounds(outline) if bounds is None else bounds, box_mm)
     pats = _pattern_defs(dwg, plan, sorted({areas[k]["paint"] for k in inside}, key=plan.paint_index().get),
                          paper_per_wall=s)
     clip = dwg.defs.add(dwg.clipPath(id="clip"))
