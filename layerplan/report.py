@@ -5,8 +5,9 @@ inline (``static/sheet.css``). Printing gives one section per sheet; every secti
 out to fit the printable area both A4 (210 × 297 mm) and US Letter (215.9 × 279.4 mm)
 share, so the same file prints on either.
 
-Sections: cover, paint card, shopping list, brushes and time, transfer grid, one
-sheet per layer, safety. What they say is :func:`layerplan.sheets.build_sheets`; how it
+Sections: cover, paint card, shopping list, brushes and time, transfer grid (and its
+parts when too dense for one sheet), one sheet per layer each followed by its
+enlargements, safety. What they say is :func:`layerplan.sheets.build_sheets`; how it
 is laid out is the Jinja2 templates in ``templates/sheets/`` (autoescaped). No Flask is
 needed, so the command line renders the same file as the web app.
 

@@ -1,14 +1,17 @@
 """The printed plan's sheets as plain data: what each sheet says, with every amount already in words.
 
 :func:`build_sheets` reads a :class:`~layerplan.plan.Plan`, its paint use, pictures and outline maps and
-returns a :class:`Sheets`: the cover, paint card, shopping list, brushes and time, transfer grid, one sheet per
-layer. Nothing here is HTML: ``templates/sheets/`` lays the sheets out for plan.html (:mod:`layerplan.report`),
+returns a :class:`Sheets`: the cover, paint card, shopping list, brushes and time, transfer grid (split over
+further sheets when its squares print too small), one sheet per layer, and each layer's enlargements: blocks
+of grid squares at a scale where the layer's narrowest brush prints at least 2 mm, every area labelled with its
+paint and hatched per paint for black-and-white print. Nothing here is HTML: ``templates/sheets/`` lays the sheets out for plan.html (:mod:`layerplan.report`),
 and another exporter (a PDF, a spreadsheet) can lay out the same data. Text comes from
 :mod:`layerplan.wording`, so it reads as on the web pages. Pictures are PNG data URIs (RFC 2397); maps are SVG
 from :mod:`layerplan.svg`, passed on as markup.
 
 Sizes of pictures are chosen to fit the printable area A4 (210 × 297 mm) and US Letter (215.9 × 279.4 mm)
-share, so the same file prints on either.
+share, so the same file prints on either; with ``paper="a3"`` or ``"tabloid"``, the box A3 (297 × 420 mm) and
+Tabloid (11 × 17 in) share.
 
 References
 ----------
@@ -16,6 +19,8 @@ References
    (A4 = 210 × 297 mm).
 .. [2] ANSI/ASME Y14.1-2020, Decimal inch drawing sheet size and format (Letter, 8.5 × 11 in).
 .. [3] RFC 2397, The "data" URL scheme.
+.. [4] E. Imhof, "Positioning names on maps", The American Cartographer 2(2):128-144, 1975 (labels with
+   leaders, see :func:`layerplan.outlines.place_labels_around`).
 """
 
 from __future__ import annotations
