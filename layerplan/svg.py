@@ -39,6 +39,26 @@ FAINT_GRID_OPACITY = (0.35, 0.75)
 LABEL_EM_PER_CHAR = 0.62
 
 
+#: how opaque the white box behind a label is, so it reads over lines and hatching (our choice)
+HALO_OPACITY = 0.8
+
+
+def _halo_group(dwg):
+    return dwg.g(fill="#ffffff", fill_opacity=str(HALO_OPACITY), **{"class": "halos"})
+
+
+def _halo(dwg, group, text: str, x: float, baseline: float, font: float, *, anchor: str = "middle") -> None:
+    """A white box behind a text, added to ``group``.
+
+    A box rather than a white outline drawn first (``paint-order: stroke``): not every SVG renderer
+    honours that property (WeasyPrint paints the outline over the letters, hiding them).
+    """
+    width = LABEL_EM_PER_CHAR * font * len(text) + 0.3 * font
+    left = x - width / 2 if anchor == "middle" else x - 0.15 * font
+    group.add(dwg.rect(insert=(_f(left), _f(baseline - 0.85 * font)), size=(_f(width), _f(1.05 * font)),
+                       rx=_f(0.15 * font)))
+
+
 def _f(v: float) -> str:
     """A coordinate for the file: at most two decimals, no trailing zeros."""
     s = f"{float(v):.2f}".rstrip("0").rstrip(".")
@@ -131,17 +151,20 @@ def _grid_group(dwg, plan: Plan, grid_mm: float, *, faint: bool = False):
         y = min(j * grid_mm, h)
         lines.add(dwg.line(start=(0, _f(y)), end=(_f(w), _f(y))))
     g.add(lines)
-    labels = dwg.g(fill=INK, font_size=_f(font), font_family="sans-serif", stroke="#ffffff",
-                   stroke_width=_f(font * 0.18), **{"paint-order": "stroke", "text-anchor": "middle"})
+    halos = _halo_group(dwg)
+    labels = dwg.g(fill=INK, font_size=_f(font), font_family="sans-serif", **{"text-anchor": "middle"})
     if faint:
-        labels["opacity"] = str(FAINT_GRID_OPACITY[1])
+        labels["opacity"] = halos["opacity"] = str(FAINT_GRID_OPACITY[1])
         g["class"] = "faint"
     for i in range(nx):
         cx = (i + 0.5) * grid_mm if (i + 1) * grid_mm <= w else (i * grid_mm + w) / 2
+        _halo(dwg, halos, column_label(i), cx, font * 1.1, font)
         labels.add(dwg.text(column_label(i), insert=(_f(cx), _f(font * 1.1))))
     for j in range(ny):
         cy = (j + 0.5) * grid_mm if (j + 1) * grid_mm <= h else (j * grid_mm + h) / 2
+        _halo(dwg, halos, str(j + 1), font * 0.8, cy + font * 0.35, font)
         labels.add(dwg.text(str(j + 1), insert=(_f(font * 0.8), _f(cy + font * 0.35))))
+    g.add(halos)
     g.add(labels)
     return g
 
@@ -184,8 +207,8 @@ def _outline_group(dwg, plan: Plan, outline: dict[str, Any], *, hidden: bool = F
     if grid_mm is not None:  # over the shapes, under the labels
         g.add(_grid_group(dwg, plan, grid_mm, faint=True))
     hints = dwg.g(stroke=INK, stroke_width=_f(line * 2.5), stroke_linecap="round", fill="none")
-    labels = dwg.g(fill=INK, font_family="sans-serif", stroke="#ffffff",
-                   **{"paint-order": "stroke", "text-anchor": "middle"})
+    halos = _halo_group(dwg)
+    labels = dwg.g(fill=INK, font_family="sans-serif", **{"text-anchor": "middle"})
     for k, a in enumerate(outline["areas"]):
         if a.get("label") is False:  # left unlabelled (see layerplan.outlines.place_labels)
             continue
@@ -202,10 +225,11 @@ def _outline_group(dwg, plan: Plan, outline: dict[str, Any], *, hidden: bool = F
             for sign in (-1.0, 1.0):
                 hints.add(dwg.line(start=(_f(x + sign * gap * c), _f(y + sign * gap * sn)),
                                    end=(_f(x + sign * half * c), _f(y + sign * half * sn))))
+        _halo(dwg, halos, str(a["paint"]), x, y + font * 0.35, font)
         labels.add(dwg.text(a["paint"], insert=(_f(x), _f(y + font * 0.35)), font_size=_f(font),
-                            stroke_width=_f(font * 0.2),
                             **{"class": "area-label", "data-layer": str(n), "data-area": str(k)}))
     g.add(hints)
+    g.add(halos)
     g.add(labels)
     return g
 
@@ -539,19 +563,22 @@ def enlargement_svg(plan: Plan, outline: dict[str, Any], *, box_mm: tuple[float,
         lines.add(dwg.line(start=(_f(x0), _f(y)), end=(_f(x1), _f(y))))
     g.add(lines)
     font = SQUARE_NAME_MM / s
-    names = dwg.g(fill=INK, font_size=_f(font), font_family="sans-serif", font_weight="bold", stroke="#ffffff",
-                  stroke_width=_f(font * 0.25), **{"paint-order": "stroke", "class": "square-name"})
+    halos = _halo_group(dwg)
+    names = dwg.g(fill=INK, font_size=_f(font), font_family="sans-serif", font_weight="bold",
+                  **{"class": "square-name"})
     for i in range(i0, i1):
         for j in range(j0, j1):
-            names.add(dwg.text(_square_name(i, j), insert=(_f(max(i * grid_mm, x0) + SQUARE_NAME_INSET_MM / s),
-                                                           _f(max(j * grid_mm, y0) + font * 0.9))))
+            nx_, ny_ = max(i * grid_mm, x0) + SQUARE_NAME_INSET_MM / s, max(j * grid_mm, y0) + font * 0.9
+            _halo(dwg, halos, _square_name(i, j), nx_, ny_, font, anchor="start")
+            names.add(dwg.text(_square_name(i, j), insert=(_f(nx_), _f(ny_))))
+    g.add(halos)
     g.add(names)
     dwg.add(g)
     line = 0.3 / s
     hints = dwg.g(stroke=INK, stroke_width=_f(line), stroke_linecap="round", fill="none", **{"class": "directions"})
     leaders = dwg.g(stroke=INK, stroke_width=_f(0.18 / s), fill="none", **{"class": "leaders"})
-    texts = dwg.g(fill=INK, font_family="sans-serif", stroke="#ffffff", font_weight="bold",
-                  **{"paint-order": "stroke", "text-anchor": "middle"})
+    halos = _halo_group(dwg)
+    texts = dwg.g(fill=INK, font_family="sans-serif", font_weight="bold", **{"text-anchor": "middle"})
     for lab in labels:
         a = areas[lab["area"]]
         ax, ay = a["label_mm"]
@@ -575,11 +602,12 @@ def enlargement_svg(plan: Plan, outline: dict[str, Any], *, box_mm: tuple[float,
         if lab["moved"]:
             leaders.add(dwg.line(start=(_f(ax), _f(ay)), end=(_f(x), _f(y))))
             leaders.add(dwg.circle(center=(_f(ax), _f(ay)), r=_f(0.35 / s), fill=INK, stroke="none"))
+        _halo(dwg, halos, str(a["paint"]), x, y + f * 0.35, f)
         texts.add(dwg.text(a["paint"], insert=(_f(x), _f(y + f * 0.35)), font_size=_f(f),
-                           stroke_width=_f(f * 0.22),
                            **{"class": "area-label", "data-layer": str(n), "data-area": str(lab["area"])}))
     dwg.add(hints)
     dwg.add(leaders)
+    dwg.add(halos)
     dwg.add(texts)
     dwg.add(dwg.rect(insert=(_f(x0), _f(y0)), size=(_f(w), _f(h)), fill="none", stroke=INK,
                      stroke_width=_f(0.5 / s)))
@@ -610,12 +638,14 @@ def grid_part_svg(plan: Plan, grid_mm: float, image_href: str, box_mm: tuple[flo
         lines.add(dwg.line(start=(_f(x0), _f(y)), end=(_f(x1), _f(y))))
     g.add(lines)
     font = min(grid_mm * 0.22, max(w, h) / 30.0)
-    names = dwg.g(fill=INK, font_size=_f(font), font_family="sans-serif", stroke="#ffffff",
-                  stroke_width=_f(font * 0.2), **{"paint-order": "stroke", "class": "square-name"})
+    halos = _halo_group(dwg)
+    names = dwg.g(fill=INK, font_size=_f(font), font_family="sans-serif", **{"class": "square-name"})
     for i in range(i0, i1):
         for j in range(j0, j1):
-            names.add(dwg.text(_square_name(i, j), insert=(_f(i * grid_mm + font * 0.3),
-                                                           _f(j * grid_mm + font * 1.05))))
+            at = (i * grid_mm + font * 0.3, j * grid_mm + font * 1.05)
+            _halo(dwg, halos, _square_name(i, j), *at, font, anchor="start")
+            names.add(dwg.text(_square_name(i, j), insert=(_f(at[0]), _f(at[1]))))
+    g.add(halos)
     g.add(names)
     dwg.add(g)
     return dwg.tostring()
