@@ -63,12 +63,15 @@ class ExportInputs:
         Transfer-grid square, mm of wall (checked by :func:`layerplan.svg.check_grid`).
     paper : str
         The paper plan.html is laid out for (a key of :data:`layerplan.sheets.PAPERS`).
+    enlargements_per_layer : int, optional
+        Most enlargement sheets of one layer in plan.html (default that of :func:`layerplan.sheets.build_sheets`).
     """
 
     plan: Plan
     paint_use: Mapping[str, Any]
     grid_mm: float
     paper: str = "a4"
+    enlargements_per_layer: int | None = None
 
     @cached_property
     def canvases(self) -> tuple[np.ndarray, ...]:
@@ -134,7 +137,8 @@ def _print_plan(x: ExportInputs) -> dict[str, bytes]:
     images["final"] = x.step_pngs[-1]
     return {"plan.html": plan_html(x.plan, images=images, grid_mm=x.grid_mm, outlines=list(x.outlines),
                                    paint_use=dict(x.paint_use), steps=list(x.steps), paper=x.paper,
-                                   canvases=list(x.canvases)).encode("utf-8")}
+                                   canvases=list(x.canvases),
+                                   enlargements_per_layer=x.enlargements_per_layer).encode("utf-8")}
 
 
 def _plan_document(x: ExportInputs) -> dict[str, bytes]:
@@ -202,7 +206,7 @@ def export_for(file_name: str) -> Export | None:
 
 
 def build_files(plan: Plan, *, grid_mm: float | None = None, paper: str | None = None,
-                **options) -> dict[str, bytes]:
+                enlargements_per_layer: int | None = None, **options) -> dict[str, bytes]:
     """Every output file of a plan, as relative path -> bytes (one entry of :data:`EXPORTS` each).
 
     ``steps/NN.png`` is the wall after layer NN (``00``: the ground); ``steps/NN.svg`` holds
@@ -212,7 +216,8 @@ def build_files(plan: Plan, *, grid_mm: float | None = None, paper: str | None =
     containers) are worked out once by :func:`layerplan.quantities.paint_use`, handed to the
     exporters and written as plan.json's ``paint_use`` section; ``plan`` itself is not changed.
     ``grid_mm`` is the transfer-grid square (default 500 mm, or 2 ft for walls measured in ft
-    or in). ``paper`` is the paper plan.html is laid out for: a4 (default), letter, a3 or tabloid.
+    or in). ``paper`` is the paper plan.html is laid out for: a4 (default), letter, a3 or tabloid;
+    ``enlargements_per_layer`` the most enlargement sheets of one layer there.
 
     Raises
     ------
@@ -237,7 +242,7 @@ def build_files(plan: Plan, *, grid_mm: float | None = None, paper: str | None =
         grid_mm = default_grid_mm(plan.wall_unit, shorter_side_mm=min(plan.wall_width_mm, plan.wall_height_mm))
     grid_mm = check_grid(plan, grid_mm)
     inputs = ExportInputs(plan=plan, paint_use=MappingProxyType(paint_use(plan, **options)), grid_mm=grid_mm,
-                          paper=paper)
+                          paper=paper, enlargements_per_layer=enlargements_per_layer)
     files: dict[str, bytes] = {}
     for export in EXPORTS.values():
         built = export.build(inputs)

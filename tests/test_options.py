@@ -64,6 +64,7 @@ def test_light_copies_equal_the_limits_of_the_modules_that_own_them():
     from layerplan import sheets
 
     assert (options.PAPERS, options.DEFAULT_PAPER) == (tuple(sheets.PAPERS), sheets.DEFAULT_PAPER)
+    assert options.ENLARGEMENTS_PER_LAYER == sheets.MAX_ENLARGEMENTS_PER_LAYER
 
 
 def test_planning_defaults_are_the_librarys():

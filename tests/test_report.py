@@ -679,3 +679,18 @@ def test_a_dense_transfer_grid_is_split_over_sheets_naming_every_square_once():
         assert 250.0 * scale == pytest.approx(GRID_PART_SQUARE_MM)
         assert part.figure.width_mm <= sheets.paper.print_w_mm
     assert not build_sheets(_plan()).grid_parts  # 8 × 5 squares of 23 mm need no split
+
+
+def test_the_enlargements_option_reaches_plan_html():
+    # --enlargements N, through the export as the CLI and the web call it: N sheets a layer at most, 0 for none
+    from layerplan.export import build_files
+
+    plan = _fine_plan(corner=True)
+    counts = {}
+    for n in (0, 1, 24):
+        text = build_files(plan, enlargements_per_layer=n)["plan.html"].decode("utf-8")
+        per_layer = [len(re.findall(rf'<section class="sheet enlargement" id="layer-{k:02d}-part-', text))
+                     for k in range(1, len(plan.layers) + 1)]
+        assert max(per_layer) <= n
+        counts[n] = sum(per_layer)
+    assert counts[0] == 0 < counts[1] < counts[24]
