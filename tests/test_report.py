@@ -694,3 +694,23 @@ def test_the_enlargements_option_reaches_plan_html():
         assert max(per_layer) <= n
         counts[n] = sum(per_layer)
     assert counts[0] == 0 < counts[1] < counts[24]
+
+
+def test_a_square_too_big_for_one_sheet_is_cut_into_parts():
+    # a 3 mm brush must print 2 mm: 1:1.5 at least, so a 50 cm square (333 mm of paper) cannot fit a
+    # 186 × 180 mm map box; it is cut 2 × 2, each part named, each at a scale keeping the brush 2 mm
+    from layerplan.sheets import MIN_BRUSH_PAPER_MM, build_sheets
+
+    rng = np.random.default_rng(1)
+    palette = [Paint("P1", "#f0e8d8", (92.6, 1.5, 7.5)), Paint("P2", "#c03020", (44.0, 56.0, 46.0)),
+               Paint("P3", "#2050a0", (36.0, 12.0, -50.0))]
+    strokes = [Stroke(f"P{rng.integers(2, 4)}", 3.0, rng.uniform(50, 950, (2, 2))) for _ in range(30)]
+    plan = Plan(1000.0, 1000.0, 1000, 1000, 1.0, palette, "P1", [Layer(3.0, strokes)], {"settings": {"wall_unit": "m"}})
+    sheets = build_sheets(plan, grid_mm=500.0)
+    names = [re.search(r"square ([A-Z]\d), part (\d) of (\d)", e.title).groups() for e in sheets.enlargements]
+    assert names and all(total == "4" for *_, total in names) and len(set(names)) == len(names)
+    for e in sheets.enlargements:
+        scale, box = _svg_scale(str(e.map.svg))
+        assert 3.0 * scale >= MIN_BRUSH_PAPER_MM - 1e-6 and box[2] == pytest.approx(250.0)
+        assert e.map.width_mm <= sheets.paper.print_w_mm and box[3] * scale <= sheets.paper.print_h_mm
+    assert sum(e.labelled for e in sheets.enlargements) == len(outline_maps(plan)[0]["areas"])
