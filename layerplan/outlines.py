@@ -788,3 +788,55 @@ def place_labels_around(
         cx[m + i], cy[m + i], hw[m + i], hh[m + i] = best[0], best[1], bw, bh
         out.append({"x": best[0], "y": best[1], "moved": best[2], "clash": clash})
     return out
+
+
+def area_pixels(canvas: np.ndarray, outline: dict[str, Any], mm_per_px: float) -> tuple[np.ndarray, np.ndarray]:
+    """Which area of ``outline`` each pixel of ``canvas`` belongs to.
+
+    Returns
+    -------
+    labels : (H, W) int32
+        Connected areas of ``canvas`` as :func:`layer_outlines` finds them (0 outside every area).
+    area_of : (count + 1,) int64
+        For each label, the index of its area in ``outline["areas"]``, or -1 for the areas too small
+        to be on the map.
+    """
+    labels, *_ = _components(np.asarray(canvas, dtype=np.int16))
+    area_of = np.full(int(labels.max()) + 1, -1, dtype=np.int64)
+    h, w = labels.shape
+    for k, a in enumerate(outline["areas"]):
+        # the label point is the centre of the area's deepest pixel
+        j = min(w - 1, max(0, round(a["label_mm"][0] / mm_per_px - 0.5)))
+        i = min(h - 1, max(0, round(a["label_mm"][1] / mm_per_px - 0.5)))
+        if labels[i, j]:
+            area_of[labels[i, j]] = k
+    return labels, area_of
+
+
+def pieces_in_box(labels: np.ndarray, area_of: np.ndarray, box_px: tuple[int, int, int, int], *,
+                  min_px: float, skip=()) -> list[dict[str, Any]]:
+    """The parts of areas inside a box of pixels (rows i0:i1, columns j0:j1), each with a point well inside.
+
+    For an area reaching into a box from outside it, a label point for the part inside: the part's
+    pixel farthest from its edge or the box's (exact Euclidean distance, as for :func:`layer_outlines`).
+
+    Returns
+    -------
+    pieces : list of dict
+        ``area`` (index), ``i``, ``j`` (the point's pixel), ``room_px`` (its distance to the edge) and
+        ``size_px``, for the areas not in ``skip`` with at least ``min_px`` pixels inside the box.
+    """
+    i0, i1, j0, j1 = box_px
+    crop = labels[i0:i1, j0:j1]
+    out = []
+    skip = set(skip)
+    found, counts = np.unique(crop, return_counts=True)
+    for lab, count in zip(found.tolist(), counts.tolist()):
+        k = int(area_of[lab]) if lab else -1
+        if k < 0 or k in skip or count < min_px:
+            continue
+        mask = np.zeros((crop.shape[0] + 2, crop.shape[1] + 2), dtype=np.bool_)
+        mask[1:-1, 1:-1] = crop == lab
+        li, lj, d2 = _deepest(mask)
+        out.append({"area": k, "i": i0 + li - 1, "j": j0 + lj - 1, "room_px": math.sqrt(d2), "size_px": count})
+    return out

@@ -37,7 +37,7 @@ import numpy as np
 from markupsafe import Markup
 
 from . import wording as w
-from .outlines import layer_canvas, outline_maps, place_labels, place_labels_around
+from .outlines import area_pixels, layer_canvas, outline_maps, pieces_in_box, place_labels, place_labels_around
 from .plan import Plan
 from .quantities import TRACE_LITRES, US_UNITS
 from .quantities import paint_use as compute_paint_use
@@ -711,13 +711,14 @@ def _tiling(plan: Plan, grid_mm: float, brush_mm: float, box_w: float, box_h: fl
     return cell, cols, rows, k, scale
 
 
-def _enlargements(plan: Plan, n: int, outline: dict[str, Any], labelled: dict[str, Any], painted: np.ndarray, *,
+def _enlargements(plan: Plan, n: int, outline: dict[str, Any], labelled: dict[str, Any], canvas: np.ndarray, *,
                   grid_mm: float, unit: str, paper: Paper, limit: int) -> tuple[list[Enlargement], str, Figure | None]:
     """The enlargement sheets of layer ``n``, the layer sheet's note about them, and its paint key."""
     layer = plan.layers[n - 1]
     areas = outline["areas"]
     if not layer.strokes or not areas:
         return [], "", None
+    painted = canvas >= 0
     brush = _narrowest_mm(layer)
     overview = _overview_width_mm(plan, paper) / plan.wall_width_mm
     unlabelled = [k for k, a in enumerate(labelled["areas"]) if not a["label"]]
@@ -765,6 +766,7 @@ def _enlargements(plan: Plan, n: int, outline: dict[str, Any], labelled: dict[st
         tiles = [tiles[i] for i in keep]
     font = ENLARGEMENT_LABEL_MM / scale
     bounds = area_bounds(outline)
+    pixels, area_of = area_pixels(canvas, outline, px)
     sheets = []
     for number, (t, box, held) in enumerate(tiles, start=1):
         order = sorted(held.tolist(), key=lambda i: -areas[i]["area_mm2"])
@@ -774,10 +776,24 @@ def _enlargements(plan: Plan, n: int, outline: dict[str, Any], labelled: dict[st
             hw, hh = 0.5 * LABEL_EM_PER_CHAR * font * len(str(a["paint"])), 0.5 * font
             items.append({"x": a["label_mm"][0], "y": a["label_mm"][1], "half_w": hw, "half_h": hh,
                           "fits": a["label_room_mm"] >= 0.6 * font and a["area_mm2"] >= 4 * hw * hh})
+        # areas reaching in from a neighbouring sheet get their paint written here too, after the rest
+        box_px = (int(box[1] / px), min(canvas.shape[0], math.ceil(box[3] / px)),
+                  int(box[0] / px), min(canvas.shape[1], math.ceil(box[2] / px)))
+        pieces = sorted(pieces_in_box(pixels, area_of, box_px, min_px=min_px, skip=held.tolist()),
+                        key=lambda p: -p["size_px"])
+        for p in pieces:
+            paint = str(areas[p["area"]]["paint"])
+            hw, hh = 0.5 * LABEL_EM_PER_CHAR * font * len(paint), 0.5 * font
+            items.append({"x": (p["j"] + 0.5) * px, "y": (p["i"] + 0.5) * px, "half_w": hw, "half_h": hh,
+                          "fits": p["room_px"] * px >= 0.6 * font and p["size_px"] * px * px >= 4 * hw * hh})
         placed = place_labels_around(items, bounds=box, fixed=square_name_boxes(box, grid_mm, scale))
         labels = [{"area": i, "x": p["x"], "y": p["y"], "moved": p["moved"], "font_mm": font,
                    "half_w_mm": it["half_w"], "half_h_mm": it["half_h"]}
                   for i, it, p in zip(order, items, placed)]
+        labels += [{"area": piece["area"], "x": p["x"], "y": p["y"], "moved": p["moved"], "font_mm": font,
+                    "half_w_mm": it["half_w"], "half_h_mm": it["half_h"], "continued": True,
+                    "anchor_mm": (it["x"], it["y"]), "room_mm": piece["room_px"] * px}
+                   for piece, it, p in zip(pieces, items[len(order):], placed[len(order):])]
         part = None
         if k > 1:
             part = ((t // nx) % k * k + (t % nx) % k + 1, k * k)
@@ -792,22 +808,25 @@ def _enlargements(plan: Plan, n: int, outline: dict[str, Any], labelled: dict[st
                                                        paper_per_wall=scale,
                                                        brush=(brush, f"the {w.number(brush)} mm brush")),
                                          f"{anchor}-key"))
-        moved = sum(1 for p in placed if p["moved"])
+        moved = sum(1 for p in placed[:len(order)] if p["moved"])
         crowded = sum(1 for p in placed if p["clash"])
         lead = (f"Scale {_scale_text(scale)}: the {w.number(brush)} mm brush is {w.number(brush * scale, 1)} mm "
-                f"wide here ({w.paper_scale(1.0 / scale, unit)}). {len(labels)} area"
-                f"{'s' if len(labels) != 1 else ''} labelled with {'its' if len(labels) == 1 else 'their'} paint"
-                + (f", {moved} of them beside the area with a line to it" if moved else "") + ".")
+                f"wide here ({w.paper_scale(1.0 / scale, unit)}). {len(order)} area"
+                f"{'s' if len(order) != 1 else ''} labelled with {'its' if len(order) == 1 else 'their'} paint"
+                + (f", {moved} of them beside the area with a line to it" if moved else "")
+                + (f"; {w.count(len(pieces), 'area')} reaching in from a neighbouring sheet, labelled in italics"
+                   if pieces else "") + ".")
         caption = ("Areas of this layer in these squares, outlined, each paint with its own hatching (key above). "
                    "Short lines show which way the strokes run; a dot and a thin line lead from a small area to "
                    "its label. Each square is named in its top left corner, as on the transfer grid. An area "
-                   "reaching into a neighbouring sheet is labelled once, on the sheet holding its widest part."
+                   "that runs over the edge of the sheet is counted on the sheet holding its widest part; its "
+                   "label on the other sheet is in italics."
                    + (f" {crowded} label{'s' if crowded != 1 else ''} had no free room and overlap"
                       f"{'s' if crowded == 1 else ''} {'its' if crowded == 1 else 'their'} neighbours." if crowded
                       else ""))
         sheets.append(Enlargement(
             n, anchor, f"Layer {n}, enlargement {number} of {len(tiles)}: {names}", lead, _scale_text(scale), key,
-            Figure((box[2] - box[0]) * scale, caption, svg=svg), len(labels), moved, crowded))
+            Figure((box[2] - box[0]) * scale, caption, svg=svg), len(order), moved, crowded))
     reason = (f"the {w.number(brush)} mm brush prints {w.number(brush * overview, 1)} mm wide on the map above"
               if too_thin else f"{w.count(len(unlabelled), 'area')} "
                                f"{'carries' if len(unlabelled) == 1 else 'carry'} no label on the map above")
@@ -941,7 +960,7 @@ def build_sheets(
     labelled = [_overview_labels(plan, o, sheet) for o in outlines]
     enlargements, notes, keys = [], [], []
     for n in range(1, len(plan.layers) + 1):
-        more, note, key = _enlargements(plan, n, outlines[n - 1], labelled[n - 1], np.asarray(canvases[n - 1]) >= 0,
+        more, note, key = _enlargements(plan, n, outlines[n - 1], labelled[n - 1], np.asarray(canvases[n - 1]),
                                         grid_mm=grid_mm, unit=unit, paper=sheet, limit=enlargements_per_layer)
         enlargements += more
         if note:

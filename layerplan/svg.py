@@ -517,7 +517,9 @@ def enlargement_svg(plan: Plan, outline: dict[str, Any], *, box_mm: tuple[float,
     labels : list of dict
         Labels placed by :func:`layerplan.outlines.place_labels_around`: ``area`` (index into
         ``outline["areas"]``), ``x``, ``y`` (the label, wall mm), ``moved`` (drawn away from
-        its area, with a leader line to the area's label point).
+        its area, with a leader line to the area's label point), ``font_mm``, ``half_w_mm``,
+        ``half_h_mm``; for a part of an area counted on another sheet, ``continued`` (set in
+        italics), ``anchor_mm`` (its point here) and ``room_mm``.
     bounds : (N, 4) array, optional
         :func:`area_bounds` of the outline, if the caller has it already.
 
@@ -581,13 +583,14 @@ def enlargement_svg(plan: Plan, outline: dict[str, Any], *, box_mm: tuple[float,
     texts = dwg.g(fill=INK, font_family="sans-serif", font_weight="bold", **{"text-anchor": "middle"})
     for lab in labels:
         a = areas[lab["area"]]
-        ax, ay = a["label_mm"]
+        ax, ay = lab.get("anchor_mm") or a["label_mm"]
+        room = lab.get("room_mm", a["label_room_mm"])
         x, y, f = lab["x"], lab["y"], lab["font_mm"]
         if a["direction_deg"] is not None and a["hint"] != "mixed":
             # a short line through the area along its strokes (beside the label when it sits there)
             t = math.radians(a["direction_deg"])
             c, sn = math.cos(t), math.sin(t)
-            half = max(a["label_room_mm"], 1.2 / s)
+            half = max(room, 1.2 / s)
             if lab["moved"]:
                 hints.add(dwg.line(start=(_f(ax - half * c), _f(ay - half * sn)),
                                    end=(_f(ax + half * c), _f(ay + half * sn))))
@@ -603,8 +606,10 @@ def enlargement_svg(plan: Plan, outline: dict[str, Any], *, box_mm: tuple[float,
             leaders.add(dwg.line(start=(_f(ax), _f(ay)), end=(_f(x), _f(y))))
             leaders.add(dwg.circle(center=(_f(ax), _f(ay)), r=_f(0.35 / s), fill=INK, stroke="none"))
         _halo(dwg, halos, str(a["paint"]), x, y + f * 0.35, f)
-        texts.add(dwg.text(a["paint"], insert=(_f(x), _f(y + f * 0.35)), font_size=_f(f),
-                           **{"class": "area-label", "data-layer": str(n), "data-area": str(lab["area"])}))
+        extra = {"class": "area-label", "data-layer": str(n), "data-area": str(lab["area"])}
+        if lab.get("continued"):  # the area is counted on the neighbouring sheet holding most of it
+            extra.update({"class": "area-label continued", "font-style": "italic"})
+        texts.add(dwg.text(a["paint"], insert=(_f(x), _f(y + f * 0.35)), font_size=_f(f), **extra))
     dwg.add(hints)
     dwg.add(leaders)
     dwg.add(halos)

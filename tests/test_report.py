@@ -714,3 +714,35 @@ def test_a_square_too_big_for_one_sheet_is_cut_into_parts():
         assert 3.0 * scale >= MIN_BRUSH_PAPER_MM - 1e-6 and box[2] == pytest.approx(250.0)
         assert e.map.width_mm <= sheets.paper.print_w_mm and box[3] * scale <= sheets.paper.print_h_mm
     assert sum(e.labelled for e in sheets.enlargements) == len(outline_maps(plan)[0]["areas"])
+
+
+def test_every_area_part_on_an_enlargement_carries_its_paint(fine):
+    # reference: scipy.ndimage.label (4-connected, its default structure) on the layer's own canvas, paint by
+    # paint; every area with at least a quarter of a brush square inside a sheet's part of the wall is labelled
+    # on that sheet, in upright type if the sheet holds its label point, else in italics
+    from scipy import ndimage
+
+    from layerplan.outlines import layer_canvas
+
+    plan, maps, sheets, _ = fine
+    labelled = {}  # (layer, paint) -> scipy's areas of that paint in that layer
+    for n, outline in enumerate(maps, start=1):
+        canvas = layer_canvas(plan, n)
+        for paint in {a["paint"] for a in outline["areas"]}:
+            labelled[n, paint] = ndimage.label(canvas == plan.paint_index()[paint])[0]
+    for e in sheets.enlargements:
+        s = plan.mm_per_px
+        _, (x, y, bw, bh) = _svg_scale(str(e.map.svg))
+        i0, i1, j0, j1 = int(y / s), int(np.ceil((y + bh) / s)), int(x / s), int(np.ceil((x + bw) / s))
+        brush = min(st.width_mm for st in plan.layers[e.layer - 1].strokes)
+        svg = str(e.map.svg)
+        written = {int(k) for k in re.findall(r'class="area-label[^"]*" data-area="(\d+)"', svg)}
+        for k, a in enumerate(maps[e.layer - 1]["areas"]):
+            lab = labelled[e.layer, a["paint"]]
+            pi, pj = int(a["label_mm"][1] / s), int(a["label_mm"][0] / s)
+            inside = int(np.sum(lab[i0:i1, j0:j1] == lab[pi, pj]))
+            if inside >= 0.25 * (brush / s) ** 2:
+                assert k in written, (e.title, k)
+        italic = re.findall(r'class="area-label continued" data-area="(\d+)"', svg)
+        assert all(not (x <= maps[e.layer - 1]["areas"][int(k)]["label_mm"][0] < x + bw
+                        and y <= maps[e.layer - 1]["areas"][int(k)]["label_mm"][1] < y + bh) for k in italic)
