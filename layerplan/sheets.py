@@ -4,7 +4,8 @@
 returns a :class:`Sheets`: the cover, paint card, shopping list, brushes and time, transfer grid (split over
 further sheets when its squares print too small), one sheet per layer, and each layer's enlargements: blocks
 of grid squares at a scale where the layer's narrowest brush prints at least 2 mm, every area labelled with its
-paint and hatched per paint for black-and-white print. Nothing here is HTML: ``templates/sheets/`` lays the sheets out for plan.html (:mod:`layerplan.report`),
+paint and hatched per paint for black-and-white print. Nothing here is HTML: ``templates/sheets/`` lays the
+sheets out for plan.html (:mod:`layerplan.report`),
 and another exporter (a PDF, a spreadsheet) can lay out the same data. Text comes from
 :mod:`layerplan.wording`, so it reads as on the web pages. Pictures are PNG data URIs (RFC 2397); maps are SVG
 from :mod:`layerplan.svg`, passed on as markup.

@@ -520,7 +520,8 @@ def test_every_area_of_every_layer_is_labelled_on_some_sheet(fine):
                 assert word == outline["areas"][k]["paint"]
     # and on the enlargements of a layer each area is labelled exactly once
     enlarged = [(int(a), int(b)) for a, b in re.findall(
-        r'class="area-label" data-area="(\d+)" data-layer="(\d+)"', "".join(str(e.map.svg) for e in sheets.enlargements))]
+        r'class="area-label" data-area="(\d+)" data-layer="(\d+)"',
+        "".join(str(e.map.svg) for e in sheets.enlargements))]
     assert len(enlarged) == len(set(enlarged))
 
 
