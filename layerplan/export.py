@@ -61,11 +61,17 @@ class ExportInputs:
         :func:`layerplan.quantities.paint_use` of the plan, with the export's options.
     grid_mm : float
         Transfer-grid square, mm of wall (checked by :func:`layerplan.svg.check_grid`).
+    paper : str
+        The paper plan.html is laid out for (a key of :data:`layerplan.sheets.PAPERS`).
+    enlargements_per_layer : int, optional
+        Most enlargement sheets of one layer in plan.html (default that of :func:`layerplan.sheets.build_sheets`).
     """
 
     plan: Plan
     paint_use: Mapping[str, Any]
     grid_mm: float
+    paper: str = "a4"
+    enlargements_per_layer: int | None = None
 
     @cached_property
     def canvases(self) -> tuple[np.ndarray, ...]:
@@ -114,7 +120,7 @@ def _final_picture(x: ExportInputs) -> dict[str, bytes]:
 def _layer_overlays(x: ExportInputs) -> dict[str, bytes]:
     from .svg import layer_svg
 
-    return {f"steps/{n:02d}.svg": layer_svg(x.plan, n, outline=x.outlines[n - 1]).encode("utf-8")
+    return {f"steps/{n:02d}.svg": layer_svg(x.plan, n, grid_mm=x.grid_mm, outline=x.outlines[n - 1]).encode("utf-8")
             for n in range(1, len(x.plan.layers) + 1)}
 
 
@@ -130,7 +136,9 @@ def _print_plan(x: ExportInputs) -> dict[str, bytes]:
     images = {f"steps/{n:02d}": data for n, data in enumerate(x.step_pngs)}
     images["final"] = x.step_pngs[-1]
     return {"plan.html": plan_html(x.plan, images=images, grid_mm=x.grid_mm, outlines=list(x.outlines),
-                                   paint_use=dict(x.paint_use), steps=list(x.steps)).encode("utf-8")}
+                                   paint_use=dict(x.paint_use), steps=list(x.steps), paper=x.paper,
+                                   canvases=list(x.canvases),
+                                   enlargements_per_layer=x.enlargements_per_layer).encode("utf-8")}
 
 
 def _plan_document(x: ExportInputs) -> dict[str, bytes]:
@@ -197,17 +205,19 @@ def export_for(file_name: str) -> Export | None:
     return next((e for e in EXPORTS.values() if e.matches(file_name)), None)
 
 
-def build_files(plan: Plan, *, grid_mm: float | None = None, **options) -> dict[str, bytes]:
+def build_files(plan: Plan, *, grid_mm: float | None = None, paper: str | None = None,
+                enlargements_per_layer: int | None = None, **options) -> dict[str, bytes]:
     """Every output file of a plan, as relative path -> bytes (one entry of :data:`EXPORTS` each).
 
     ``steps/NN.png`` is the wall after layer NN (``00``: the ground); ``steps/NN.svg`` holds
-    layer NN's strokes alone with its outline map, for projecting; ``overlay.svg`` the whole
+    layer NN's strokes alone with its outline map and the transfer grid, for projecting; ``overlay.svg`` the whole
     plan with the transfer grid and (hidden) outline maps; ``plan.html`` the printable plan.
     The quantities (``options``: coverage_m2_per_litre, waste, ground_coats, stroke_coats,
     containers) are worked out once by :func:`layerplan.quantities.paint_use`, handed to the
     exporters and written as plan.json's ``paint_use`` section; ``plan`` itself is not changed.
     ``grid_mm`` is the transfer-grid square (default 500 mm, or 2 ft for walls measured in ft
-    or in).
+    or in). ``paper`` is the paper plan.html is laid out for: a4 (default), letter, a3 or tabloid;
+    ``enlargements_per_layer`` the most enlargement sheets of one layer there.
 
     Raises
     ------
@@ -220,11 +230,19 @@ def build_files(plan: Plan, *, grid_mm: float | None = None, **options) -> dict[
 
     unknown = sorted(set(options) - set(QUANTITY_OPTIONS))
     if unknown:
-        raise ValueError(f"unknown export option(s) {', '.join(unknown)}; valid: grid_mm, {', '.join(QUANTITY_OPTIONS)}")
+        raise ValueError(f"unknown export option(s) {', '.join(unknown)}; valid: grid_mm, "
+                         f"{', '.join(QUANTITY_OPTIONS)}, paper")
+    from .sheets import DEFAULT_PAPER, PAPERS
+
+    if paper is None:
+        paper = DEFAULT_PAPER
+    if paper not in PAPERS:
+        raise ValueError(f"paper must be one of {', '.join(PAPERS)}, got {paper!r}")
     if grid_mm is None:
         grid_mm = default_grid_mm(plan.wall_unit, shorter_side_mm=min(plan.wall_width_mm, plan.wall_height_mm))
     grid_mm = check_grid(plan, grid_mm)
-    inputs = ExportInputs(plan=plan, paint_use=MappingProxyType(paint_use(plan, **options)), grid_mm=grid_mm)
+    inputs = ExportInputs(plan=plan, paint_use=MappingProxyType(paint_use(plan, **options)), grid_mm=grid_mm,
+                          paper=paper, enlargements_per_layer=enlargements_per_layer)
     files: dict[str, bytes] = {}
     for export in EXPORTS.values():
         built = export.build(inputs)

@@ -45,6 +45,12 @@ MAX_MIX_PAINTS, MAX_PARTS, MAX_TOLERANCE_DE = 4, 30, 100.0
 COVERAGE_M2_PER_L, WASTE, GROUND_COATS, STROKE_COATS = 10.0, 0.15, 2, 1
 #: svg.MAX_GRID_LINES: most transfer-grid squares along the longest side
 MAX_GRID_SQUARES = 200
+#: sheets.PAPERS and DEFAULT_PAPER: the papers plan.html can be laid out for (A4 and Letter share a
+#: layout, as do A3 and Tabloid)
+PAPERS, DEFAULT_PAPER = ("a4", "letter", "a3", "tabloid"), "a4"
+#: sheets.MAX_ENLARGEMENTS_PER_LAYER: most enlargement sheets of one layer by default; and the most we
+#: allow (about 30 KB of plan.html each: 400 is some 12 MB a layer)
+ENLARGEMENTS_PER_LAYER, MAX_ENLARGEMENTS_PER_LAYER = 24, 400
 #: upper bound on a seed, so it stays an ordinary integer everywhere
 MAX_SEED = 2**32 - 1
 
@@ -483,6 +489,13 @@ OPTIONS: dict[str, Option] = {o.name: o for o in (
            metavar="LENGTH",
            default_text=f"50cm, or 2ft for walls in ft or in; 10cm or 4in on small boards; "
                         f"at most {MAX_GRID_SQUARES} squares along the longest side"),
+    Option("paper", "choice", DEFAULT_PAPER, "paper the printed plan is laid out for; a4 and letter give sheets "
+           "that print on either, as do a3 and tabloid (bigger enlargements, fewer sheets)", "--paper",
+           "Paper", "paper", "paper", "quantities", _OUT, target="output", choices=PAPERS),
+    Option("enlargements", "whole", ENLARGEMENTS_PER_LAYER, "most enlargement sheets of one layer in the printed "
+           "plan (the squares with the most areas are kept); 0 for none", "--enlargements",
+           "Enlargements per layer", "enlargements per layer", "enlargements_per_layer", "quantities", _OUT,
+           target="output", minimum=0, maximum=MAX_ENLARGEMENTS_PER_LAYER, metavar="N"),
 )}
 
 GROUP_TITLES = {"planning": "planning", "mixing": "paints and mix recipes", "quantities": "quantities and printing"}

@@ -705,3 +705,138 @@ def place_labels(
         if ok:
             placed.append((a["paint"], x, y, bw, bh))
     return {**outline, "areas": areas}
+
+
+def place_labels_around(
+    items: list[dict[str, Any]],
+    *,
+    bounds: tuple[float, float, float, float],
+    gap: float = 0.3,
+    rings: int = 4,
+    fixed: list[tuple[float, float, float, float]] = (),
+) -> list[dict[str, Any]]:
+    """Place a label for every item, moving it off its point (for a leader line) when it does not fit.
+
+    Greedy in the order given (largest areas first, say). An item whose label fits inside its
+    area (``fits``) is tried at its own point first; every item is then tried on rings of 8 to
+    16 positions around its point, 1 to ``rings`` label heights further out each, and takes the
+    first position where its box overlaps no box placed so far (kept ``gap`` label heights
+    apart), covers no other item's point and stays inside ``bounds``. An item with no free
+    position is put on its own point all the same (``clash``), so every item is labelled.
+    Cartographers call this point-feature label placement with leaders (after Imhof 1975).
+
+    Parameters
+    ----------
+    items : list of dict
+        ``x``, ``y`` (the point), ``half_w``, ``half_h`` (the label's half size) and ``fits``
+        (bool), all in one unit.
+    bounds : (x0, y0, x1, y1)
+        Labels stay inside.
+    gap : float
+        Clearance between labels, in label heights (>= 0).
+    rings : int
+        How far out a label may go, in label heights (>= 0).
+    fixed : list of (x, y, half_w, half_h)
+        Boxes already on the map (other text) that labels keep clear of, as of each other.
+
+    Returns
+    -------
+    placed : list of dict
+        Per item, in the given order: ``x``, ``y`` (the label's centre), ``moved`` (not on
+        its point) and ``clash`` (overlapping, for want of room).
+
+    References
+    ----------
+    E. Imhof, "Positioning names on maps", The American Cartographer 2(2):128-144, 1975.
+    """
+    n, m = len(items), len(fixed)
+    px = np.array([it["x"] for it in items], dtype=float)
+    py = np.array([it["y"] for it in items], dtype=float)
+    bx0, by0, bx1, by1 = bounds
+    cx, cy = np.empty(m + n), np.empty(m + n)
+    hw, hh = np.empty(m + n), np.empty(m + n)
+    for k, (fx, fy, fw, fh) in enumerate(fixed):
+        cx[k], cy[k], hw[k], hh[k] = fx, fy, fw, fh
+    out = []
+    angles = [np.linspace(0, 2 * np.pi, 8 + 4 * min(r, 2), endpoint=False) for r in range(rings + 1)]
+    for i, it in enumerate(items):
+        bw, bh = float(it["half_w"]), float(it["half_h"])
+        x, y = float(it["x"]), float(it["y"])
+        cands = [(x, y, False)] if it["fits"] else []
+        for r in range(1, rings + 1):
+            dist = r * 2.0 * bh * (1.0 + gap) + (bw if r == 1 else 0.0) * 0.5
+            for t in angles[r]:
+                cands.append((x + (dist + bw * abs(math.cos(t))) * math.cos(t), y + dist * math.sin(t), True))
+        best = None
+        for qx, qy, moved in cands:
+            if qx - bw < bx0 or qx + bw > bx1 or qy - bh < by0 or qy + bh > by1:
+                continue
+            if m + i:
+                j = m + i
+                pad = gap * 2.0 * np.maximum(bh, hh[:j])
+                if np.any((np.abs(qx - cx[:j]) < bw + hw[:j] + pad) & (np.abs(qy - cy[:j]) < bh + hh[:j] + pad)):
+                    continue
+            others = (np.abs(px - qx) < bw) & (np.abs(py - qy) < bh)
+            others[i] = False
+            if np.any(others):
+                continue
+            best = (qx, qy, moved)
+            break
+        clash = best is None
+        if clash:
+            best = (x, y, False)
+        cx[m + i], cy[m + i], hw[m + i], hh[m + i] = best[0], best[1], bw, bh
+        out.append({"x": best[0], "y": best[1], "moved": best[2], "clash": clash})
+    return out
+
+
+def area_pixels(canvas: np.ndarray, outline: dict[str, Any], mm_per_px: float) -> tuple[np.ndarray, np.ndarray]:
+    """Which area of ``outline`` each pixel of ``canvas`` belongs to.
+
+    Returns
+    -------
+    labels : (H, W) int32
+        Connected areas of ``canvas`` as :func:`layer_outlines` finds them (0 outside every area).
+    area_of : (count + 1,) int64
+        For each label, the index of its area in ``outline["areas"]``, or -1 for the areas too small
+        to be on the map.
+    """
+    labels, *_ = _components(np.asarray(canvas, dtype=np.int16))
+    area_of = np.full(int(labels.max()) + 1, -1, dtype=np.int64)
+    h, w = labels.shape
+    for k, a in enumerate(outline["areas"]):
+        # the label point is the centre of the area's deepest pixel
+        j = min(w - 1, max(0, round(a["label_mm"][0] / mm_per_px - 0.5)))
+        i = min(h - 1, max(0, round(a["label_mm"][1] / mm_per_px - 0.5)))
+        if labels[i, j]:
+            area_of[labels[i, j]] = k
+    return labels, area_of
+
+
+def pieces_in_box(labels: np.ndarray, area_of: np.ndarray, box_px: tuple[int, int, int, int], *,
+                  min_px: float, skip=()) -> list[dict[str, Any]]:
+    """The parts of areas inside a box of pixels (rows i0:i1, columns j0:j1), each with a point well inside.
+
+    For an area reaching into a box from outside it, a label point for the part inside: the part's
+    pixel farthest from its edge or the box's (exact Euclidean distance, as for :func:`layer_outlines`).
+
+    Returns
+    -------
+    pieces : list of dict
+        ``area`` (index), ``i``, ``j`` (the point's pixel), ``room_px`` (its distance to the edge) and
+        ``size_px``, for the areas not in ``skip`` with at least ``min_px`` pixels inside the box.
+    """
+    i0, i1, j0, j1 = box_px
+    crop = labels[i0:i1, j0:j1]
+    out = []
+    skip = set(skip)
+    found, counts = np.unique(crop, return_counts=True)
+    for lab, count in zip(found.tolist(), counts.tolist()):
+        k = int(area_of[lab]) if lab else -1
+        if k < 0 or k in skip or count < min_px:
+            continue
+        mask = np.zeros((crop.shape[0] + 2, crop.shape[1] + 2), dtype=np.bool_)
+        mask[1:-1, 1:-1] = crop == lab
+        li, lj, d2 = _deepest(mask)
+        out.append({"area": k, "i": i0 + li - 1, "j": j0 + lj - 1, "room_px": math.sqrt(d2), "size_px": count})
+    return out

@@ -5,8 +5,9 @@ inline (``static/sheet.css``). Printing gives one section per sheet; every secti
 out to fit the printable area both A4 (210 × 297 mm) and US Letter (215.9 × 279.4 mm)
 share, so the same file prints on either.
 
-Sections: cover, paint card, shopping list, brushes and time, transfer grid, one
-sheet per layer, safety. What they say is :func:`layerplan.sheets.build_sheets`; how it
+Sections: cover, paint card, shopping list, brushes and time, transfer grid (and its
+parts when too dense for one sheet), one sheet per layer each followed by its
+enlargements, safety. What they say is :func:`layerplan.sheets.build_sheets`; how it
 is laid out is the Jinja2 templates in ``templates/sheets/`` (autoescaped). No Flask is
 needed, so the command line renders the same file as the web app.
 
@@ -77,6 +78,9 @@ def plan_html(
     paint_use: dict[str, Any] | None = None,
     title: str | None = None,
     steps: list[np.ndarray] | None = None,
+    paper: str = "a4",
+    canvases: list[np.ndarray] | None = None,
+    enlargements_per_layer: int | None = None,
 ) -> str:
     """The printable plan as one self-contained HTML document.
 
@@ -100,6 +104,13 @@ def plan_html(
     steps : list of (H, W) int arrays, optional
         The wall after the ground and after each layer, as
         :func:`layerplan.raster.render_steps` gives them; rendered if missing.
+    paper : str
+        ``"a4"``, ``"letter"``, ``"a3"`` or ``"tabloid"`` (:data:`layerplan.sheets.PAPERS`).
+    canvases : list of (H, W) int arrays, optional
+        Each layer alone (:func:`layerplan.outlines.layer_canvas`); made if missing.
+    enlargements_per_layer : int, optional
+        Most enlargement sheets of one layer; default
+        :data:`layerplan.sheets.MAX_ENLARGEMENTS_PER_LAYER`.
 
     Returns
     -------
@@ -116,4 +127,6 @@ def plan_html(
     ISO 216 (A4); ANSI/ASME Y14.1 (Letter); W3C CSS Paged Media and Fragmentation.
     """
     return render_sheets(build_sheets(plan, images=images, grid_mm=grid_mm, outlines=outlines,
-                                      paint_use=paint_use, title=title, steps=steps))
+                                      paint_use=paint_use, title=title, steps=steps, paper=paper,
+                                      canvases=canvases, **({} if enlargements_per_layer is None else
+                                                            {"enlargements_per_layer": enlargements_per_layer})))

@@ -1,14 +1,18 @@
 """The printed plan's sheets as plain data: what each sheet says, with every amount already in words.
 
 :func:`build_sheets` reads a :class:`~layerplan.plan.Plan`, its paint use, pictures and outline maps and
-returns a :class:`Sheets`: the cover, paint card, shopping list, brushes and time, transfer grid, one sheet per
-layer. Nothing here is HTML: ``templates/sheets/`` lays the sheets out for plan.html (:mod:`layerplan.report`),
+returns a :class:`Sheets`: the cover, paint card, shopping list, brushes and time, transfer grid (split over
+further sheets when its squares print too small), one sheet per layer, and each layer's enlargements: blocks
+of grid squares at a scale where the layer's narrowest brush prints at least 2 mm, every area labelled with its
+paint and hatched per paint for black-and-white print. Nothing here is HTML: ``templates/sheets/`` lays the
+sheets out for plan.html (:mod:`layerplan.report`),
 and another exporter (a PDF, a spreadsheet) can lay out the same data. Text comes from
 :mod:`layerplan.wording`, so it reads as on the web pages. Pictures are PNG data URIs (RFC 2397); maps are SVG
 from :mod:`layerplan.svg`, passed on as markup.
 
 Sizes of pictures are chosen to fit the printable area A4 (210 × 297 mm) and US Letter (215.9 × 279.4 mm)
-share, so the same file prints on either.
+share, so the same file prints on either; with ``paper="a3"`` or ``"tabloid"``, the box A3 (297 × 420 mm) and
+Tabloid (11 × 17 in) share.
 
 References
 ----------
@@ -16,6 +20,8 @@ References
    (A4 = 210 × 297 mm).
 .. [2] ANSI/ASME Y14.1-2020, Decimal inch drawing sheet size and format (Letter, 8.5 × 11 in).
 .. [3] RFC 2397, The "data" URL scheme.
+.. [4] E. Imhof, "Positioning names on maps", The American Cartographer 2(2):128-144, 1975 (labels with
+   leaders, see :func:`layerplan.outlines.place_labels_around`).
 """
 
 from __future__ import annotations
@@ -33,12 +39,13 @@ from markupsafe import Markup
 
 from . import wording as w
 from .coats import CoatNote, coat_notes
-from .outlines import outline_maps, place_labels
+from .outlines import area_pixels, layer_canvas, outline_maps, pieces_in_box, place_labels, place_labels_around
 from .plan import Plan
 from .quantities import TRACE_LITRES, US_UNITS
 from .quantities import paint_use as compute_paint_use
 from .raster import render_steps
-from .svg import check_grid, column_label, grid_over_image_svg, label_box_mm, outline_map_svg
+from .svg import (LABEL_EM_PER_CHAR, check_grid, column_label, enlargement_svg, grid_over_image_svg, grid_part_svg,
+                  label_box_mm, outline_map_svg, paint_key_svg, square_name_boxes, area_bounds, areas_meeting)
 
 #: default transfer-grid square, mm (50 cm: a comfortable square to copy freehand; common practice)
 GRID_MM = 500.0
@@ -67,6 +74,50 @@ PAINT_CHANGE_SECONDS = 180.0
 #: rolling the ground, m² per hour per coat (from memory, common practice for a roller on a wall)
 GROUND_M2_PER_HOUR = 10.0
 _PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"
+#: narrowest brush on an enlargement, paper mm: a 2 mm band is about the thinnest a painter
+#: on a ladder reads at arm's length without a magnifier (our choice, asked for by muralists)
+MIN_BRUSH_PAPER_MM = 2.0
+#: label text height on enlargements, paper mm (2.5 mm is about 7 pt capitals; ISO 3098 drawing
+#: lettering starts at 2.5 mm; from memory)
+ENLARGEMENT_LABEL_MM = 2.5
+#: paper height an enlargement sheet keeps for its title, lead, key and caption, mm (our layout)
+ENLARGEMENT_HEADER_MM = 75.0
+#: most enlargement sheets per layer by default; the layer sheet says when some squares are left out
+MAX_ENLARGEMENTS_PER_LAYER = 24
+#: a transfer-grid square printed smaller than this (paper mm) is too small to copy from, so the
+#: grid is split over further sheets at :data:`GRID_PART_SQUARE_MM` a square (our choice)
+MIN_GRID_SQUARE_PAPER_MM = 12.0
+GRID_PART_SQUARE_MM = 20.0
+
+
+@dataclass(frozen=True)
+class Paper:
+    """A paper choice: the sheets are laid out in the printable box both sizes of the pair share.
+
+    ``css_size`` is the CSS page size (W3C CSS Paged Media, ``size``) of the named sheet.
+    """
+
+    key: str
+    name: str
+    css_size: str
+    print_w_mm: float
+    print_h_mm: float
+
+
+def _box(*sizes: tuple[float, float]) -> tuple[float, float]:
+    return (min(w for w, _ in sizes) - 2 * PAGE_MARGIN_MM, min(h for _, h in sizes) - 2 * PAGE_MARGIN_MM)
+
+
+#: A4 and A3 (ISO 216: 210 × 297, 297 × 420 mm), Letter and Tabloid (ANSI/ASME Y14.1: 8.5 × 11,
+#: 11 × 17 in); each pair is laid out for the box both share, so a file made for one prints on the other
+_SMALL, _LARGE = _box((210.0, 297.0), (215.9, 279.4)), _box((297.0, 420.0), (279.4, 431.8))
+PAPERS: dict[str, Paper] = {p.key: p for p in (
+    Paper("a4", "A4 (or Letter)", "A4", *_SMALL),
+    Paper("letter", "Letter (or A4)", "letter", *_SMALL),
+    Paper("a3", "A3 (or Tabloid)", "A3", *_LARGE),
+    Paper("tabloid", "Tabloid (or A3)", "ledger", *_LARGE),
+)}
+DEFAULT_PAPER = "a4"
 
 
 # ----------------------------------------------------------------------------------- the model
@@ -206,6 +257,35 @@ class LayerSheet:
 
 
 @dataclass(frozen=True)
+class GridPart:
+    """One sheet of a transfer grid too dense for one page: a block of squares, named like ``squares A1–H8``."""
+
+    anchor: str
+    title: str
+    figure: Figure
+
+
+@dataclass(frozen=True)
+class Enlargement:
+    """A part of a layer's outline map at a scale where its brush is readable.
+
+    ``labelled`` counts the areas labelled here (each area of the layer is labelled on the one
+    enlargement holding its label point); ``moved`` those drawn beside their area with a leader.
+    """
+
+    layer: int
+    anchor: str
+    title: str
+    lead: str
+    scale: str
+    key: Figure
+    map: Figure
+    labelled: int
+    moved: int
+    crowded: int
+
+
+@dataclass(frozen=True)
 class Sheets:
     """Every sheet of a printed plan, in print order (the safety sheet is fixed text of the template)."""
 
@@ -217,6 +297,25 @@ class Sheets:
     brushes: Brushes
     grid: TransferGrid
     layers: tuple[LayerSheet, ...]
+    paper: Paper = PAPERS[DEFAULT_PAPER]
+    enlargements: tuple[Enlargement, ...] = ()
+    grid_parts: tuple[GridPart, ...] = ()
+    #: (layer, words) for each layer with enlargements: how many, at what scale, what was left out
+    enlargement_notes: tuple[tuple[int, str], ...] = ()
+    #: (layer, figure): each layer's paint key, the hatching of each paint on its maps
+    layer_keys: tuple[tuple[int, Figure], ...] = ()
+
+    def enlargements_of(self, n: int) -> tuple[Enlargement, ...]:
+        """The enlargement sheets of layer ``n``, in print order."""
+        return tuple(e for e in self.enlargements if e.layer == n)
+
+    def enlargement_note(self, n: int) -> str:
+        """What the layer sheet of layer ``n`` says about its enlargements ("" when it has none)."""
+        return next((text for k, text in self.enlargement_notes if k == n), "")
+
+    def layer_key(self, n: int) -> Figure | None:
+        """The paint key of layer ``n``'s maps, or None when the layer has no areas."""
+        return next((f for k, f in self.layer_keys if k == n), None)
 
 
 # ------------------------------------------------------------------------------------- helpers
@@ -300,15 +399,18 @@ def _fit_box(plan: Plan, max_w_mm: float, max_h_mm: float) -> float:
 
 
 _SVG_ID = re.compile(r'(\sid=")([^"]*")')
+_SVG_REF = re.compile(r'(url\(#|\shref="#|\sxlink:href="#)([^)"]*)')
 
 
 def _svg(text: str, scope: str) -> Markup:
     """Our SVG writer's output for one figure, its element ids prefixed with ``scope``.
 
-    Every map carries the same group ids (``grid``, ``outlines-01``…), and an HTML page may hold each id
-    once; our SVG never refers to its own ids, so renaming them changes nothing drawn.
+    Every map carries the same group ids (``grid``, ``outlines-01``, ``pattern-3``…), and an HTML page
+    may hold each id once; references to them (``url(#…)``, ``href="#…"``) are renamed alike, so
+    nothing drawn changes.
     """
-    return Markup(_SVG_ID.sub(lambda m: f"{m.group(1)}{scope}-{m.group(2)}", text))
+    text = _SVG_ID.sub(lambda m: f"{m.group(1)}{scope}-{m.group(2)}", text)
+    return Markup(_SVG_REF.sub(lambda m: f"{m.group(1)}{scope}-{m.group(2)}", text))
 
 
 # -------------------------------------------------------------------------------------- sheets
@@ -506,15 +608,29 @@ def _grid(plan: Plan, imgs, grid_mm: float, unit: str) -> TransferGrid:
                         Figure(fig_w, caption, svg=svg))
 
 
+def _overview_width_mm(plan: Plan, paper: Paper) -> float:
+    """Printed width of a layer sheet's outline map (the whole wall), mm."""
+    # 118 mm tall at most on A4/Letter, leaving room for the paint key and the note under the map
+    return _fit_box(plan, paper.print_w_mm, 118.0 * paper.print_h_mm / PRINT_H_MM)
+
+
+def _overview_labels(plan: Plan, outline: dict[str, Any], paper: Paper) -> dict[str, Any]:
+    """The outline map with the labels its layer sheet has room for (see :func:`place_labels`)."""
+    scale = _overview_width_mm(plan, paper) / plan.wall_width_mm  # paper mm per wall mm
+    return place_labels(outline, lambda a: label_box_mm(plan, a),
+                        min_area_mm2=MIN_LABEL_PAPER_MM2 / (scale * scale))
+
+
 def _layer(plan: Plan, n: int, imgs, outline: dict[str, Any], changed: float, *,
-           grid_mm: float, unit: str) -> LayerSheet:
+           grid_mm: float, unit: str, paper: Paper = PAPERS[DEFAULT_PAPER],
+           labelled: dict[str, Any] | None = None, enlarged: bool = False) -> LayerSheet:
     layer = plan.layers[n - 1]
     order_ix = plan.paint_index()
     count: dict[str, int] = {}
     for s in layer.strokes:
         count[s.paint] = count.get(s.paint, 0) + 1
     pic_w = _fit_box(plan, 92.0, 62.0)
-    map_w = _fit_box(plan, PRINT_W_MM, 140.0)
+    map_w = _overview_width_mm(plan, paper)
     hints: dict[str, dict[str, float]] = {}
     for a in outline["areas"]:
         d = hints.setdefault(a["paint"], {})
@@ -526,19 +642,21 @@ def _layer(plan: Plan, n: int, imgs, outline: dict[str, Any], changed: float, *,
                                  sum(1 for a in outline["areas"] if a["paint"] == pid),
                                  w.area(sum(d.values()) / 1e6, unit), max(d, key=d.get) if d else "—"))
     # labels: only where the shape is big enough on this page and the label clears the others
-    paper = map_w / plan.wall_width_mm  # paper mm per wall mm
-    labelled = place_labels(outline, lambda a: label_box_mm(plan, a),
-                            min_area_mm2=MIN_LABEL_PAPER_MM2 / (paper * paper))
+    if labelled is None:
+        labelled = _overview_labels(plan, outline, paper)
     unlabelled = sum(1 for a in labelled["areas"] if not a["label"])
     blank = (f"Blank (white) areas get no paint in this layer: the ground, {plan.ground}, stays showing there."
              if n == 1 else f"Blank (white) areas get no paint in this layer: what layer {n - 1} left stays "
                             "showing there.")
     caption = ("Where each paint shows once this layer is done, labelled with the paint id; short lines show "
-               "which way the strokes run. " + blank + " The faint grid is the transfer grid (same letters "
+               "which way the strokes run. Each paint has its own hatching (see the key), so the map reads "
+               "in black-and-white print too. " + blank + " The faint grid is the transfer grid (same letters "
                "and numbers as on the transfer-grid page). Areas smaller than a quarter of a brush square "
                "are left off"
                + (f"; {unlabelled} area{'s' if unlabelled != 1 else ''} smaller than about 3 × 3 mm on this page, "
-                  "or crowded by a nearby label, carry no label: their colour tells the paint." if unlabelled
+                  "or crowded by a nearby label, carry no label here: "
+                  + ("the enlargement sheets after this one label every one of them." if enlarged
+                     else "their hatching and colour tell the paint.") if unlabelled
                   else "."))
     before = "the ground" if n == 1 else f"layer {n - 1}"
     order = " → ".join(dict.fromkeys(s.paint for s in layer.strokes))
@@ -549,9 +667,10 @@ def _layer(plan: Plan, n: int, imgs, outline: dict[str, Any], changed: float, *,
     title = f"Layer {n} of {len(plan.layers)} — {w.number(layer.brush_width_mm)} mm brush" + (
         f" (≈ {w.number(layer.brush_width_mm / w.MM_PER_INCH, 1)} in)" if w.is_us(unit) else "")
     picture = Figure(pic_w, f"The wall after layer {n}.", png_uri(imgs[f"steps/{n:02d}"]), f"the wall after layer {n}")
-    map_svg = _svg(outline_map_svg(plan, labelled, grid_mm=grid_mm), anchor)
+    map_svg = _svg(outline_map_svg(plan, labelled, grid_mm=grid_mm, paper_per_wall=map_w / plan.wall_width_mm),
+                   anchor)
     return LayerSheet(n, anchor, title, lead, picture, tuple(paints), Figure(map_w, caption, svg=map_svg),
-                      _travel_line(layer, unit))
+                      travel=_travel_line(layer, unit))
 
 
 def _travel_line(layer, unit: str) -> str:
@@ -575,6 +694,215 @@ def coat_lines(notes: list[CoatNote]) -> tuple[str, ...]:
     return tuple(lines)
 
 
+# --------------------------------------------------------------------------- enlargements
+def _narrowest_mm(layer) -> float:
+    """The narrowest brush of a layer, mm (a stroke may be narrower than the layer's brush)."""
+    return min([float(s.width_mm) for s in layer.strokes] or [float(layer.brush_width_mm)])
+
+
+def _scale_text(paper_per_wall: float) -> str:
+    """A drawing scale, "1:12.5" (ISO 5455 writes scales as 1:X)."""
+    return f"1:{w.number(1.0 / paper_per_wall, 1)}"
+
+
+def _scale_bar(paper_per_wall: float, unit: str) -> tuple[float, str]:
+    """A round length of wall that prints 15-60 mm long at this scale, and its words."""
+    us = w.is_us(unit)
+    lengths = ([3 * 25.4, 6 * 25.4, 304.8, 2 * 304.8, 3 * 304.8, 5 * 304.8, 10 * 304.8] if us
+               else [50.0, 100.0, 200.0, 250.0, 500.0, 1000.0, 2000.0, 5000.0])
+    fitting = [mm for mm in lengths if mm * paper_per_wall <= 60.0]
+    mm = fitting[-1] if fitting else lengths[0]
+    return mm, f"{w.length(mm, 'in' if us and mm < 304.8 else unit if us else 'cm')} on the wall"
+
+
+def _square_names(box: tuple[float, float, float, float], grid_mm: float, part: tuple[int, int] | None) -> str:
+    """The grid squares a part of the wall covers: "square C3", "squares A1–B2", "square C3, part 2 of 4"."""
+    x0, y0, x1, y1 = box
+    i0, j0 = math.floor(x0 / grid_mm + 1e-9), math.floor(y0 / grid_mm + 1e-9)
+    i1, j1 = math.ceil(x1 / grid_mm - 1e-9) - 1, math.ceil(y1 / grid_mm - 1e-9) - 1
+    first, last = f"{column_label(i0)}{j0 + 1}", f"{column_label(i1)}{j1 + 1}"
+    if part is not None:
+        return f"square {first}, part {part[0]} of {part[1]}"
+    return f"square {first}" if first == last else f"squares {first}–{last}"
+
+
+def _tiling(plan: Plan, grid_mm: float, brush_mm: float, box_w: float, box_h: float):
+    """How a layer's enlargements cut the wall: (cell, columns, rows of cells per sheet, parts per square, scale).
+
+    The scale makes ``brush_mm`` at least :data:`MIN_BRUSH_PAPER_MM` on paper; a sheet takes as many
+    whole grid squares as fit its map box at that scale, then is drawn as large as they fit. A
+    square too big for one sheet at that scale is cut into k × k parts.
+    """
+    s_min = MIN_BRUSH_PAPER_MM / brush_mm
+    k = max(1, math.ceil(grid_mm * s_min / box_w - 1e-9), math.ceil(grid_mm * s_min / box_h - 1e-9))
+    cell = grid_mm / k
+    if k > 1:
+        cols = rows = 1
+    else:
+        cols = max(1, min(math.floor(box_w / (cell * s_min) + 1e-9), math.ceil(plan.wall_width_mm / cell - 1e-9)))
+        rows = max(1, min(math.floor(box_h / (cell * s_min) + 1e-9), math.ceil(plan.wall_height_mm / cell - 1e-9)))
+    scale = min(box_w / (cols * cell), box_h / (rows * cell))
+    return cell, cols, rows, k, scale
+
+
+def _enlargements(plan: Plan, n: int, outline: dict[str, Any], labelled: dict[str, Any], canvas: np.ndarray, *,
+                  grid_mm: float, unit: str, paper: Paper, limit: int) -> tuple[list[Enlargement], str, Figure | None]:
+    """The enlargement sheets of layer ``n``, the layer sheet's note about them, and its paint key."""
+    layer = plan.layers[n - 1]
+    areas = outline["areas"]
+    if not layer.strokes or not areas:
+        return [], "", None
+    painted = canvas >= 0
+    brush = _narrowest_mm(layer)
+    overview = _overview_width_mm(plan, paper) / plan.wall_width_mm
+    unlabelled = [k for k, a in enumerate(labelled["areas"]) if not a["label"]]
+    too_thin = brush * overview < MIN_BRUSH_PAPER_MM
+    paints = sorted({a["paint"] for a in areas}, key=plan.paint_index().get)
+    layer_key = Figure(paper.print_w_mm, "", svg=_svg(paint_key_svg(plan, paints, width_mm=paper.print_w_mm),
+                                                      f"layer-{n:02d}-key"))
+    if not too_thin and not unlabelled:
+        return [], "", layer_key
+    box_w, box_h = paper.print_w_mm, paper.print_h_mm - ENLARGEMENT_HEADER_MM
+    # a layer the overview shows well enough gets its crowded squares at twice the overview's scale at least
+    readable = brush if too_thin else min(brush, MIN_BRUSH_PAPER_MM / (2.0 * overview))
+    cell, cols, rows, k, scale = _tiling(plan, grid_mm, readable, box_w, box_h)
+    step_x, step_y = cols * cell, rows * cell
+    nx = math.ceil(plan.wall_width_mm / step_x - 1e-9)
+    ny = math.ceil(plan.wall_height_mm / step_y - 1e-9)
+    # which sheet holds each area's label point (each area is labelled once, on that sheet)
+    pts = np.array([a["label_mm"] for a in areas], dtype=float)
+    tile_of = (np.minimum((pts[:, 1] // step_y).astype(int), ny - 1) * nx
+               + np.minimum((pts[:, 0] // step_x).astype(int), nx - 1))
+    # painted pixels per sheet (summed-area table), to skip sheets where the layer paints next to nothing
+    px = float(plan.mm_per_px)
+    sat = np.pad(np.cumsum(np.cumsum(painted, axis=0, dtype=np.int64), axis=1), ((1, 0), (1, 0)))
+    min_px = 0.25 * (brush / px) ** 2
+    want = set(tile_of[unlabelled].tolist()) if not too_thin else set()
+    tiles = []
+    for ty in range(ny):
+        for tx in range(nx):
+            box = (tx * step_x, ty * step_y, min((tx + 1) * step_x, plan.wall_width_mm),
+                   min((ty + 1) * step_y, plan.wall_height_mm))
+            t = ty * nx + tx
+            held = np.flatnonzero(tile_of == t)
+            if too_thin:
+                i0, i1 = int(box[1] / px), min(painted.shape[0], math.ceil(box[3] / px))
+                j0, j1 = int(box[0] / px), min(painted.shape[1], math.ceil(box[2] / px))
+                count = sat[i1, j1] - sat[i0, j1] - sat[i1, j0] + sat[i0, j0]
+                if count < min_px and not len(held):
+                    continue
+            elif t not in want:
+                continue
+            tiles.append((t, box, held))
+    total = len(tiles)
+    if total > limit:  # keep the sheets with the most areas to label, print them in wall order
+        keep = sorted(sorted(range(total), key=lambda i: -len(tiles[i][2]))[:limit])
+        tiles = [tiles[i] for i in keep]
+    font = ENLARGEMENT_LABEL_MM / scale
+    bounds = area_bounds(outline)
+    pixels, area_of = area_pixels(canvas, outline, px)
+    sheets = []
+    for number, (t, box, held) in enumerate(tiles, start=1):
+        order = sorted(held.tolist(), key=lambda i: -areas[i]["area_mm2"])
+        items = []
+        for i in order:
+            a = areas[i]
+            hw, hh = 0.5 * LABEL_EM_PER_CHAR * font * len(str(a["paint"])), 0.5 * font
+            items.append({"x": a["label_mm"][0], "y": a["label_mm"][1], "half_w": hw, "half_h": hh,
+                          "fits": a["label_room_mm"] >= 0.6 * font and a["area_mm2"] >= 4 * hw * hh})
+        # areas reaching in from a neighbouring sheet get their paint written here too, after the rest
+        box_px = (int(box[1] / px), min(canvas.shape[0], math.ceil(box[3] / px)),
+                  int(box[0] / px), min(canvas.shape[1], math.ceil(box[2] / px)))
+        pieces = sorted(pieces_in_box(pixels, area_of, box_px, min_px=min_px, skip=held.tolist()),
+                        key=lambda p: -p["size_px"])
+        for p in pieces:
+            paint = str(areas[p["area"]]["paint"])
+            hw, hh = 0.5 * LABEL_EM_PER_CHAR * font * len(paint), 0.5 * font
+            items.append({"x": (p["j"] + 0.5) * px, "y": (p["i"] + 0.5) * px, "half_w": hw, "half_h": hh,
+                          "fits": p["room_px"] * px >= 0.6 * font and p["size_px"] * px * px >= 4 * hw * hh})
+        placed = place_labels_around(items, bounds=box, fixed=square_name_boxes(box, grid_mm, scale))
+        labels = [{"area": i, "x": p["x"], "y": p["y"], "moved": p["moved"], "font_mm": font,
+                   "half_w_mm": it["half_w"], "half_h_mm": it["half_h"]}
+                  for i, it, p in zip(order, items, placed)]
+        labels += [{"area": piece["area"], "x": p["x"], "y": p["y"], "moved": p["moved"], "font_mm": font,
+                    "half_w_mm": it["half_w"], "half_h_mm": it["half_h"], "continued": True,
+                    "anchor_mm": (it["x"], it["y"]), "room_mm": piece["room_px"] * px}
+                   for piece, it, p in zip(pieces, items[len(order):], placed[len(order):])]
+        part = None
+        if k > 1:
+            part = ((t // nx) % k * k + (t % nx) % k + 1, k * k)
+        names = _square_names(box, grid_mm, part)
+        anchor = f"layer-{n:02d}-part-{number:02d}"
+        svg = _svg(enlargement_svg(plan, outline, box_mm=box, paper_per_wall=scale, grid_mm=grid_mm,
+                                   labels=labels, bounds=bounds), anchor)
+        here = sorted({areas[i]["paint"] for i in held.tolist()}
+                      | {areas[i]["paint"] for i in areas_meeting(bounds, box)}, key=plan.paint_index().get)
+        bar = _scale_bar(scale, unit)
+        key = Figure(box_w, "", svg=_svg(paint_key_svg(plan, here, width_mm=box_w, scale_bar=bar,
+                                                       paper_per_wall=scale,
+                                                       brush=(brush, f"the {w.number(brush)} mm brush")),
+                                         f"{anchor}-key"))
+        moved = sum(1 for p in placed[:len(order)] if p["moved"])
+        crowded = sum(1 for p in placed if p["clash"])
+        lead = (f"Scale {_scale_text(scale)}: the {w.number(brush)} mm brush is {w.number(brush * scale, 1)} mm "
+                f"wide here ({w.paper_scale(1.0 / scale, unit)}). {len(order)} area"
+                f"{'s' if len(order) != 1 else ''} labelled with {'its' if len(order) == 1 else 'their'} paint"
+                + (f", {moved} of them beside the area with a line to it" if moved else "")
+                + (f"; {w.count(len(pieces), 'area')} reaching in from a neighbouring sheet, labelled in italics"
+                   if pieces else "") + ".")
+        caption = ("Areas of this layer in these squares, outlined, each paint with its own hatching (key above). "
+                   "Short lines show which way the strokes run; a dot and a thin line lead from a small area to "
+                   "its label. Each square is named in its top left corner, as on the transfer grid. An area "
+                   "that runs over the edge of the sheet is counted on the sheet holding its widest part; its "
+                   "label on the other sheet is in italics."
+                   + (f" {crowded} label{'s' if crowded != 1 else ''} had no free room and overlap"
+                      f"{'s' if crowded == 1 else ''} {'its' if crowded == 1 else 'their'} neighbours." if crowded
+                      else ""))
+        sheets.append(Enlargement(
+            n, anchor, f"Layer {n}, enlargement {number} of {len(tiles)}: {names}", lead, _scale_text(scale), key,
+            Figure((box[2] - box[0]) * scale, caption, svg=svg), len(order), moved, crowded))
+    reason = (f"the {w.number(brush)} mm brush prints {w.number(brush * overview, 1)} mm wide on the map above"
+              if too_thin else f"{w.count(len(unlabelled), 'area')} "
+                               f"{'carries' if len(unlabelled) == 1 else 'carry'} no label on the map above")
+    note = (f"{w.count(len(tiles), 'enlargement sheet')} follow{'s' if len(tiles) == 1 else ''} at "
+            f"{_scale_text(scale)}, "
+            f"because {reason}: each labels every area of its squares"
+            + ("." if total == len(tiles) else
+               f"; the squares of {total - len(tiles)} more sheets with paint are left out (at most {limit} sheets "
+               "per layer: the ones with the most areas are kept; the map above shows the rest)."))
+    return sheets, note, layer_key
+
+
+def _grid_parts(plan: Plan, final: np.ndarray, grid_mm: float, unit: str, paper: Paper) -> tuple[GridPart, ...]:
+    """The transfer grid over several sheets when its squares print too small on one."""
+    fig_w = _fit_box(plan, PRINT_W_MM - 16, 195.0)
+    if grid_mm * fig_w / plan.wall_width_mm >= MIN_GRID_SQUARE_PAPER_MM:
+        return ()
+    cols = max(1, int(paper.print_w_mm // GRID_PART_SQUARE_MM))
+    rows = max(1, int((paper.print_h_mm - 30.0) // GRID_PART_SQUARE_MM))
+    nx = math.ceil(plan.wall_width_mm / grid_mm - 1e-9)
+    ny = math.ceil(plan.wall_height_mm / grid_mm - 1e-9)
+    rgb = plan.palette_rgb()
+    px = float(plan.mm_per_px)
+    parts = []
+    blocks = [(bx, by) for by in range(0, ny, rows) for bx in range(0, nx, cols)]
+    for number, (bx, by) in enumerate(blocks, start=1):
+        box = (bx * grid_mm, by * grid_mm, min((bx + cols) * grid_mm, plan.wall_width_mm),
+               min((by + rows) * grid_mm, plan.wall_height_mm))
+        i0, i1 = int(box[1] / px), max(int(box[1] / px) + 1, min(final.shape[0], round(box[3] / px)))
+        j0, j1 = int(box[0] / px), max(int(box[0] / px) + 1, min(final.shape[1], round(box[2] / px)))
+        # the picture's pixels of this block, drawn over exactly the wall they cover
+        shown = (j0 * px, i0 * px, j1 * px, i1 * px)
+        crop = png_uri(_png(rgb[final[i0:i1, j0:j1]]))
+        anchor = f"transfer-grid-part-{number:02d}"
+        svg = _svg(grid_part_svg(plan, grid_mm, crop, box, image_box_mm=shown), anchor)
+        names = _square_names(box, grid_mm, None)
+        width = (box[2] - box[0]) / grid_mm * GRID_PART_SQUARE_MM
+        parts.append(GridPart(anchor, f"Transfer grid, part {number} of {len(blocks)}: {names}",
+                              Figure(width, w.paper_scale((box[2] - box[0]) / width, unit) + ".", svg=svg)))
+    return tuple(parts)
+
+
 # ------------------------------------------------------------------------------------ entry point
 def build_sheets(
     plan: Plan,
@@ -585,6 +913,9 @@ def build_sheets(
     paint_use: dict[str, Any] | None = None,
     title: str | None = None,
     steps: list[np.ndarray] | None = None,
+    paper: str = DEFAULT_PAPER,
+    canvases: list[np.ndarray] | None = None,
+    enlargements_per_layer: int = MAX_ENLARGEMENTS_PER_LAYER,
 ) -> Sheets:
     """The printed plan's sheets as plain data (the options of :func:`layerplan.report.plan_html`).
 
@@ -607,6 +938,14 @@ def build_sheets(
     steps : list of (H, W) int arrays, optional
         The wall after the ground and after each layer, as
         :func:`layerplan.raster.render_steps` gives them; rendered if missing.
+    paper : str
+        A key of :data:`PAPERS`: ``"a4"`` or ``"letter"`` (the sheets fit both), ``"a3"`` or
+        ``"tabloid"`` (likewise); the enlargements are cut to fit it.
+    canvases : list of (H, W) int arrays, optional
+        Each layer alone (:func:`layerplan.outlines.layer_canvas`, -1 where it paints nothing),
+        to skip enlargements of squares the layer leaves alone; made if missing.
+    enlargements_per_layer : int
+        Most enlargement sheets of one layer (>= 0); the layer sheet says what was left out.
 
     Returns
     -------
@@ -623,6 +962,12 @@ def build_sheets(
     ISO 216 (A4); ANSI/ASME Y14.1 (Letter); RFC 2397 (data URIs).
     """
     unit = wall_unit(plan)
+    if paper not in PAPERS:
+        raise ValueError(f"paper must be one of {', '.join(PAPERS)}, got {paper!r}")
+    if isinstance(enlargements_per_layer, bool) or not isinstance(enlargements_per_layer, int) \
+            or enlargements_per_layer < 0:
+        raise ValueError(f"enlargements_per_layer must be a whole number >= 0, got {enlargements_per_layer!r}")
+    sheet = PAPERS[paper]
     if grid_mm is None:
         grid_mm = default_grid_mm(unit, shorter_side_mm=min(plan.wall_width_mm, plan.wall_height_mm))
     grid_mm = check_grid(plan, grid_mm)
@@ -644,7 +989,20 @@ def build_sheets(
         source = (plan.extra.get("source") or {}).get("image")
         title = f"Wall painting plan — {Path(source).stem}" if source else "Wall painting plan"
     changed = [float(np.mean(steps[n] != steps[n - 1])) for n in range(1, len(steps))]
-    notes = coat_notes(plan, minimum=use.get("stroke_coats", 1))
+    coats_by_layer = coat_notes(plan, minimum=use.get("stroke_coats", 1))
+    if canvases is None:
+        canvases = [layer_canvas(plan, n) for n in range(1, len(plan.layers) + 1)]
+    labelled = [_overview_labels(plan, o, sheet) for o in outlines]
+    enlargements, notes, keys = [], [], []
+    for n in range(1, len(plan.layers) + 1):
+        more, note, key = _enlargements(plan, n, outlines[n - 1], labelled[n - 1], np.asarray(canvases[n - 1]),
+                                        grid_mm=grid_mm, unit=unit, paper=sheet, limit=enlargements_per_layer)
+        enlargements += more
+        if note:
+            notes.append((n, note))
+        if key is not None:
+            keys.append((n, key))
+    enlarged = {e.layer for e in enlargements}
     return Sheets(
         title=title,
         unit=unit,
@@ -653,7 +1011,13 @@ def build_sheets(
         shopping=_shopping(plan, use, unit),
         brushes=_brushes(plan, use, us),
         grid=_grid(plan, imgs, grid_mm, unit),
-        layers=tuple(replace(_layer(plan, n, imgs, outlines[n - 1], changed[n - 1], grid_mm=grid_mm, unit=unit),
-                             coats=coat_lines(notes[n - 1]))
+        layers=tuple(replace(_layer(plan, n, imgs, outlines[n - 1], changed[n - 1], grid_mm=grid_mm, unit=unit,
+                                    paper=sheet, labelled=labelled[n - 1], enlarged=n in enlarged),
+                             coats=coat_lines(coats_by_layer[n - 1]))
                      for n in range(1, len(plan.layers) + 1)),
+        paper=sheet,
+        enlargements=tuple(enlargements),
+        grid_parts=_grid_parts(plan, steps[-1], grid_mm, unit, sheet),
+        enlargement_notes=tuple(notes),
+        layer_keys=tuple(keys),
     )

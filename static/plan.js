@@ -74,6 +74,16 @@
     show(steps.length - 1);
   }
 
+  // the wall-scale drawing: fitted to the window by CSS; a button fills the screen for projecting
+  var full = document.getElementById("overlay-full");
+  var overlay = document.getElementById("overlay-figure");
+  if (full && overlay) {
+    if (!overlay.requestFullscreen) { full.hidden = true; }
+    full.addEventListener("click", function () {
+      if (document.fullscreenElement) { document.exitFullscreen(); } else { overlay.requestFullscreen(); }
+    });
+  }
+
   document.querySelectorAll("form[data-confirm]").forEach(function (f) {
     f.addEventListener("submit", function (e) {
       if (!window.confirm(f.getAttribute("data-confirm"))) { e.preventDefault(); }

@@ -61,6 +61,10 @@ def test_light_copies_equal_the_limits_of_the_modules_that_own_them():
     assert (options.COVERAGE_M2_PER_L, options.WASTE, options.GROUND_COATS, options.STROKE_COATS) == \
         (quantities.COVERAGE_M2_PER_L, quantities.WASTE, quantities.GROUND_COATS, quantities.STROKE_COATS)
     assert options.MAX_GRID_SQUARES == svg.MAX_GRID_LINES
+    from layerplan import sheets
+
+    assert (options.PAPERS, options.DEFAULT_PAPER) == (tuple(sheets.PAPERS), sheets.DEFAULT_PAPER)
+    assert options.ENLARGEMENTS_PER_LAYER == sheets.MAX_ENLARGEMENTS_PER_LAYER
 
 
 def test_planning_defaults_are_the_librarys():

@@ -304,3 +304,37 @@ def test_direction_ticks_leave_the_label_clear():
         assert y1 == pytest.approx(y, abs=0.01) and y2 == pytest.approx(y, abs=0.01)
         assert min(abs(x1 - x), abs(x2 - x)) > half_w
     assert {x1 < x for x1 in [float(ln.get("x1")) for ln in lines]} == {True, False}  # one each side
+
+
+def test_place_labels_around_labels_every_item_without_overlap_when_there_is_room():
+    # plane geometry: two label boxes overlap when their centres are closer than the half sizes' sum
+    # on both axes; a crowded cluster of points is labelled all the same, off the points, with leaders
+    from layerplan.outlines import place_labels_around
+
+    rng = np.random.default_rng(3)
+    pts = np.concatenate([rng.uniform(40, 60, (12, 2)), rng.uniform(0, 200, (20, 2))])
+    items = [{"x": float(x), "y": float(y), "half_w": 3.0, "half_h": 2.0, "fits": k >= 12}
+             for k, (x, y) in enumerate(pts)]
+    placed = place_labels_around(items, bounds=(0.0, 0.0, 200.0, 200.0))
+    assert len(placed) == len(items)
+    ok = [p for p in placed if not p["clash"]]
+    assert len(ok) >= len(items) - 2  # room enough on a 200 × 200 field for nearly all
+    for i, a in enumerate(placed):
+        assert 0.0 <= a["x"] - 3.0 and a["x"] + 3.0 <= 200.0 or a["clash"]
+        for b in placed[i + 1:]:
+            if a["clash"] or b["clash"]:
+                continue
+            assert abs(a["x"] - b["x"]) >= 6.0 or abs(a["y"] - b["y"]) >= 4.0
+    # an item whose label does not fit its area never sits on its point (it gets a leader instead)
+    for it, p in zip(items, placed):
+        if not it["fits"] and not p["clash"]:
+            assert p["moved"] and (p["x"], p["y"]) != (it["x"], it["y"])
+        if it["fits"] and not p["moved"]:
+            assert (p["x"], p["y"]) == (it["x"], it["y"])
+    # no label box covers another item's point
+    for i, p in enumerate(placed):
+        if p["clash"]:
+            continue
+        for j, it in enumerate(items):
+            if j != i:
+                assert not (abs(it["x"] - p["x"]) < 3.0 and abs(it["y"] - p["y"]) < 2.0)

@@ -97,8 +97,14 @@ def plan_and_html():
 def test_every_section_is_there_in_order(plan_and_html):
     plan, text = plan_and_html
     doc = _parse(text)
-    expect = ["cover", "paint-card", "shopping", "brushes", "transfer-grid", "layer-01", "layer-02", "safety"]
-    assert list(doc.sections) == expect
+    got = list(doc.sections)
+    # each layer sheet is followed by its enlargements (none for a layer the overview shows well)
+    layers = [s for s in got if re.fullmatch(r"layer-\d\d", s)]
+    expect = ["cover", "paint-card", "shopping", "brushes", "transfer-grid"]
+    for sid in layers:
+        expect += [sid] + [s for s in got if re.fullmatch(rf"{sid}-part-\d\d", s)]
+    assert got == expect + ["safety"]
+    assert layers == ["layer-01", "layer-02"]
     assert all("sheet" in cls for cls in doc.sections.values())
     assert text.count('class="sheet layer"') == len(plan.layers)
 
@@ -166,12 +172,12 @@ def test_layer_pages_have_picture_paints_brush_and_outline_map(plan_and_html):
             assert paint in page
         body = text[text.index(f'id="{sid}"'):]
         body = body[:body.index("</section>")]
-        assert body.count("<img") == 1 and body.count("<svg") == 1
+        assert body.count("<img") == 1 and body.count("<svg") == 2  # the map and its paint key
         # the outline map labels areas with their paint id: only paints of areas there, and
         # no two label boxes overlap (plane geometry; text about 0.62 em per character)
-        texts = [(float(x), float(y), float(f), t) for x, y, f, t in re.findall(
-            r'<text font-size="([\d.]+)"[^>]*x="([\d.]+)" y="([\d.]+)"[^>]*>(P\d+)</text>', body)]
-        texts = [(x, y, f, t) for f, x, y, t in texts]
+        texts = [(float(x), float(y), float(f), t) for f, x, y, t in re.findall(
+            r'<text class="area-label"[^>]*font-size="([\d.]+)"[^>]*x="([\d.]+)" y="([\d.]+)"[^>]*>(P\d+)</text>',
+            body)]
         assert texts and {t for *_, t in texts} <= {a["paint"] for a in maps[n - 1]["areas"]}
         for i, (x, y, f, t) in enumerate(texts):
             for x2, y2, f2, t2 in texts[i + 1:]:
@@ -438,3 +444,306 @@ def test_the_sheets_are_plain_data_another_exporter_can_read():
     assert [s.paint for s in sheets.shopping.stock] == [s["paint"] for s in use["stock"]]
     for row in sheets.shopping.stock + sheets.shopping.paints:  # no markup in the text fields
         assert not any("<" in str(v) for v in vars(row).values())
+
+
+# ------------------------------------------------------------------------- enlargements
+def _fine_plan(unit="m", w=6000.0, h=3000.0, corner=False):
+    """A 6 × 3 m wall with a 100, a 25 and a 12 mm layer: at 186 mm across (1:32) the 12 mm brush is
+    0.4 mm on paper, so its layer needs enlargements; ``corner`` keeps the fine strokes in one corner."""
+    palette = [Paint(f"P{k + 1}", srgb, (90.0 - 8 * k, 0.0, 0.0)) for k, srgb in
+               enumerate(["#f0e8d8", "#c03020", "#2050a0", "#306030", "#e0b030", "#805030", "#d0d0d0"])]
+    rng = np.random.default_rng(11)
+    layers = []
+    for width, count in ((100.0, 10), (25.0, 60), (12.0, 120)):
+        lo = np.array([100.0, 100.0])
+        hi = np.array([1400.0, 900.0]) if corner and width < 100 else np.array([w - 100, h - 100])
+        strokes = []
+        for _ in range(count):
+            c = rng.uniform(lo, hi)
+            strokes.append(Stroke(f"P{rng.integers(2, 8)}", width, np.array([c, c + rng.uniform(-120, 120, 2)])))
+        strokes.sort(key=lambda s: s.paint)
+        layers.append(Layer(width, strokes))
+    return Plan(w, h, int(w / 4), int(h / 4), 4.0, palette, "P1", layers,
+                {"settings": {"wall_unit": unit, "paints": 7, "brushes_mm": [100.0, 25.0, 12.0]}})
+
+
+@pytest.fixture(scope="module")
+def fine():
+    from layerplan.sheets import build_sheets
+
+    plan = _fine_plan()
+    maps = outline_maps(plan)
+    sheets = build_sheets(plan, outlines=maps)
+    from layerplan.report import render_sheets
+
+    return plan, maps, sheets, render_sheets(sheets)
+
+
+class _Labels(HTMLParser):
+    """Every area label (``<text class="area-label">``) of a document, and every id and url(#…) reference."""
+
+    def __init__(self):
+        super().__init__()
+        self.labels, self.ids, self.refs, self._open = [], [], [], None
+
+    def handle_starttag(self, tag, attrs):
+        a = dict(attrs)
+        if "id" in a:
+            self.ids.append(a["id"])
+        for v in a.values():
+            self.refs += re.findall(r"url\(#([^)]+)\)", v or "")
+        if tag == "text" and a.get("class") == "area-label":
+            self._open = [int(a["data-layer"]), int(a["data-area"]), ""]
+            self.labels.append(self._open)
+
+    def handle_data(self, data):
+        if self._open is not None:
+            self._open[2] += data
+
+    def handle_endtag(self, tag):
+        if tag == "text":
+            self._open = None
+
+
+def test_every_area_of_every_layer_is_labelled_on_some_sheet(fine):
+    # count them: the outline maps (layerplan.outlines) list the areas; plan.html must label each one, with
+    # its own paint, on the overview or on an enlargement
+    plan, maps, sheets, text = fine
+    p = _Labels()
+    p.feed(text)
+    assert sheets.enlargements  # the 12 mm layer cannot be read at 1:32
+    for n, outline in enumerate(maps, start=1):
+        got = {k for layer, k, _ in p.labels if layer == n}
+        assert got == set(range(len(outline["areas"]))), n
+        for layer, k, word in p.labels:
+            if layer == n:
+                assert word == outline["areas"][k]["paint"]
+    # and on the enlargements of a layer each area is labelled exactly once
+    enlarged = [(int(a), int(b)) for a, b in re.findall(
+        r'class="area-label" data-area="(\d+)" data-layer="(\d+)"',
+        "".join(str(e.map.svg) for e in sheets.enlargements))]
+    assert len(enlarged) == len(set(enlarged))
+
+
+def _svg_scale(svg: str) -> tuple[float, tuple[float, float, float, float]]:
+    """Paper mm per wall mm of an SVG printed at its own size (width in mm over the viewBox width)."""
+    width = float(re.search(r'<svg[^>]*\swidth="([\d.]+)mm"', svg).group(1))
+    box = tuple(float(v) for v in re.search(r'<svg[^>]*\sviewBox="([^"]+)"', svg).group(1).split())
+    return width / box[2], box
+
+
+def test_the_narrowest_brush_prints_at_least_2_mm_on_every_enlargement(fine):
+    # the figure's width (mm, as printed) over the wall it shows (its viewBox, mm of wall) is the scale;
+    # brush × scale is the brush on paper (plane geometry), and the map fits the printable box
+    from layerplan.sheets import MIN_BRUSH_PAPER_MM
+
+    plan, _, sheets, text = fine
+    for e in sheets.enlargements:
+        scale, box = _svg_scale(str(e.map.svg))
+        narrowest = min(s.width_mm for s in plan.layers[e.layer - 1].strokes)
+        assert narrowest * scale >= MIN_BRUSH_PAPER_MM - 1e-6, e.title
+        assert e.map.width_mm == pytest.approx(box[2] * scale, rel=1e-3)
+        assert e.map.width_mm <= sheets.paper.print_w_mm + 1e-6
+        assert box[3] * scale <= sheets.paper.print_h_mm
+        assert f'style="width:{e.map.width_mm:.1f}mm"' in text  # printed at that width
+        assert f"1:{1 / scale:.1f}".rstrip("0").rstrip(".") in e.lead or "1:" in e.lead
+
+
+def test_no_enlargement_for_squares_the_layer_leaves_alone():
+    # fine strokes only in the top left 1.4 × 0.9 m: sheets only where the layer's own canvas paints
+    from layerplan.outlines import layer_canvas
+    from layerplan.sheets import build_sheets
+
+    plan = _fine_plan(corner=True)
+    sheets = build_sheets(plan)
+    fine_layers = {e.layer for e in sheets.enlargements}
+    assert 3 in fine_layers
+    for e in sheets.enlargements:
+        _, (x, y, bw, bh) = _svg_scale(str(e.map.svg))
+        painted = layer_canvas(plan, e.layer) >= 0
+        s = plan.mm_per_px
+        part = painted[int(y / s):int(np.ceil((y + bh) / s)), int(x / s):int(np.ceil((x + bw) / s))]
+        assert part.any(), e.title
+    # the 1.4 × 0.9 m corner is far less than the wall: fewer sheets than the wall cut at that scale
+    whole = build_sheets(_fine_plan())
+    assert len([e for e in sheets.enlargements if e.layer == 3]) < len([e for e in whole.enlargements if e.layer == 3])
+
+
+def test_each_paint_has_its_own_pattern_in_black_and_white(fine):
+    # hatching, not tint alone: every paint's pattern has a different motif (lines at another angle, grid,
+    # dots, rings, dashes, or the same at another spacing), and areas of different paints use different ones
+    from layerplan.svg import paint_pattern
+
+    plan, maps, sheets, text = fine
+    motifs = [paint_pattern(k) for k in range(33)]
+    assert len(set(motifs)) == 33  # enough for the 32 paints the planner allows
+    for e in sheets.enlargements:
+        svg = str(e.map.svg)
+        pats = re.findall(r'<pattern [^>]*data-motif="([^"]+)"[^>]*data-paint="([^"]+)"[^>]*id="([^"]+)"', svg)
+        assert len({m for m, _, _ in pats}) == len({p for _, p, _ in pats}) == len(pats) > 1
+        # what is left once colour is gone (a black-and-white printer's view): the drawing differs per paint
+        grey = [re.sub(r'(fill|data-paint|id|data-motif)="[^"]*"', "", body)
+                for body in re.findall(r"(<pattern [\s\S]*?</pattern>)", svg)]
+        assert len(set(grey)) == len(grey) == len(pats)
+        motif_of = {i: m for m, _, i in pats}
+        fills = set(re.findall(r'data-paint="([^"]+)" fill="url\(#([^)]+)\)"', svg))
+        assert fills and len({motif_of[f] for _, f in fills}) == len({p for p, _ in fills})
+    # the same paint gets the same pattern on every sheet
+    every = re.findall(r'<pattern [^>]*data-motif="([^"]+)"[^>]*data-paint="([^"]+)"', text)
+    assert all(len({m for m, p in every if p == paint}) == 1 for _, paint in every)
+
+
+def test_every_reference_in_the_file_finds_its_element(fine):
+    # ids are scoped per figure (HTML: an id names one element); a pattern or clip path must still be found
+    _, _, _, text = fine
+    p = _Labels()
+    p.feed(text)
+    assert len(p.ids) == len(set(p.ids))
+    assert p.refs and set(p.refs) <= set(p.ids)
+    # labels sit on white boxes, not on a white outline drawn first (``paint-order``), which not every
+    # SVG renderer honours (WeasyPrint, which a PDF export may use, paints the outline over the letters)
+    assert "paint-order" not in text
+    for e in fine[2].enlargements:
+        assert str(e.map.svg).count("<rect") - 2 >= str(e.map.svg).count('class="area-label"')  # a box each
+
+
+def test_enlargements_name_their_squares_and_have_a_key_and_scale_bar(fine):
+    plan, _, sheets, text = fine
+    doc = _parse(text)
+    for e in sheets.enlargements:
+        page = doc.section_text(e.anchor)
+        assert re.search(r"squares? [A-Z]+\d+", page) and "Scale 1:" in page
+        names = re.findall(r'class="square-name"', str(e.map.svg))
+        assert names
+        key = str(e.key.svg)
+        assert 'id="' + e.anchor + '-key-scale-bar"' in key and "on the wall" in key
+        # the brush sample in the key is drawn at the sheet's scale
+        scale, _ = _svg_scale(str(e.map.svg))
+        narrowest = min(s.width_mm for s in plan.layers[e.layer - 1].strokes)
+        drawn = float(re.search(r'class="brush-sample"[^>]*stroke-width="([\d.]+)"', key).group(1))
+        assert drawn == pytest.approx(narrowest * scale, abs=0.01)
+    # the layer sheet says how many enlargements follow
+    for n in {e.layer for e in sheets.enlargements}:
+        count = len(sheets.enlargements_of(n))
+        assert f"{count} enlargement sheet" in doc.section_text(f"layer-{n:02d}")
+
+
+def test_a3_gives_bigger_sheets_and_its_page_size(fine):
+    # A3 is 297 × 420 mm (ISO 216), Tabloid 11 × 17 in (ANSI/ASME Y14.1): the box both share inside 12 mm
+    # margins is 255.4 × 396 mm; fewer sheets hold the same wall at the same brush width
+    from layerplan.report import render_sheets
+    from layerplan.sheets import build_sheets
+
+    plan, maps, small, _ = fine
+    big = build_sheets(plan, outlines=maps, paper="a3")
+    assert (big.paper.print_w_mm, big.paper.print_h_mm) == pytest.approx((279.4 - 24, 420 - 24))
+    assert len(big.enlargements) < len(small.enlargements)
+    assert all(e.map.width_mm <= big.paper.print_w_mm + 1e-6 for e in big.enlargements)
+    html = render_sheets(big)
+    assert "@page { size: A3 portrait; }" in html
+    assert "@page { size: letter portrait; }" in render_sheets(build_sheets(plan, outlines=maps, paper="letter"))
+    with pytest.raises(ValueError, match="paper must be one of a4, letter, a3, tabloid, got 'b5'"):
+        build_sheets(plan, outlines=maps, paper="b5")
+
+
+def test_enlargements_are_capped_and_the_layer_sheet_says_so(fine):
+    from layerplan.sheets import build_sheets
+
+    plan, maps, sheets, _ = fine
+    full = len(sheets.enlargements_of(3))
+    capped = build_sheets(plan, outlines=maps, enlargements_per_layer=2)
+    assert len(capped.enlargements_of(3)) == 2 < full
+    assert f"the squares of {full - 2} more sheets with paint are left out" in capped.enlargement_note(3)
+    with pytest.raises(ValueError, match="enlargements_per_layer must be a whole number >= 0"):
+        build_sheets(plan, outlines=maps, enlargements_per_layer=-1)
+
+
+def test_a_dense_transfer_grid_is_split_over_sheets_naming_every_square_once():
+    # 20 × 8 m at 25 cm squares: 80 × 32 squares, 2.3 mm each across 186 mm (too small to copy from);
+    # the parts together name each square (column letters A… spreadsheet style, rows from 1) exactly once
+    from layerplan.sheets import GRID_PART_SQUARE_MM, build_sheets
+    from layerplan.svg import column_label
+
+    palette = [Paint("P1", "#f0e8d8", (92.6, 1.5, 7.5)), Paint("P2", "#c03020", (44.0, 56.0, 46.0))]
+    plan = Plan(20000.0, 8000.0, 500, 200, 40.0, palette, "P1",
+                [Layer(200.0, [Stroke("P2", 200.0, np.array([[1000.0, 1000.0], [5000.0, 2000.0]]))])],
+                {"settings": {"wall_unit": "m"}})
+    sheets = build_sheets(plan, grid_mm=250.0)
+    assert len(sheets.grid_parts) > 1
+    named = re.findall(r'class="square-name"[^>]*>|<text[^>]*>([A-Z]+\d+)</text>',
+                       "".join(str(p.figure.svg) for p in sheets.grid_parts))
+    named = [n for n in named if n]
+    expect = [f"{column_label(i)}{j + 1}" for i in range(80) for j in range(32)]
+    assert sorted(named) == sorted(expect)
+    for part in sheets.grid_parts:
+        scale = part.figure.width_mm / float(re.search(r'viewBox="[^ ]+ [^ ]+ ([\d.]+)', str(part.figure.svg)).group(1))
+        assert 250.0 * scale == pytest.approx(GRID_PART_SQUARE_MM)
+        assert part.figure.width_mm <= sheets.paper.print_w_mm
+    assert not build_sheets(_plan()).grid_parts  # 8 × 5 squares of 23 mm need no split
+
+
+def test_the_enlargements_option_reaches_plan_html():
+    # --enlargements N, through the export as the CLI and the web call it: N sheets a layer at most, 0 for none
+    from layerplan.export import build_files
+
+    plan = _fine_plan(corner=True)
+    counts = {}
+    for n in (0, 1, 24):
+        text = build_files(plan, enlargements_per_layer=n)["plan.html"].decode("utf-8")
+        per_layer = [len(re.findall(rf'<section class="sheet enlargement" id="layer-{k:02d}-part-', text))
+                     for k in range(1, len(plan.layers) + 1)]
+        assert max(per_layer) <= n
+        counts[n] = sum(per_layer)
+    assert counts[0] == 0 < counts[1] < counts[24]
+
+
+def test_a_square_too_big_for_one_sheet_is_cut_into_parts():
+    # a 3 mm brush must print 2 mm: 1:1.5 at least, so a 50 cm square (333 mm of paper) cannot fit a
+    # 186 × 180 mm map box; it is cut 2 × 2, each part named, each at a scale keeping the brush 2 mm
+    from layerplan.sheets import MIN_BRUSH_PAPER_MM, build_sheets
+
+    rng = np.random.default_rng(1)
+    palette = [Paint("P1", "#f0e8d8", (92.6, 1.5, 7.5)), Paint("P2", "#c03020", (44.0, 56.0, 46.0)),
+               Paint("P3", "#2050a0", (36.0, 12.0, -50.0))]
+    strokes = [Stroke(f"P{rng.integers(2, 4)}", 3.0, rng.uniform(50, 950, (2, 2))) for _ in range(30)]
+    plan = Plan(1000.0, 1000.0, 1000, 1000, 1.0, palette, "P1", [Layer(3.0, strokes)], {"settings": {"wall_unit": "m"}})
+    sheets = build_sheets(plan, grid_mm=500.0)
+    names = [re.search(r"square ([A-Z]\d), part (\d) of (\d)", e.title).groups() for e in sheets.enlargements]
+    assert names and all(total == "4" for *_, total in names) and len(set(names)) == len(names)
+    for e in sheets.enlargements:
+        scale, box = _svg_scale(str(e.map.svg))
+        assert 3.0 * scale >= MIN_BRUSH_PAPER_MM - 1e-6 and box[2] == pytest.approx(250.0)
+        assert e.map.width_mm <= sheets.paper.print_w_mm and box[3] * scale <= sheets.paper.print_h_mm
+    assert sum(e.labelled for e in sheets.enlargements) == len(outline_maps(plan)[0]["areas"])
+
+
+def test_every_area_part_on_an_enlargement_carries_its_paint(fine):
+    # reference: scipy.ndimage.label (4-connected, its default structure) on the layer's own canvas, paint by
+    # paint; every area with at least a quarter of a brush square inside a sheet's part of the wall is labelled
+    # on that sheet, in upright type if the sheet holds its label point, else in italics
+    from scipy import ndimage
+
+    from layerplan.outlines import layer_canvas
+
+    plan, maps, sheets, _ = fine
+    labelled = {}  # (layer, paint) -> scipy's areas of that paint in that layer
+    for n, outline in enumerate(maps, start=1):
+        canvas = layer_canvas(plan, n)
+        for paint in {a["paint"] for a in outline["areas"]}:
+            labelled[n, paint] = ndimage.label(canvas == plan.paint_index()[paint])[0]
+    for e in sheets.enlargements:
+        s = plan.mm_per_px
+        _, (x, y, bw, bh) = _svg_scale(str(e.map.svg))
+        i0, i1, j0, j1 = int(y / s), int(np.ceil((y + bh) / s)), int(x / s), int(np.ceil((x + bw) / s))
+        brush = min(st.width_mm for st in plan.layers[e.layer - 1].strokes)
+        svg = str(e.map.svg)
+        written = {int(k) for k in re.findall(r'class="area-label[^"]*" data-area="(\d+)"', svg)}
+        for k, a in enumerate(maps[e.layer - 1]["areas"]):
+            lab = labelled[e.layer, a["paint"]]
+            pi, pj = int(a["label_mm"][1] / s), int(a["label_mm"][0] / s)
+            inside = int(np.sum(lab[i0:i1, j0:j1] == lab[pi, pj]))
+            if inside >= 0.25 * (brush / s) ** 2:
+                assert k in written, (e.title, k)
+        italic = re.findall(r'class="area-label continued" data-area="(\d+)"', svg)
+        assert all(not (x <= maps[e.layer - 1]["areas"][int(k)]["label_mm"][0] < x + bw
+                        and y <= maps[e.layer - 1]["areas"][int(k)]["label_mm"][1] < y + bh) for k in italic)

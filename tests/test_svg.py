@@ -201,3 +201,58 @@ def test_numbers_are_written_with_at_most_two_decimals():
     rng = np.random.default_rng(0)
     more = np.concatenate([rng.uniform(-50, 5000, 2000), np.round(rng.uniform(-5, 5, 2000), 3)]).tolist()
     assert all(float(_f(v)) == pytest.approx(round(v, 2), abs=1e-9) for v in more)
+
+
+def test_projection_files_carry_the_transfer_grid():
+    # steps/NN.svg, as the export writes them: each holds a grid group whose lines fall on the grid
+    # square (a 4 × 2.5 m wall at 50 cm: x = 0, 500 … 4000 and y = 0, 500 … 2500) and stays the
+    # wall in millimetres, so a projector or plotter sets it to scale
+    from layerplan.export import build_files
+
+    plan = _plan()
+    files = build_files(plan, grid_mm=500.0)
+    for n in range(1, len(plan.layers) + 1):
+        root = ET.fromstring(files[f"steps/{n:02d}.svg"])
+        assert root.get("width") == "4000mm" and root.get("viewBox") == "0 0 4000 2500"
+        grid = root.find("svg:g[@id='grid']", NS)
+        assert grid is not None and grid.get("data-spacing-mm") == "500"
+        lines = grid.findall(".//svg:line", NS)
+        xs = sorted({float(l.get("x1")) for l in lines if l.get("x1") == l.get("x2")})
+        ys = sorted({float(l.get("y1")) for l in lines if l.get("y1") == l.get("y2")})
+        assert xs == [500.0 * i for i in range(9)] and ys == [500.0 * i for i in range(6)]
+        # drawn over the layer's strokes: the grid comes after the layer group
+        ids = [g.get("id") for g in root.findall("svg:g", NS)]
+        assert ids.index(f"layer-{n:02d}") < ids.index("grid")
+    # the same square on the printed plan: a 60 cm grid moves the lines of both
+    other = ET.fromstring(build_files(plan, grid_mm=600.0)["steps/01.svg"]).find("svg:g[@id='grid']", NS)
+    assert other.get("data-spacing-mm") == "600"
+
+
+def test_enlargement_svg_prints_at_its_scale_and_clips_to_its_squares():
+    # a 1 m × 1 m part at 1:5 is 200 mm of paper (plane geometry); every area drawn meets the part,
+    # shapes are clipped to it, and every label given is written with its area's paint
+    from layerplan.outlines import layer_outlines
+    from layerplan.svg import enlargement_svg
+
+    plan = _plan()
+    outline = layer_outlines(plan, 3)
+    box = (1000.0, 500.0, 2000.0, 1500.0)
+    held = [k for k, a in enumerate(outline["areas"])
+            if box[0] <= a["label_mm"][0] < box[2] and box[1] <= a["label_mm"][1] < box[3]]
+    labels = [{"area": k, "x": outline["areas"][k]["label_mm"][0], "y": outline["areas"][k]["label_mm"][1],
+               "moved": False, "font_mm": 12.5, "half_w_mm": 8.0, "half_h_mm": 6.0} for k in held]
+    root = ET.fromstring(enlargement_svg(plan, outline, box_mm=box, paper_per_wall=0.2, grid_mm=500.0,
+                                         labels=labels))
+    assert root.get("width") == "200mm" and root.get("height") == "200mm"
+    assert root.get("viewBox") == "1000 500 1000 1000"
+    shapes = root.find("svg:g[@id='areas-03']", NS)
+    assert shapes.get("clip-path") == "url(#clip)" and root.find(".//svg:clipPath[@id='clip']", NS) is not None
+    for p in shapes.findall("svg:path", NS):
+        pts = _points(p.get("d"))
+        assert pts[:, 0].max() >= box[0] and pts[:, 0].min() <= box[2]
+        assert pts[:, 1].max() >= box[1] and pts[:, 1].min() <= box[3]
+    texts = root.findall(".//svg:text[@class='area-label']", NS)
+    assert [int(t.get("data-area")) for t in texts] == held
+    assert all(t.text == outline["areas"][int(t.get("data-area"))]["paint"] for t in texts)
+    names = [t.text for t in root.findall(".//svg:g[@class='square-name']/svg:text", NS)]
+    assert names == ["C2", "C3", "D2", "D3"]  # columns C-D (1000-2000 mm), rows 2-3 (500-1500 mm)

@@ -291,3 +291,21 @@ def test_delete_a_plan(page, server):
     links = page.eval_on_selector_all(".plan-list a", "els => els.map(e => e.href)")
     assert plan_url not in links
     assert page.goto(plan_url).status == 404
+
+
+def test_the_wall_scale_drawing_fits_the_window(page, made_plan):
+    # overlay.svg is 2 m × 1 m in millimetres (far wider than any screen at CSS's 96 px per inch); the page
+    # fits it whole into the window by CSS, keeping its 2:1 shape, and the file itself is left at wall size
+    url = made_plan[0]
+    page.goto(url)
+    page.locator("#overlay-image").scroll_into_view_if_needed()
+    _wait_image(page, "#overlay-image")
+    box = page.locator("#overlay-image").bounding_box()
+    view = page.viewport_size
+    assert 0 < box["width"] <= view["width"] and 0 < box["height"] <= view["height"]
+    assert box["width"] / box["height"] == pytest.approx(2.0, rel=0.02)
+    src = page.get_attribute("#overlay-image", "src")
+    assert src.endswith("/overlay.svg")
+    svg = page.request.get(page.url.split("/plans/")[0] + src if src.startswith("/") else src).text()
+    root = ET.fromstring(svg)
+    assert (root.get("width"), root.get("height")) == ("2000mm", "1000mm")

@@ -53,6 +53,11 @@ numbers are mm):
 ``grid``          transfer-grid square, drawn on the print and the overlay; a length with a unit: 50cm, 2ft,
                   1/2m (plain numbers are mm) (``--grid``, default 50cm, or 2ft for walls in ft or in; 10cm or
                   4in on small boards; at most 200 squares along the longest side)
+``paper``         paper the printed plan is laid out for; a4 and letter give sheets that print on either, as
+                  do a3 and tabloid (bigger enlargements, fewer sheets); a4 or letter or a3 or tabloid
+                  (``--paper``, default a4)
+``enlargements``  most enlargement sheets of one layer in the printed plan (the squares with the most areas
+                  are kept); 0 for none; whole number from 0 to 400 (``--enlargements``, default 24)
 <!-- end of options table -->
 
 Errors are ``{"error": "<message>"}`` with 400, 404, 405, 413, 415 or 503. A refused plan

@@ -27,7 +27,7 @@ _S = Settings()
 #: (grid empty: the sheets choose the square from the wall's size and unit)
 OPTION_DEFAULTS = {k: v for k, v in options.form_defaults().items()
                    if k in ("mix_paints", "max_parts", "tolerance", "stroke_cost", "coverage", "ground_coats",
-                            "stroke_coats", "waste", "grid", "reach")}
+                            "stroke_coats", "waste", "grid", "reach", "paper", "enlargements")}
 #: what the start page's form holds before anyone types
 FORM_DEFAULTS = {"wall_width": "3", "wall_height": "", "unit": "m", "paints": "8", "kit": forms.DEFAULT_KIT,
                  "brushes": "", "fit": "cover", "seed": "0", "pixel_mm": "", "inventory": "default",
