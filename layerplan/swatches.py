@@ -226,6 +226,9 @@ def find_white(inventory: Inventory, white: str | None = None) -> int:
         except ValueError as exc:
             raise SwatchError(f"--white: {exc}") from None
     marked = [i for i, p in enumerate(inventory.paints) if getattr(p, "white", False) is True]
+    named = getattr(inventory, "white", None)  # an inventory that names its white (format 2)
+    if not marked and isinstance(getattr(named, "name", None), str):
+        marked = [inventory.index(named.name)]
     if len(marked) == 1:
         return marked[0]
     light = [i for i, p in enumerate(inventory.paints)
@@ -380,10 +383,12 @@ def find_marks(photo: np.ndarray) -> np.ndarray:
     dark = gray < 0.6 * local
     lab = label(dark, connectivity=2)
     min_area = (max(gray.shape) / 150.0) ** 2
+    # specks and letters are dropped before measuring shapes (a photo has thousands of them)
+    small = np.bincount(lab.ravel()) < min_area
+    small[0] = True
+    lab[small[lab]] = 0
     found = []
     for region in regionprops(lab):
-        if region.area < min_area:
-            continue
         filled = region.image_filled
         hole = filled & ~region.image
         f_area = filled.sum()
@@ -672,7 +677,8 @@ def inventory_toml(reading: CardReading, inventory: Inventory) -> str:
     import tomllib
 
     layout = reading.layout
-    if not reading.colours:
+    white_name = layout.names[layout.white]
+    if not any(paint != white_name for paint, _ in reading.colours):  # the white's box may just be paper
         raise SwatchError("no painted boxes found on the card: paint the boxes, let them dry, and photograph again")
     lines = ["# Paints measured from a photo of a layerplan swatch card (layerplan swatches --read).",
              "# Colours are as the photo showed them, balanced on the card's grey patch: photos and",
@@ -698,6 +704,9 @@ def inventory_toml(reading: CardReading, inventory: Inventory) -> str:
                 lines.append("# its tint box was not painted: mixes with it are predicted less surely")
             else:
                 lines.append(f"tint = {{ srgb = \"{tint}\", paint_parts = {a}, white_parts = {b} }}")
+            strength = getattr(p, "tinting_strength", 1.0)
+            if tint is None and strength != 1.0:  # without a tint, the old guide still helps
+                lines.append(f"tinting_strength = {strength:g}")
         if p.containers_l:
             lines.append("containers_l = [" + ", ".join(f"{c:g}" for c in p.containers_l) + "]")
         if p.note:

@@ -169,6 +169,15 @@ def test_an_unpainted_tint_box_is_left_out(card, tmp_path):
     assert "tint" not in blue and _de(blue["srgb"], colours[("Warm blue", "masstone")]) <= 2.0
 
 
+def test_a_photo_of_an_unpainted_card_writes_nothing(card, tmp_path, capsys):
+    layout, _, _ = card
+    photo = tmp_path / "blank.jpg"
+    photo.write_bytes(photograph(paint_card(layout, {}), size=(1600, 1200), **SHOTS["tilted, warm light"]))
+    out = tmp_path / "paints.toml"
+    assert main(["swatches", "--read", str(photo), "--out", str(out)]) == 2
+    assert "no painted boxes found" in capsys.readouterr().err and not out.exists()
+
+
 def test_a_photo_without_a_card_is_refused_and_nothing_is_written(tmp_path, capsys):
     photo = tmp_path / "coffee.png"
     from PIL import Image
