@@ -297,11 +297,13 @@ def card_layout(inventory: Inventory, *, white: str | None = None, tint=DEFAULT_
             "Let it dry fully (acrylic dries darker), then photograph the whole card, flat, in daylight, without glare"
             " or shadow.",
             "Keep the corner marks, the strip at the top and the grey patch clean. Read it with: layerplan swatches"
-            " --read PHOTO")
+            " --read PHOTO",
+            "Read each paint's safety sheet (some pigments are harmful); wear gloves and ventilate. In class, use "
+            "non-toxic paints only.")
     for k, line in enumerate(text):
         labels.append((14.0, 38.0 + k * 5.0, line, 2.6))
     ink.append((12.0, 24.0, 186.0, 8.0))
-    ink.append((12.0, 34.0, 186.0, 16.0))
+    ink.append((12.0, 34.0, 186.0, 21.0))
     for i, name in enumerate(names):
         col, row = divmod(i, GRID_ROWS)
         x0, y0 = GRID_X_MM[col], GRID_TOP_MM + row * ROW_PITCH_MM

@@ -94,7 +94,8 @@ def test_card_options_are_checked():
         card_layout(inv, tint=(0, 9))
     with pytest.raises(SwatchError, match="--white: unknown paint 'Chalk'"):
         card_layout(inv, white="Chalk")
-    no_white = loads_inventory('[[paint]]\nname = "Red"\nsrgb = "#c03020"\n[[paint]]\nname = "Blue"\nsrgb = "#2040a0"\n')
+    no_white = loads_inventory('[[paint]]\nname = "Red"\nsrgb = "#c03020"\n'
+                               '[[paint]]\nname = "Blue"\nsrgb = "#2040a0"\n')
     with pytest.raises(SwatchError, match="name it with --white NAME"):
         card_layout(no_white)
     many = loads_inventory("".join(f'[[paint]]\nname = "P{i}"\nsrgb = "#{i:02x}{i:02x}{i:02x}"\n'
