@@ -118,3 +118,18 @@ def test_bad_batch_input_is_refused():
     plan = _plan()
     with pytest.raises(ValueError, match="no amount for the mixed paint P2"):
         mix_batches(plan, {"paints": [{"paint": "P1", "litres": 1.0}]})
+
+
+def test_web_plan_page_says_the_batch():
+    from layerplan.web.pages import _batch_text
+
+    plan = _plan(unit="ft")
+    use = paint_use(plan)
+    p2 = plan.paint("P2")
+    expected = wording.batch(mix_batches(plan, use)["P2"], True)
+    # a plan.json written before recipe.batch existed: worked out from its paint_use
+    assert _batch_text(plan, p2, use) == expected and "fl oz" in expected
+    # a plan.json that carries it: read as written
+    stored = with_batches(plan, use).paint("P2")
+    assert _batch_text(plan, stored, use) == expected
+    assert _batch_text(plan, Paint("P9", "#000000", (0.0, 0.0, 0.0)), use) == ""  # no recipe, no batch
