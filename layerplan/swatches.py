@@ -317,8 +317,9 @@ def card_layout(inventory: Inventory, *, white: str | None = None, tint=DEFAULT_
         ink.append((x0, y0 + 5.0, 2 * BOX_W_MM + BOX_GAP_MM, BOX_H_MM))
         ink.append((x0, y0 + 23.5, 2 * BOX_W_MM + BOX_GAP_MM, 3.5))
     gx, gy, gw, gh = GREY_RECT_MM
-    labels.append((gx, gy - 1.5, "grey reference: do not paint", 2.4))
-    ink.append((gx, gy - 4.5, gw, 4.0))
+    labels.append((gx, gy - 1.5, "grey reference: do not paint (a photographer's 18 % grey card may be glued over it)",
+                   2.4))
+    ink.append((gx, gy - 4.5, 115.0, 4.0))
     ink.append(GREY_RECT_MM)
     labels.append((55.0, 291.0, "This line is 100 mm long when the card is printed at actual size.", 2.4))
     ink.append((54.0, 280.0, 102.0, 12.0))
