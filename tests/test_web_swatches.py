@@ -10,7 +10,6 @@ import io
 import tomllib
 import xml.etree.ElementTree as ET
 
-import numpy as np
 from PIL import Image
 from skimage import data
 
