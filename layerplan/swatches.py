@@ -373,13 +373,17 @@ def find_marks(photo: np.ndarray) -> np.ndarray:
     from skimage.color import rgb2gray
     from scipy.ndimage import uniform_filter
     from skimage.measure import label, regionprops
-    from skimage.transform import rescale
+    from PIL import Image
 
     h, w = photo.shape[:2]
     scale = min(1.0, DETECT_MAX_SIDE_PX / max(h, w))
-    gray = rgb2gray(photo)
-    if scale < 1.0:
-        gray = rescale(gray, scale, anti_aliasing=True)
+    if scale < 1.0:  # shrunk as 8-bit first: a 12-megapixel photo in floating point would take 300 MB
+        size = (max(1, round(w * scale)), max(1, round(h * scale)))
+        small = np.asarray(Image.fromarray(photo).resize(size, Image.Resampling.BOX))
+        scale = size[0] / w
+    else:
+        small = photo
+    gray = rgb2gray(small)
     # dark against its surroundings: a local threshold copes with light falling off across the card
     size = max(3, int(max(gray.shape) / 12))
     local = uniform_filter(uniform_filter(gray, size), size)  # a box filter twice: a cheap smooth local mean
