@@ -362,13 +362,17 @@ def _hex_of_linear(v) -> str:
 
 
 # ------------------------------------------------------------------------------- finding the card
-def find_marks(photo: np.ndarray) -> np.ndarray:
-    """The centres of the card's four corner marks in a photo, (4, 2) pixel (x, y), in no order.
+def find_marks(photo: np.ndarray) -> list[np.ndarray]:
+    """Where the card's four corner marks may be in a photo: (4, 2) pixel (x, y) sets, most likely first.
+
+    One set when the photo shows four marks; when something else in the picture looks like a
+    mark too, the sets of four most alike in size that span the largest area (the code strip
+    then tells the right one).
 
     Raises
     ------
     SwatchError
-        If four marks are not found.
+        If fewer than four marks are found.
     """
     from skimage.color import rgb2gray
     from scipy.ndimage import uniform_filter
@@ -425,17 +429,21 @@ def find_marks(photo: np.ndarray) -> np.ndarray:
     if len(found) < 4:
         raise SwatchError(f"no swatch card found in the photo: {len(found)} of its 4 corner marks seen. Photograph "
                           "the whole card, flat and sharp, in even light, with all four corners in the picture")
-    if len(found) > 4:
-        found = _best_four(found)
-    return np.array([d for _, d in found]) / scale
+    return [np.array([d for _, d in four]) / scale for four in _likely_fours(found)]
 
 
-def _best_four(found):
-    """The four marks most alike in size that make the largest quadrilateral."""
+#: at most this many sets of four marks are tried
+MAX_MARK_SETS = 10
+
+
+def _likely_fours(found):
+    """Sets of four marks, most alike in size and spanning the largest quadrilateral first."""
     import itertools
 
+    if len(found) == 4:
+        return [found]
     found = sorted(found, key=lambda f: -f[0])[:10]
-    best, best_score = None, -math.inf
+    scored = []
     for combo in itertools.combinations(found, 4):
         areas = np.array([a for a, _ in combo])
         pts = np.array([d for _, d in combo])
@@ -445,12 +453,11 @@ def _best_four(found):
         quad = _order_clockwise(pts)
         x, y = quad[:, 0], quad[:, 1]
         area = 0.5 * abs(np.dot(x, np.roll(y, -1)) - np.dot(y, np.roll(x, -1)))
-        score = area / spread
-        if score > best_score:
-            best, best_score = combo, score
-    if best is None:
+        scored.append((area / spread, combo))
+    if not scored:
         raise SwatchError("no swatch card found in the photo: the marks seen are not the card's four corners")
-    return list(best)
+    scored.sort(key=lambda sc: -sc[0])
+    return [list(combo) for _, combo in scored[:MAX_MARK_SETS]]
 
 
 def _order_clockwise(pts: np.ndarray) -> np.ndarray:
@@ -556,19 +563,24 @@ def read_card(photo: np.ndarray, inventory: Inventory) -> CardReading:
     photo = np.asarray(photo)
     if photo.ndim != 3 or photo.shape[2] != 3 or photo.dtype != np.uint8:
         raise SwatchError(f"the photo must be an (H, W, 3) uint8 sRGB image, got {photo.dtype} {photo.shape}")
-    marks = _order_clockwise(find_marks(photo))
+    candidates = find_marks(photo)
     sample = _sampler(photo)
     src = np.array(MARK_CENTRES_MM)
     best = None
-    for k in range(4):
-        dst = np.roll(marks, -k, axis=0)
-        tform = ProjectiveTransform.from_estimate(src, dst)
-        if not tform:
-            continue
-        bits, contrast = _read_code(tform, sample)
-        fields = _decode_bits(bits)
-        if fields is not None and (best is None or contrast > best[3]):
-            best = (tform, dst, fields, contrast)
+    for marks in candidates:
+        marks = _order_clockwise(marks)
+        for k in range(4):  # which mark is the card's top-left: the one the code strip reads from
+            dst = np.roll(marks, -k, axis=0)
+            tform = ProjectiveTransform.from_estimate(src, dst)
+            if not tform:
+                continue
+            bits, contrast = _read_code(tform, sample)
+            fields = _decode_bits(bits)
+            # the strip sits by the top marks: the grey patch by the bottom ones checks those too
+            if fields is not None and (best is None or contrast > best[3]) and _grey_in_place(tform, sample):
+                best = (tform, dst, fields, contrast)
+        if best is not None:
+            break
     if best is None:
         raise SwatchError("found four corner marks but cannot read the card's code strip (the row of black and "
                           "white cells at the top): is the whole card in the photo, sharp and free of glare?")
@@ -625,6 +637,17 @@ def _midmean(values: np.ndarray) -> np.ndarray:
     v = np.sort(values, axis=0)
     n = len(v)
     return v[n // 4: max(n // 4 + 1, n - n // 4)].mean(axis=0)
+
+
+def _grey_in_place(tform, sample) -> bool:
+    """Whether the grey patch is where the card has it: an even patch, much darker than the paper below it."""
+    luminance = np.array([0.2126, 0.7152, 0.0722])  # IEC 61966-2-1 (Rec. 709 primaries)
+    gx, gy, gw, gh = GREY_RECT_MM
+    grey = sample(tform(_grid_in(gx + 0.2 * gw, gy + 0.2 * gh, 0.6 * gw, 0.6 * gh, 8))) @ luminance
+    paper = sample(tform(_grid_in(gx, gy + gh + 2.0, gw, 1.5, 8))) @ luminance
+    level, spread = np.median(grey), np.subtract(*np.percentile(grey, [75, 25]))
+    ratio = level / max(float(np.median(paper)), 1e-6)
+    return bool(0.08 < ratio < 0.5 and spread < 0.2 * level)
 
 
 def _read_code(tform, sample) -> tuple[list[int], float]:

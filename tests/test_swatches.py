@@ -22,7 +22,7 @@ from layerplan.inventory import InventoryError, default_inventory, load_inventor
 from layerplan.load import load_image
 from layerplan.plan import hex_to_rgb, rgb_to_hex
 from layerplan.swatches import (CARD_H_MM, CARD_W_MM, MAX_CARD_PAINTS, SwatchError, _decode_bits, card_layout,
-                                card_svg, inventory_toml, linear_to_srgb, read_card, srgb_to_linear)
+                                card_svg, find_marks, inventory_toml, linear_to_srgb, read_card, srgb_to_linear)
 
 from swatch_photos import paint_card, photograph
 
@@ -129,6 +129,23 @@ def test_painted_colours_come_back_within_de00_2(card, shot):
     errors = {k: _de(colours[k], v) for k, v in reading.colours.items()}
     worst = max(errors, key=errors.get)
     assert errors[worst] <= 2.0, f"{worst}: painted {colours[worst]}, read {reading.colours[worst]}"
+
+
+def test_a_mark_like_thing_beside_the_card_is_not_taken_for_a_corner(card):
+    # a ring with a dot, like the card's marks and as big, lying on the table below the card
+    from skimage.draw import disk
+
+    layout, colours, painted = card
+    clean = load_image(photograph(painted, size=(1600, 1200), **SHOTS["tilted, warm light"]))
+    right = read_card(clean, default_inventory()).marks_px
+    for centre in ((1560, 60), (1560, 1150), (60, 60), (1535, 700)):  # (row, column) beside each corner
+        photo = clean.copy()
+        for radius, value in ((32, 20), (21, 235), (12, 20)):
+            photo[disk(centre, radius, shape=photo.shape[:2])] = value
+        assert len(find_marks(photo)) > 1  # the thing is seen as a possible mark
+        reading = read_card(photo, default_inventory())
+        assert np.abs(reading.marks_px - right).max() < 1.0, centre
+        assert max(_de(colours[k], v) for k, v in reading.colours.items()) <= 2.0
 
 
 def test_inventory_file_from_a_photo(card, tmp_path):
