@@ -59,6 +59,11 @@ def test_card_for_the_default_and_an_uploaded_inventory(client):
         ("Chalk white", "masstone"), ("Ochre", "masstone"), ("Ochre", "tint"), ("Deep blue", "masstone"),
         ("Deep blue", "tint")]
     assert "1 : 4 with white" in " ".join(t.text for t in root.iter(f"{SVG}text"))
+    # a file chosen but the radio left at the basic set: the file is meant
+    r = client.post("/api/swatches/card", data={"inventory": "default",
+                                                "inventory_file": (io.BytesIO(MINE), "mine.toml")},
+                    content_type="multipart/form-data")
+    assert "Chalk white" in r.get_data(as_text=True)
 
 
 def test_bad_card_requests_get_400_with_an_error(client):

@@ -6,7 +6,7 @@
 ``POST /api/swatches/read``        form: ``photo`` (the painted card) and the inventory it was printed from,
                                    as above -> the inventory file (format 2), TOML
 
-Bad input gets 400 (413 for an upload over the size limit) with ``{"error": "..."}``, as the
+A chosen ``inventory_file`` is used even when ``inventory`` was left at ``default``. Bad input gets 400 (413 for an upload over the size limit) with ``{"error": "..."}``, as the
 rest of the API; nothing is stored.
 """
 
@@ -29,7 +29,11 @@ def _inventory():
     """The inventory chosen in the form (the start page's three ways), or RequestError."""
     from layerplan.inventory import default_inventory, loads_inventory
 
-    text, _ = forms._inventory(request.form, request.files)
+    form = request.form
+    chosen = request.files.get("inventory_file")
+    if chosen is not None and chosen.filename and (form.get("inventory") or "default") == "default":
+        form = {**form.to_dict(), "inventory": "upload"}  # a file chosen means that file, whatever the radio says
+    text, _ = forms._inventory(form, request.files)
     return default_inventory() if text is None else loads_inventory(text, source="the inventory")
 
 
