@@ -79,7 +79,7 @@ def test_card_is_a4_at_true_size_with_a_box_per_paint_and_tint():
     for r, box in zip(rects, layout.boxes):  # the printed boxes are where the reader measures
         assert (float(r.get("x")), float(r.get("y"))) == (box.x, box.y)
     texts = " ".join(t.text for t in root.iter(f"{SVG}text"))
-    assert "1 part of the paint with 9 parts of White" in texts and "100 mm" in texts
+    assert f"1 part of the paint with 9 parts of {inv.names()[layout.white]}" in texts and "100 mm" in texts
     # the code strip says what the card holds
     fields = _decode_bits(layout.code)
     assert fields["paints"] == len(inv) and (fields["paint_parts"], fields["white_parts"]) == (1, 9)
@@ -166,7 +166,7 @@ def test_inventory_file_from_a_photo(card, tmp_path):
             assert (tint["paint_parts"], tint["white_parts"]) == (1, 9)
             assert _de(tint["srgb"], colours[(p["name"], "tint")]) <= 2.0
         # tins carried over from the inventory the card was printed from
-        assert p["containers_l"] == list(inv.paint(p["name"]).containers_l)
+        assert p.get("containers_l", []) == list(inv.paint(p["name"]).containers_l)
     try:  # the file is an inventory layerplan reads, where this build reads format 2
         read_back = load_inventory(out)
     except InventoryError as exc:
@@ -178,13 +178,14 @@ def test_inventory_file_from_a_photo(card, tmp_path):
 
 def test_an_unpainted_tint_box_is_left_out(card, tmp_path):
     layout, colours, _ = card
-    left = {k: v for k, v in colours.items() if k != ("Warm blue", "tint")}
+    name = layout.names[(layout.white + 1) % len(layout.names)]  # a paint that is not the white
+    left = {k: v for k, v in colours.items() if k != (name, "tint")}
     jpeg = photograph(paint_card(layout, left), size=(1600, 1200), **SHOTS["tilted, warm light"])
     reading = read_card(load_image(jpeg), default_inventory())
-    assert reading.blank == (("Warm blue", "tint"),)
+    assert reading.blank == ((name, "tint"),)
     doc = tomllib.loads(inventory_toml(reading, default_inventory()))
-    blue = next(p for p in doc["paint"] if p["name"] == "Warm blue")
-    assert "tint" not in blue and _de(blue["srgb"], colours[("Warm blue", "masstone")]) <= 2.0
+    paint = next(p for p in doc["paint"] if p["name"] == name)
+    assert "tint" not in paint and _de(paint["srgb"], colours[(name, "masstone")]) <= 2.0
 
 
 def test_a_photo_of_an_unpainted_card_writes_nothing(card, tmp_path, capsys):
@@ -215,7 +216,7 @@ def test_a_card_printed_for_other_paints_is_refused(card, tmp_path):
     with pytest.raises(SwatchError, match="printed for paints with other names"):
         read_card(load_image(jpeg), loads_inventory(text))
     fewer = "".join(f'[[paint]]\nname = "{p.name}"\nsrgb = "{p.srgb}"\n' for p in renamed.paints[:5])
-    with pytest.raises(SwatchError, match="printed for 12 paints, but the inventory has 5"):
+    with pytest.raises(SwatchError, match=f"printed for {len(renamed)} paints, but the inventory has 5"):
         read_card(load_image(jpeg), loads_inventory(fewer))
 
 
