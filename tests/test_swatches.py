@@ -233,3 +233,19 @@ def test_cli_writes_a_card_and_never_replaces_a_file(tmp_path, capsys):
     assert "tint must be PAINT:WHITE" in capsys.readouterr().err and not (tmp_path / "x.svg").exists()
     assert main(["swatches", "--read", str(tmp_path / "none.jpg"), "--out", str(tmp_path / "x.toml")]) == 2
     assert not (tmp_path / "x.toml").exists()
+
+
+def test_names_with_markup_and_quotes_survive_the_card_and_the_file():
+    # XML 1.0 escaping in the SVG (the template is autoescaped) and TOML 1.0 basic-string escapes in the file
+    text = ('[[paint]]\nname = "Snow & <chalk> white"\nsrgb = "#f4f3ee"\n'
+            '[[paint]]\nname = "Grandad\'s \\"good\\" blue"\nsrgb = "#203080"\n')
+    inv = loads_inventory(text)
+    layout = card_layout(inv)
+    root = ET.fromstring(card_svg(layout))
+    assert {r.get("data-paint") for r in root.iter(f"{SVG}rect") if r.get("data-paint")} == set(inv.names())
+    from layerplan.swatches import CardReading
+
+    reading = CardReading(layout, {(n, k): "#808080" for n in inv.names() for k in ("masstone", "tint")}, (),
+                          "#f0f0f0", np.zeros((4, 2)))
+    doc = tomllib.loads(inventory_toml(reading, inv))
+    assert [p["name"] for p in doc["paint"]] == inv.names()
