@@ -59,6 +59,9 @@ def _parser() -> argparse.ArgumentParser:
     from . import cli_paints  # its commands import their own heavy parts when run
 
     cli_paints.register(sub)
+    from . import cli_swatches
+
+    cli_swatches.register(sub)
     return p
 
 

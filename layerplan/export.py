@@ -143,8 +143,12 @@ def _print_plan(x: ExportInputs) -> dict[str, bytes]:
 
 def _plan_document(x: ExportInputs) -> dict[str, bytes]:
     # the file carries its quantities: a derived plan with the section, the given one untouched
-    # (an existing paint_use section is replaced where it stands, a new one goes last)
-    written = dataclasses.replace(x.plan, extra={**x.plan.extra, "paint_use": dict(x.paint_use)})
+    # (an existing paint_use section is replaced where it stands, a new one goes last); each
+    # recipe carries its batch, the split of that paint's litres into stock paints
+    from .batches import with_batches
+
+    written = dataclasses.replace(with_batches(x.plan, x.paint_use),
+                                  extra={**x.plan.extra, "paint_use": dict(x.paint_use)})
     return {"plan.json": written.to_json().encode("utf-8")}
 
 

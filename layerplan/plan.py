@@ -86,7 +86,9 @@ class Paint:
         """The mix recipe (plan.json ``palette[i].recipe``), read-only; None if there is none.
 
         ``{"parts": [{"paint": stock name, "parts": n}, ...], "target", "predicted_srgb",
-        "delta_e", "in_gamut"}`` as :mod:`layerplan.recipes` writes it. It stays in
+        "delta_e", "in_gamut"}`` as :mod:`layerplan.recipes` writes it; plan.json files also
+        carry the optional ``"batch": [{"paint": stock name, "litres": x}, ...]`` (the paint's
+        litres split into its stock paints, :mod:`layerplan.batches`). It stays in
         ``extra`` so the palette entry is written back unchanged.
         """
         recipe = self.extra.get("recipe")

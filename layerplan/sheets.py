@@ -41,6 +41,7 @@ from . import wording as w
 from .coats import CoatNote, coat_notes
 from .outlines import area_pixels, layer_canvas, outline_maps, pieces_in_box, place_labels, place_labels_around
 from .plan import Plan
+from .batches import mix_batches
 from .quantities import TRACE_LITRES, US_UNITS
 from .quantities import paint_use as compute_paint_use
 from .raster import render_steps
@@ -166,6 +167,7 @@ class PaintRow:
     out_of_reach: bool
     amount: str
     used_for: str
+    batch: str | None = None  # the whole amount split into stock paints, None without a recipe
 
 
 @dataclass(frozen=True)
@@ -192,6 +194,7 @@ class PaintUseRow:
     amount: str
     how: str
     buy: str
+    batch: str | None = None  # the whole amount split into stock paints, None without a recipe
 
 
 @dataclass(frozen=True)
@@ -523,6 +526,7 @@ def _name_lines(p, recipe: Mapping[str, Any] | None) -> tuple[Line, ...]:
 
 def _paint_card(plan: Plan, use: dict[str, Any], us: bool) -> PaintCard:
     entries = {p["paint"]: p for p in use["paints"]}
+    batches = mix_batches(plan, use)
     layers_of: dict[str, list[int]] = {}
     for n, layer in enumerate(plan.layers, start=1):
         for s in layer.strokes:
@@ -545,8 +549,9 @@ def _paint_card(plan: Plan, use: dict[str, Any], us: bool) -> PaintCard:
             swatches, mix, delta_e, out_of_reach = (Swatch(p.srgb),), None, "—", False
         used = (["ground"] if p.id == plan.ground else []) + (
             ["layers " + ", ".join(str(n) for n in layers_of[p.id])] if layers_of.get(p.id) else [])
+        batch = w.batch(batches[p.id], us) if p.id in batches and entries[p.id]["litres"] > 0 else None
         rows.append(PaintRow(p.id, swatches, _name_lines(p, recipe), mix, delta_e, out_of_reach,
-                             w.amount(entries[p.id], us), "; ".join(used) or "not used"))
+                             w.amount(entries[p.id], us), "; ".join(used) or "not used", batch))
     snapped = not (plan.extra.get("settings") or {}).get("free_palette", False)
     return PaintCard(tuple(rows), any(p.extra.get("recipe") for p in plan.palette), snapped)
 
@@ -563,11 +568,13 @@ def _shopping(plan: Plan, use: dict[str, Any], unit: str) -> Shopping:
     stock = tuple(StockRow(s["paint"], (inv.get(s["paint"]) or {}).get("srgb") or None, w.amount(s, us),
                            w.buy(s, us), ", ".join(s["for"])) for s in use.get("stock") or [])
     paints = []
+    batches = mix_batches(plan, use)
     for p, e in zip(plan.palette, use["paints"]):
         mixed = bool(p.extra.get("recipe"))
+        batch = w.batch(batches[p.id], us) if p.id in batches and e["litres"] > 0 else None
         paints.append(PaintUseRow(p.id, p.srgb, w.area(e["area_m2"], unit), w.amount(e, us),
                                   "mix from stock" if mixed else "buy tinted, or mix",
-                                  "—" if mixed else w.buy(e, us)))
+                                  "—" if mixed else w.buy(e, us), batch))
     any_trace = any(w.is_trace(e) for e in list(use.get("stock") or []) + list(use["paints"]))
     return Shopping(assumptions, stock, tuple(paints), w.volume(TRACE_LITRES, us) if any_trace else None)
 

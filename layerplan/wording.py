@@ -171,6 +171,15 @@ def buy(entry: Mapping[str, Any], us: bool) -> str:
     return containers(entry.get("containers") or [], us, trace=is_trace(entry))
 
 
+def batch(items: Iterable[Mapping[str, Any]], us: bool) -> str:
+    """A mixed paint's batch, ``[{"paint": "Warm blue", "litres": 1.5}, ...]`` (:mod:`layerplan.batches`) ->
+    "1.5 L Warm blue + 500 mL Cool yellow"; an empty batch -> "—"."""
+    items = [b for b in items if isinstance(b, Mapping)]
+    if not items:
+        return "—"
+    return " + ".join(f"{volume(b['litres'], us, used=True)} {b['paint']}" for b in items)
+
+
 def coverage(m2_per_litre: float, us: bool) -> str:
     """A spreading rate: "10 m² per litre", with ft² per US gallon beside for walls in ft/in."""
     text = f"{number(m2_per_litre, 1)} m² per litre"

@@ -131,7 +131,10 @@ def test_plan_json_keeps_the_contract_and_the_paint_use_section_goes_last(files)
     doc = json.loads(files["plan.json"])
     assert list(doc) == [*plan.to_dict(), "paint_use"]
     assert doc["settings"]["wall_unit"] == "cm" and doc["inventory"] == plan.extra["inventory"]
-    assert doc["palette"][2]["recipe"] == plan.palette[2].extra["recipe"]
+    # the recipe as given, plus its batch (the split of the paint's litres, layerplan.batches)
+    assert {k: v for k, v in doc["palette"][2]["recipe"].items() if k != "batch"} == plan.palette[2].extra["recipe"]
+    assert sum(b["litres"] for b in doc["palette"][2]["recipe"]["batch"]) == pytest.approx(
+        doc["paint_use"]["paints"][2]["litres"], abs=1e-9)
     # a plan read back and exported again with the same options gives the same bytes (the
     # earlier paint_use section is replaced where it stands)
     again = build_files(Plan.from_json(files["plan.json"].decode()))

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import io
 import math
 import time
@@ -189,7 +190,8 @@ def _plan_view(plan: Plan, files: dict[str, str]) -> dict[str, Any]:
     use = use if isinstance(use, dict) else {}
     litres = {p.get("paint"): p for p in use.get("paints", []) if isinstance(p, dict)}
     paints = [{"id": p.id, "srgb": p.srgb, "lab": p.lab, "name": p.extra.get("name"), "recipe": p.recipe,
-               "use": litres.get(p.id), "ground": p.id == plan.ground, "coats": _coats_text(plan, p.id)}
+               "use": litres.get(p.id), "ground": p.id == plan.ground, "coats": _coats_text(plan, p.id),
+               "batch": _batch_text(plan, p, use)}
               for p in plan.palette]
     steps = []
     pictures = EXPORTS["step-pictures"]
@@ -211,7 +213,8 @@ def _plan_view(plan: Plan, files: dict[str, str]) -> dict[str, Any]:
     downloads, step_files = _downloads(files)
     stock_colours = {i.get("name"): i.get("srgb") for i in plan.inventory}
     return {
-        "plan": plan, "paints": paints, "stock_colours": stock_colours, "steps": steps, "downloads": downloads,
+        "plan": plan, "paints": paints, "stock_colours": stock_colours,
+        "batches": {p["id"]: p["batch"] for p in paints if p["batch"]}, "steps": steps, "downloads": downloads,
         "step_files": step_files,
         "paint_use": use if use.get("paints") else None,
         "stock": _stock_list(use),
@@ -220,6 +223,25 @@ def _plan_view(plan: Plan, files: dict[str, str]) -> dict[str, Any]:
         "final_url": files.get("final.png"), "print_url": files.get("plan.html"),
         "svg_url": files.get("overlay.svg"),
     }
+
+
+def _batch_text(plan: Plan, paint, use: dict[str, Any]) -> str:
+    """The paint's whole batch in words (plan.json ``recipe.batch``; worked out from ``paint_use`` for plans
+    written before that field); "" without a recipe or an amount."""
+    from layerplan.batches import mix_batches
+
+    recipe = paint.recipe
+    entry = next((e for e in use.get("paints", []) if isinstance(e, dict) and e.get("paint") == paint.id), None)
+    if not recipe or not entry or not isinstance(entry.get("litres"), (int, float)) or entry["litres"] <= 0:
+        return ""
+    batch = recipe.get("batch")
+    if not isinstance(batch, list) or not all(isinstance(b, dict) and isinstance(b.get("litres"), (int, float))
+                                              for b in batch):
+        try:
+            batch = mix_batches(dataclasses.replace(plan, palette=[paint]), {"paints": [entry]}).get(paint.id, [])
+        except ValueError:
+            return ""
+    return wording.batch(batch, wording.is_us(plan.wall_unit))
 
 
 def _downloads(files: dict[str, str]) -> tuple[list[dict[str, Any]], list[tuple[str, str]]]:
