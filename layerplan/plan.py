@@ -12,6 +12,10 @@ version 1). The names and meanings below must hold because other tools read them
                  "strokes": [{"paint": "P2", "width_mm": 100.0,
                               "path_mm": [[x, y], ...]}, ...]}, ...]}
 
+Optional per layer: ``"runs": [{"paint": "P4", "strokes": 120}, ...]``, the layer's paints
+in painting order, each painted in one run of that many strokes; the strokes of a run are
+consecutive in ``strokes``, runs in this order (absent in plans made before runs).
+
 Coordinates are wall millimetres, origin top-left, x right, y down. Further
 sections (``settings``, ``stats``, ``inventory``, ``paint_use``, ...) may be added
 freely; they travel in ``Plan.extra`` so a plan read and written again keeps them.
