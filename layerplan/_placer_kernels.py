@@ -67,9 +67,13 @@ def _footprint_gain(pts, n, width_mm, s, planes, err, toprank, allow, sums, runs
         i = runs[t, 0]
         for j in range(runs[t, 1], runs[t, 2] + 1):
             e = np.float64(err[i, j])
-            row = allow[max(toprank[i, j], 0)]
-            for q in range(k):
-                sums[q] += row[q] * (e - planes[i, j, q])
+            r = toprank[i, j]
+            if r <= 0:
+                for q in range(k):
+                    sums[q] += e - planes[i, j, q]
+            else:
+                for q in range(k):
+                    sums[q] += allow[r, q] * (e - planes[i, j, q])
     best = -1e30
     bq = 0
     for q in range(k):
@@ -530,6 +534,9 @@ def relax_pass(planes, stack, all_pts, counts, paints, alive, layer_of, runs_of,
         lay = layer_of[st]
         brush = brushes[lay]
         width = brush.width_mm
+        last_run = 0
+        for q in range(k):
+            last_run = max(last_run, ranks[lay, q])
         n = counts[st]
         for p in range(n):
             cur[p, 0] = all_pts[st, p, 0]
@@ -577,8 +584,8 @@ def relax_pass(planes, stack, all_pts, counts, paints, alive, layer_of, runs_of,
                 i = new_i[c]
                 j = new_j[c]
                 tp = top_idx[i, j]
-                shown = np.float64(planes[i, j, top_paint[i, j]])
                 if tp == st:
+                    shown = np.float64(planes[i, j, top_paint[i, j]])
                     if stale[i, j]:
                         stale_top = True
                         thr = 0
@@ -587,15 +594,21 @@ def relax_pass(planes, stack, all_pts, counts, paints, alive, layer_of, runs_of,
                         thr = _threshold(st, under_idx[i, j], lay, layer_of, paints, ranks, k)
                         hidden = np.float64(planes[i, j, under_paint[i, j]])
                 else:
+                    if tp >= 0 and layer_of[tp] > lay:
+                        continue  # under a stroke of a later layer, whatever its paint
                     thr = _threshold(st, tp, lay, layer_of, paints, ranks, k)
-                    if thr >= k:
-                        continue
+                    if thr > last_run:
+                        continue  # under a stroke painted after every run k could go to
+                    shown = np.float64(planes[i, j, top_paint[i, j]])
                     hidden = shown
                 # error here: ``hidden`` if k ends below the others, paint q's if it shows
                 base += hidden - shown
-                row = allow[lay, thr]
-                for q in range(k):
-                    sums[q] += row[q] * (planes[i, j, q] - hidden)
+                if thr == 0:
+                    for q in range(k):
+                        sums[q] += planes[i, j, q] - hidden
+                else:
+                    for q in range(k):
+                        sums[q] += allow[lay, thr, q] * (planes[i, j, q] - hidden)
             ok = True
             for v in range(nvis):
                 if stamp[vis_i[v], vis_j[v]] != new_id:
