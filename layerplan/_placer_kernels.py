@@ -457,21 +457,6 @@ def _visible(st, paint, old_i, old_j, nold, stack, planes, vis_i, vis_j, vis_d, 
 
 
 @njit(cache=True, nogil=True)
-def _threshold(st, o, lay, layer_of, paints, ranks, k):
-    """The lowest run (rank) of layer ``lay`` at which stroke st would show above stroke o (k: never, 0: always)."""
-    if o < 0:
-        return 0
-    lo = layer_of[o]
-    if lo < lay:
-        return 0
-    if lo > lay:
-        return k
-    r = ranks[lo, paints[o]]
-    # within one run, the stroke with the lower number is painted first
-    return r + 1 if st < o else r
-
-
-@njit(cache=True, nogil=True)
 def stroke_keys(layer_of, paints, ranks):
     """Painting position of every stroke: layer, then its paint's run in that layer, then its number."""
     n = layer_of.shape[0]
@@ -584,29 +569,36 @@ def relax_pass(planes, stack, all_pts, counts, paints, alive, layer_of, runs_of,
                 i = new_i[c]
                 j = new_j[c]
                 tp = top_idx[i, j]
+                # thr: the lowest run of this layer at which k shows above o, the highest other stroke here
+                # (0: any run; within one run the stroke with the lower number is painted first)
                 if tp == st:
-                    shown = np.float64(planes[i, j, top_paint[i, j]])
+                    o = under_idx[i, j]
                     if stale[i, j]:
                         stale_top = True
-                        thr = 0
-                        hidden = shown
-                    else:
-                        thr = _threshold(st, under_idx[i, j], lay, layer_of, paints, ranks, k)
-                        hidden = np.float64(planes[i, j, under_paint[i, j]])
+                        o = -1
                 else:
-                    if tp >= 0 and layer_of[tp] > lay:
+                    o = tp
+                thr = 0
+                if o >= 0:
+                    lo = layer_of[o]
+                    if lo > lay:
                         continue  # under a stroke of a later layer, whatever its paint
-                    thr = _threshold(st, tp, lay, layer_of, paints, ranks, k)
-                    if thr > last_run:
-                        continue  # under a stroke painted after every run k could go to
-                    shown = np.float64(planes[i, j, top_paint[i, j]])
-                    hidden = shown
-                # error here: ``hidden`` if k ends below the others, paint q's if it shows
-                base += hidden - shown
+                    if lo == lay:
+                        thr = ranks[lay, paints[o]]
+                        if st < o:
+                            thr += 1
+                        if tp != st and thr > last_run:
+                            continue  # under a stroke painted after every run k could go to
+                shown = np.float64(planes[i, j, top_paint[i, j]])
                 if thr == 0:
+                    # k shows here with any paint
+                    base -= shown
                     for q in range(k):
-                        sums[q] += planes[i, j, q] - hidden
+                        sums[q] += planes[i, j, q]
                 else:
+                    # error here: ``hidden`` if k ends below o, paint q's if it shows
+                    hidden = np.float64(planes[i, j, under_paint[i, j]]) if tp == st else shown
+                    base += hidden - shown
                     for q in range(k):
                         sums[q] += allow[lay, thr, q] * (planes[i, j, q] - hidden)
             ok = True
