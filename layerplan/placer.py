@@ -16,6 +16,12 @@ Brushes much wider than a few pixels are refined on block sums of the planes and
 checked exactly before they are painted. After the last layer, `relax_strokes`
 revisits every stroke against the finished picture.
 
+One run per paint: a layer paints each paint in one run, in an order fixed before it is
+placed (``ranks``). A new stroke is slotted into its paint's run, under the strokes of later
+runs already placed, and judged only by the pixels where it will show; relaxation and the
+clean-up use the same painting order (`painting_keys`), so the picture optimised is the one
+painted run by run.
+
 This module is the Python side: it checks and packs the inputs of the compiled kernels in
 :mod:`layerplan._placer_kernels`. A brush's limits reach them as one record
 (:data:`BRUSH_RECORD`, packed by :func:`brush_records`), so a new limit is a field of
