@@ -522,6 +522,9 @@ def relax_pass(planes, stack, all_pts, counts, paints, alive, layer_of, runs_of,
         last_run = 0
         for q in range(k):
             last_run = max(last_run, ranks[lay, q])
+        # painting positions: k in the first run of its layer, and the first of the next layer
+        key_first = lay * (k + 1) * n_strokes + st
+        key_next = (lay + 1) * (k + 1) * n_strokes
         n = counts[st]
         for p in range(n):
             cur[p, 0] = all_pts[st, p, 0]
@@ -580,13 +583,12 @@ def relax_pass(planes, stack, all_pts, counts, paints, alive, layer_of, runs_of,
                     o = tp
                 thr = 0
                 if o >= 0:
-                    lo = layer_of[o]
-                    if lo > lay:
+                    ko = keys[o]
+                    if ko >= key_next:
                         continue  # under a stroke of a later layer, whatever its paint
-                    if lo == lay:
-                        thr = ranks[lay, paints[o]]
-                        if st < o:
-                            thr += 1
+                    if ko > key_first:
+                        # same layer: k in run r comes after o when (lay (k + 1) + r) N + st > key of o
+                        thr = (ko - key_first) // n_strokes + 1
                         if tp != st and thr > last_run:
                             continue  # under a stroke painted after every run k could go to
                 shown = np.float64(planes[i, j, top_paint[i, j]])
