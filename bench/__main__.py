@@ -10,8 +10,11 @@ machine-independent unit (one :func:`layerplan.colour.error_planes` of the raste
 and palette) and plan time / unit. Then, each in a fresh subprocess: scaling at
 0.25, 0.5, 1 and 2 megapixels (time and peak resident memory), the memory figure at
 2 megapixels with 16 paints, and the four-brush figure (1 megapixel, 8 paints, the
-CLI's default brushes 100/50/25/12 mm). Every target the placer is held to (see
-``TARGET_*``) is checked and printed PASS or FAIL.
+CLI's default brushes 100/50/25/12 mm). Then what one run per paint per layer costs:
+each photo planned at seeds 0, 1 and 2 with runs (the product) and without (strokes
+placed freely and grouped by paint afterwards where the picture allows), at the same
+stroke cost. Every target the placer is held to (see ``TARGET_*``) is checked and
+printed PASS or FAIL.
 Results go to ``bench/results.md`` (``bench/results-quick.md`` with ``--quick``).
 
 References
@@ -52,6 +55,8 @@ MEMORY_MP, MEMORY_PAINTS = 2.0, 16
 FOUR_BRUSH_MP, FOUR_BRUSH_BRUSHES_MM = 1.0, (100.0, 50.0, 25.0, 12.0)
 FOUR_BRUSH_MM_PER_PX = 4.0
 SCALING_PHOTO = "coffee"
+#: seeds of the with/without-runs comparison (the first is the photos' own plan)
+RUNS_SEEDS = (0, 1, 2)
 
 # targets the placer is held to: close to the palette's floor, better than the published baseline with a
 # fraction of its strokes, time and memory about linear in pixels, and a default plan well under a minute
@@ -60,6 +65,8 @@ TARGET_STROKE_SHARE = 0.20
 TARGET_UNITS = 10.0
 TARGET_RSS_GB = 1.5
 TARGET_FOUR_BRUSH_S = 60.0
+#: one run per paint per layer may cost at most this much more mean ΔE00 than placing freely (over the seeds)
+TARGET_RUNS_COST = 0.01
 #: "about linear": log-log slope of time (and of memory above the idle process) vs pixels
 TARGET_SLOPE = 1.2
 #: unit timings are the median of this many runs (plan runs are single)
@@ -83,12 +90,12 @@ def raster_for(img: np.ndarray, megapixels: float | None) -> tuple[int, int]:
 
 
 def settings_for(width_px: int, height_px: int, *, paints=PAINTS, brushes=BRUSHES_MM, mm_per_px=MM_PER_PX,
-                 free_palette=False):
+                 free_palette=False, seed=SEED):
     from layerplan.settings import Settings
 
     extra = {"free_palette": True} if free_palette else {}
     return Settings(wall_width_mm=width_px * mm_per_px, wall_height_mm=height_px * mm_per_px, fit="cover",
-                    paints=paints, brushes_mm=tuple(brushes), mm_per_px=mm_per_px, seed=SEED, **extra)
+                    paints=paints, brushes_mm=tuple(brushes), mm_per_px=mm_per_px, seed=seed, **extra)
 
 
 def vm_kb(field: str) -> int:
@@ -140,10 +147,26 @@ def warm_up():
 
     tiny, plan = warm_planner()
     baseline_plan(tiny, plan)
+    # the comparison without runs orders strokes with code the product no longer uses
+    from layerplan.pipeline import make_plan
+    from layerplan.settings import Settings
+
+    make_plan(tiny, Settings(wall_width_mm=360.0, wall_height_mm=240.0, paints=3, brushes_mm=(60.0, 20.0),
+                             mm_per_px=5.0), runs=None)
 
 
-def measure_plan(img, settings, *, unit_repeats=UNIT_REPEATS, with_baseline=False, keep_peak=False):
-    """Plan one photo and measure it (see module docstring). Returns a dict."""
+def paint_runs(plan) -> list[int]:
+    """Runs per layer in the stroke list: one brush wash each (a paint change starts a new run)."""
+    return [sum(1 for a, b in zip(layer.strokes, layer.strokes[1:]) if a.paint != b.paint) + bool(layer.strokes)
+            for layer in plan.layers]
+
+
+def measure_plan(img, settings, *, unit_repeats=UNIT_REPEATS, with_baseline=False, keep_peak=False,
+                 runs="default"):
+    """Plan one photo and measure it (see module docstring). Returns a dict.
+
+    ``runs`` is passed to make_plan unless "default" (None: no runs, strokes placed freely).
+    """
     from layerplan import colour, raster
     from layerplan.fit import fit_to_wall
     from layerplan.pipeline import make_plan
@@ -155,7 +178,8 @@ def measure_plan(img, settings, *, unit_repeats=UNIT_REPEATS, with_baseline=Fals
         events.append((time.perf_counter(), message))
 
     t0 = time.perf_counter()
-    plan, t_plan, c_plan = timed(make_plan, img, settings, progress=progress)
+    kw = {} if runs == "default" else {"runs": runs}
+    plan, t_plan, c_plan = timed(make_plan, img, settings, progress=progress, **kw)
     t_end = t0 + t_plan
     peak_kb = vm_kb("VmHWM") if keep_peak else None
     target = fit_to_wall(img, plan.width_px, plan.height_px, fit=settings.fit)[0]
@@ -172,6 +196,7 @@ def measure_plan(img, settings, *, unit_repeats=UNIT_REPEATS, with_baseline=Fals
         "paints": len(plan.palette), "brushes_mm": [layer.brush_width_mm for layer in plan.layers],
         "mm_per_px": plan.mm_per_px, "de": de, "floor": floor, "ratio": de / floor,
         "strokes": plan.stroke_count(), "layer_strokes": [len(layer.strokes) for layer in plan.layers],
+        "runs": paint_runs(plan), "layer_paints": [len({s.paint for s in layer.strokes}) for layer in plan.layers],
         "time_s": t_plan, "cpu_s": c_plan, "unit_s": t_unit, "units": t_plan / t_unit,
         "unit_cpu_s": c_unit, "units_cpu": c_plan / c_unit,
         "rss_idle_mb": rss_idle / 1024, "stages_s": stage_times(events, t_end),
@@ -264,8 +289,37 @@ def slope(xs, ys) -> float:
 
 
 # ---------------------------------------------------------------- report
-def checks(photos, scaling, memory, four_brush) -> list[tuple[str, bool, str]]:
+def runs_summary(runs_cmp) -> dict:
+    """Per photo, over the seeds: mean ΔE00 and strokes with and without runs, and the relative ΔE00 change."""
+    out = {}
+    for r in runs_cmp:
+        out.setdefault(r["photo"], []).append(r)
+    summary = {}
+    for name, rows in out.items():
+        de_with = float(np.mean([r["with"]["de"] for r in rows]))
+        de_without = float(np.mean([r["without"]["de"] for r in rows]))
+        summary[name] = {"seeds": [r["seed"] for r in rows], "de_with": de_with, "de_without": de_without,
+                         "cost": de_with / de_without - 1.0,
+                         "strokes_with": float(np.mean([r["with"]["strokes"] for r in rows])),
+                         "strokes_without": float(np.mean([r["without"]["strokes"] for r in rows])),
+                         "time_with": float(np.mean([r["with"]["time_s"] for r in rows])),
+                         "time_without": float(np.mean([r["without"]["time_s"] for r in rows])),
+                         "units_with": float(np.mean([r["with"]["units"] for r in rows])),
+                         "units_without": float(np.mean([r["without"]["units"] for r in rows]))}
+    return summary
+
+
+def checks(photos, scaling, memory, four_brush, runs_cmp=()) -> list[tuple[str, bool, str]]:
     out = []
+    for p in photos:
+        out.append((f"{p['photo']}: one run per paint in every layer", p["runs"] == p["layer_paints"],
+                    f"runs per layer {'/'.join(map(str, p['runs']))}, paints per layer "
+                    f"{'/'.join(map(str, p['layer_paints']))}"))
+    for name, r in runs_summary(runs_cmp).items():
+        out.append((f"{name}: one run per paint costs < {TARGET_RUNS_COST:.0%} more ΔE00 than placing freely "
+                    f"(mean of seeds {', '.join(map(str, r['seeds']))})", r["cost"] < TARGET_RUNS_COST,
+                    f"ΔE00 {r['de_with']:.3f} vs {r['de_without']:.3f} ({r['cost']:+.2%}), strokes "
+                    f"{r['strokes_with']:.0f} vs {r['strokes_without']:.0f}"))
     for p in photos:
         out.append((f"{p['photo']}: ΔE00 ≤ {TARGET_RATIO} × floor", p["ratio"] <= TARGET_RATIO,
                     f"ratio {p['ratio']:.3f}"))
@@ -297,7 +351,7 @@ def checks(photos, scaling, memory, four_brush) -> list[tuple[str, bool, str]]:
     return out
 
 
-def render_md(info, photos, scaling, memory, four_brush, results, quick, total_s) -> tuple[str, str]:
+def render_md(info, photos, scaling, memory, four_brush, results, quick, total_s, runs_cmp=()) -> tuple[str, str]:
     L = []
     L.append("# layerplan placer benchmark" + (" (quick smoke run: small rasters, not the figures)" if quick else ""))
     if quick:
@@ -347,6 +401,12 @@ def render_md(info, photos, scaling, memory, four_brush, results, quick, total_s
              "(the CLI's "
              "default rule: the narrowest brush spans 3 px); ΔE00 of final.png as written by "
              "`layerplan.export.write_outputs`, read back, against the fitted target.")
+    L.append(f"- Runs: every plan paints each paint of a layer in one run (one brush wash per paint and layer); the "
+             f"placer fixes the order of the runs before each layer (largest first: the paint with the most error "
+             f"to take away where it is the best paint) and places every stroke into its paint's run. \"Without "
+             f"runs\" is `make_plan(..., runs=None)`: each stroke painted over the ones placed before it, then "
+             f"grouped by paint where the picture allows (several runs of a paint per layer). Same settings and "
+             f"stroke cost, seeds {', '.join(map(str, RUNS_SEEDS))}.")
     L.append("")
     L.append("## Photos")
     L.append("")
@@ -372,6 +432,25 @@ def render_md(info, photos, scaling, memory, four_brush, results, quick, total_s
         f"{p['photo']}: " + " / ".join(", ".join(f"{k} {v}" for k, v in s.items() if v) for s in p["baseline"]["stops"])
         for p in photos))
     L.append("")
+    if runs_cmp:
+        L.append("## One run per paint per layer: what it costs")
+        L.append("")
+        L.append("| photo | seed | with runs: ΔE00 | strokes | runs per layer | plan s (units) | without: ΔE00 | strokes "
+                 "| runs per layer | plan s (units) | ΔE00 with / without |")
+        L.append("|---|---|---|---|---|---|---|---|---|---|---|")
+        for r in runs_cmp:
+            a, b = r["with"], r["without"]
+            L.append(f"| {r['photo']} | {r['seed']} | {a['de']:.3f} | {a['strokes']} | {'/'.join(map(str, a['runs']))} | "
+                     f"{a['time_s']:.2f} ({a['units']:.1f}) | {b['de']:.3f} | {b['strokes']} | "
+                     f"{'/'.join(map(str, b['runs']))} | {b['time_s']:.2f} ({b['units']:.1f}) | "
+                     f"{a['de'] / b['de'] - 1:+.2%} |")
+        L.append("")
+        for name, r in runs_summary(runs_cmp).items():
+            L.append(f"- {name}, mean of seeds {', '.join(map(str, r['seeds']))}: ΔE00 {r['de_with']:.3f} with runs vs "
+                     f"{r['de_without']:.3f} without ({r['cost']:+.2%}); strokes {r['strokes_with']:.0f} vs "
+                     f"{r['strokes_without']:.0f}; plan time {r['time_with']:.2f} s vs {r['time_without']:.2f} s "
+                     f"({r['units_with']:.1f} vs {r['units_without']:.1f} units)")
+        L.append("")
     L.append("## Scaling (fresh process per size)")
     L.append("")
     L.append("| MP | raster | paints | plan s (CPU s) | s per MP | of which layers s | unit s | units (CPU) "
@@ -461,6 +540,20 @@ def main(argv=None) -> int:
         say(f"  plan ΔE00 {res['de']:.3f} (floor {res['floor']:.3f}, ratio {res['ratio']:.3f}), {res['strokes']} "
             f"strokes, {res['time_s']:.2f} s = {res['units']:.1f} units; baseline ΔE00 {res['baseline']['de']:.3f}, "
             f"{res['baseline']['strokes']} strokes")
+    runs_cmp = []
+    for res in photos:
+        img = photo(res["photo"])
+        w, h = res["raster"]
+        for seed in RUNS_SEEDS[:1] if args.quick else RUNS_SEEDS:
+            say(f"{res['photo']}: with and without runs, seed {seed}")
+            st = settings_for(w, h, free_palette=args.free_palette, seed=seed)
+            with_runs = res if seed == SEED else measure_plan(img, st, unit_repeats=1)[0]
+            without = measure_plan(img, st, unit_repeats=1, runs=None)[0]
+            keep = ("de", "strokes", "layer_strokes", "runs", "layer_paints", "time_s", "units")
+            runs_cmp.append({"photo": res["photo"], "seed": seed, "with": {k: with_runs[k] for k in keep},
+                             "without": {k: without[k] for k in keep}})
+            say(f"  ΔE00 {with_runs['de']:.3f} vs {without['de']:.3f}, strokes {with_runs['strokes']} vs "
+                f"{without['strokes']}, runs {with_runs['runs']} vs {without['runs']}")
     sizes = (0.02, 0.04, 0.08) if args.quick else SCALING_MP
     base = {"photo": SCALING_PHOTO, "paints": PAINTS, "brushes_mm": list(BRUSHES_MM), "mm_per_px": MM_PER_PX,
             "free_palette": args.free_palette}
@@ -479,16 +572,17 @@ def main(argv=None) -> int:
     four_brush = run_child({**base, "megapixels": fb_mp, "brushes_mm": list(FOUR_BRUSH_BRUSHES_MM),
                             "mm_per_px": FOUR_BRUSH_MM_PER_PX, "final_png": True})
     say(f"  {four_brush['time_s']:.2f} s, final.png ΔE00 {four_brush['final_png_de']:.3f}")
-    results = checks(photos, scaling, memory, four_brush)
+    results = checks(photos, scaling, memory, four_brush, runs_cmp)
     total = time.perf_counter() - t_start
     info["palette"] = ("k-means as is (--free-palette)" if args.free_palette
                        else "the product's default: k-means snapped to mixable recipes")
-    md, summary = render_md(info, photos, scaling, memory, four_brush, results, args.quick, total)
+    md, summary = render_md(info, photos, scaling, memory, four_brush, results, args.quick, total, runs_cmp)
     tmp = out_path.parent / f"results-{os.getpid()}.tmp"  # ignored by .gitignore
     tmp.write_text(md, encoding="utf-8")
     tmp.replace(out_path)
     (out_path.with_suffix(".json")).write_text(json.dumps(
         {"machine": info, "photos": photos, "scaling": scaling, "memory": memory, "four_brush": four_brush,
+         "runs": runs_cmp, "runs_summary": runs_summary(runs_cmp),
          "checks": [{"target": n, "pass": ok, "detail": d} for n, ok, d in results], "quick": args.quick,
          "total_s": total}, indent=1), encoding="utf-8")
     print()

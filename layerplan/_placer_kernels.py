@@ -51,30 +51,76 @@ def _footprint_px(pts, n, width_mm, s, h, w, stamp, stamp_id, buf_i, buf_j, runs
 
 
 @njit(cache=True, nogil=True)
-def _footprint_gain(pts, n, width_mm, s, planes, err, sums, runs, row_ab, row_n):
-    """Gain of painting the stroke with each paint; returns (best gain, best paint, run count).
+def _footprint_gain(pts, n, width_mm, s, planes, err, toprank, allow, sums, runs, row_ab, row_n):
+    """Gain of painting the stroke with each paint in its run; returns (best gain, best paint, run count).
 
-    The pixels are `raster.footprint_runs`'s (exactly the rendering rule's set), left in ``runs``.
+    A pixel counts for paint q only when no stroke of a later run of this layer covers it
+    (``allow[max(toprank, 0), q]``): the stroke is slotted into q's run and shows only where
+    nothing painted after that run lies on top. The pixels are `raster.footprint_runs`'s
+    (exactly the rendering rule's set), left in ``runs``.
     """
     h, w, k = planes.shape
     c = footprint_runs(pts, n, width_mm, s, h, w, runs, row_ab, row_n)
-    base = 0.0
     for q in range(k):
         sums[q] = 0.0
     for t in range(c):
         i = runs[t, 0]
         for j in range(runs[t, 1], runs[t, 2] + 1):
-            base += err[i, j]
-            for q in range(k):
-                sums[q] += planes[i, j, q]
+            e = np.float64(err[i, j])
+            r = toprank[i, j]
+            if r <= 0:
+                for q in range(k):
+                    sums[q] += e - planes[i, j, q]
+            else:
+                for q in range(k):
+                    sums[q] += allow[r, q] * (e - planes[i, j, q])
     best = -1e30
     bq = 0
     for q in range(k):
-        g = base - sums[q]
-        if g > best:
-            best = g
+        if sums[q] > best:
+            best = sums[q]
             bq = q
     return best, bq, c
+
+
+@njit(cache=True, nogil=True)
+def _block_gain(pts, n, width_mm, s_c, gain_c, sums, runs, row_ab, row_n):
+    """`_footprint_gain` on the coarse grid: ``gain_c[bi, bj, q]`` holds the block's gain for paint q."""
+    h, w, k = gain_c.shape
+    c = footprint_runs(pts, n, width_mm, s_c, h, w, runs, row_ab, row_n)
+    for q in range(k):
+        sums[q] = 0.0
+    for t in range(c):
+        i = runs[t, 0]
+        for j in range(runs[t, 1], runs[t, 2] + 1):
+            for q in range(k):
+                sums[q] += gain_c[i, j, q]
+    best = -1e30
+    bq = 0
+    for q in range(k):
+        if sums[q] > best:
+            best = sums[q]
+            bq = q
+    return best, bq, c
+
+
+@njit(cache=True, nogil=True)
+def layer_room(planes, err, toprank, allow):
+    """Error still removable at each pixel by a stroke of this layer, flattened: the current error minus the
+    best a paint whose run can still show there would leave (never negative)."""
+    h, w, k = planes.shape
+    out = np.zeros(h * w, np.float64)
+    for i in range(h):
+        for j in range(w):
+            row = allow[max(toprank[i, j], 0)]
+            best = 1e30
+            for q in range(k):
+                if row[q] > 0.0 and planes[i, j, q] < best:
+                    best = planes[i, j, q]
+            d = np.float64(err[i, j]) - best
+            if d > 0.0:
+                out[i * w + j] = d
+    return out
 
 
 @njit(cache=True, nogil=True)
@@ -234,27 +280,34 @@ def _propose(cur, n, cand, theta, s, brush, moves, bend):
 
 
 @njit(cache=True, nogil=True)
-def place_births(planes, best_err, canvas, err, grid, theta, births, brush, search, s, wall, moves, bend, seed, out,
+def place_births(planes, canvas, err, runs_of, grid, theta, births, brush, search, s, wall, moves, bend, seed, out,
                  start_count):
     """Place strokes for one layer from the given birth pixels; returns the stroke count.
 
-    Moves are judged on the evaluation grid ``grid = (planes_c, err_c, f)``: sums over f×f
-    pixel blocks, or the full raster itself when f == 1 (err_c then a float64 copy of err). A
-    stroke is painted only if its exact gain on the raster beats its cost, and then with its
-    exact best paint. ``search`` holds the stroke cost and the refinement's ``tries``,
-    ``patience``, ``probe`` and ``give_up``; strokes go to ``out = (points, vertex counts,
-    paints, gains)`` from position ``start_count`` on.
+    ``runs_of = (rank, allow, toprank)``: each paint's run in this layer (``rank``, (K,)), the
+    table ``allow[r, q] = rank[q] >= r`` and, per pixel, the run of the last stroke of this
+    layer over it (-1 where none; updated). A new stroke of paint q goes into q's run: it
+    shows only where no stroke of a later run covers it, and it is judged by that.
+
+    Moves are judged on the evaluation grid ``grid = (gain_c, f)``: the gain of each paint
+    summed over f×f pixel blocks (kept up to date as strokes are painted), or, when f == 1,
+    on the raster itself (``gain_c`` unused). A stroke is painted only if its exact gain on
+    the raster beats its cost, and then with its exact best paint. ``search`` holds the
+    stroke cost and the refinement's ``tries``, ``patience``, ``probe`` and ``give_up``;
+    strokes go to ``out = (points, vertex counts, paints, gains)`` from position
+    ``start_count`` on.
     """
     np.random.seed(seed)
     h, w, k = planes.shape
-    planes_c, err_c, f = grid
+    rank, allow, toprank = runs_of
+    gain_c, f = grid
     out_pts, out_n, out_paint, out_gain = out
     width_mm = brush.width_mm
     cost = search.cost
     give_up = search.give_up
     s_c = s * f
     runs, row_ab, row_n = footprint_scratch(h, MAX_POINTS)
-    runs_c, row_ab_c, row_n_c = footprint_scratch(planes_c.shape[0], MAX_POINTS)
+    runs_c, row_ab_c, row_n_c = footprint_scratch(gain_c.shape[0], MAX_POINTS)
     sums = np.empty(k, np.float64)
     cur = np.zeros((MAX_POINTS, 2), np.float64)
     cand = np.zeros((MAX_POINTS, 2), np.float64)
@@ -265,7 +318,14 @@ def place_births(planes, best_err, canvas, err, grid, theta, births, brush, sear
             break
         bi = births[b, 0]
         bj = births[b, 1]
-        if err[bi, bj] - best_err[bi, bj] <= 0.0:
+        # room left at the birth pixel for a paint whose run can still show there
+        row = allow[max(toprank[bi, bj], 0)]
+        room = False
+        for q in range(k):
+            if row[q] > 0.0 and planes[bi, bj, q] < err[bi, bj]:
+                room = True
+                break
+        if not room:
             continue
         # start as a dab on the birth pixel; the moves grow it along the isophotes (n typed int64, not
         # the literal 1, so the helpers keep one compiled form)
@@ -274,7 +334,11 @@ def place_births(planes, best_err, canvas, err, grid, theta, births, brush, sear
         cur[0, 1] = _round_grid(min(max((bi + 0.5) * s, 0.0), wall[1]))
         if not _valid(cur, n, brush, wall):
             continue
-        gain, paint, nr = _footprint_gain(cur, n, width_mm, s_c, planes_c, err_c, sums, runs_c, row_ab_c, row_n_c)
+        if f > 1:
+            gain, paint, nr = _block_gain(cur, n, width_mm, s_c, gain_c, sums, runs_c, row_ab_c, row_n_c)
+        else:
+            gain, paint, nr = _footprint_gain(cur, n, width_mm, s, planes, err, toprank, allow, sums, runs, row_ab,
+                                              row_n)
         fails = 0
         for t in range(search.tries):
             if fails >= search.patience:
@@ -292,7 +356,11 @@ def place_births(planes, best_err, canvas, err, grid, theta, births, brush, sear
             if not _valid(cand, m, brush, wall):
                 fails += 1
                 continue
-            g2, q2, _ = _footprint_gain(cand, m, width_mm, s_c, planes_c, err_c, sums, runs_c, row_ab_c, row_n_c)
+            if f > 1:
+                g2, q2, _ = _block_gain(cand, m, width_mm, s_c, gain_c, sums, runs_c, row_ab_c, row_n_c)
+            else:
+                g2, q2, _ = _footprint_gain(cand, m, width_mm, s, planes, err, toprank, allow, sums, runs, row_ab,
+                                            row_n)
             if g2 > gain + 1e-9:
                 gain = g2
                 paint = q2
@@ -303,23 +371,34 @@ def place_births(planes, best_err, canvas, err, grid, theta, births, brush, sear
                 fails = 0
             else:
                 fails += 1
-        if f > 1:
-            if gain <= give_up * cost:
-                continue
-            gain, paint, nr = _footprint_gain(cur, n, width_mm, s, planes, err, sums, runs, row_ab, row_n)
-        elif gain > cost:
-            # the last evaluation may have been a refused move: the kept stroke's pixels again
-            nr = footprint_runs(cur, n, width_mm, s, h, w, runs, row_ab, row_n)
+        if f > 1 and gain <= give_up * cost:
+            continue
+        if f > 1 or gain > cost:
+            # exact, and the last evaluation may have been a refused move: the kept stroke's pixels again
+            gain, paint, nr = _footprint_gain(cur, n, width_mm, s, planes, err, toprank, allow, sums, runs, row_ab,
+                                              row_n)
         if gain > cost:
+            rq = rank[paint]
             for c in range(nr):
                 i = runs[c, 0]
                 for j in range(runs[c, 1], runs[c, 2] + 1):
+                    r_old = toprank[i, j]
+                    if r_old > rq:
+                        continue  # a later run covers it: the stroke is hidden here
                     if f > 1:
-                        err_c[i // f, j // f] += planes[i, j, paint] - err[i, j]
-                    else:
-                        err_c[i, j] = planes[i, j, paint]
+                        # the block's gain for every paint, before and after this pixel changes
+                        bi_ = i // f
+                        bj_ = j // f
+                        old_row = allow[max(r_old, 0)]
+                        new_row = allow[max(rq, 0)]
+                        e_old = np.float64(err[i, j])
+                        e_new = np.float64(planes[i, j, paint])
+                        for q in range(k):
+                            pq = planes[i, j, q]
+                            gain_c[bi_, bj_, q] += new_row[q] * (e_new - pq) - old_row[q] * (e_old - pq)
                     canvas[i, j] = paint
                     err[i, j] = planes[i, j, paint]
+                    toprank[i, j] = rq
             for p in range(n):
                 out_pts[count, p, 0] = cur[p, 0]
                 out_pts[count, p, 1] = cur[p, 1]
@@ -378,24 +457,41 @@ def _visible(st, paint, old_i, old_j, nold, stack, planes, vis_i, vis_j, vis_d, 
 
 
 @njit(cache=True, nogil=True)
-def relax_pass(planes, stack, all_pts, counts, paints, alive, layer_of, thetas, brushes, costs, s, wall, tries, seed,
-               delete, moves, bend):
-    """One relaxation pass over every live stroke, in file order; returns the energy change (≤ 0).
+def stroke_keys(layer_of, paints, ranks):
+    """Painting position of every stroke: layer, then its paint's run in that layer, then its number."""
+    n = layer_of.shape[0]
+    k = ranks.shape[1]
+    out = np.empty(n, np.int64)
+    for t in range(n):
+        out[t] = (layer_of[t] * (k + 1) + ranks[layer_of[t], paints[t]]) * n + t
+    return out
+
+
+@njit(cache=True, nogil=True)
+def relax_pass(planes, stack, all_pts, counts, paints, alive, layer_of, runs_of, thetas, brushes, costs, s, wall,
+               tries, seed, delete, moves, bend):
+    """One relaxation pass over every live stroke; returns the energy change (≤ 0).
 
     ``stack = (top_idx, top_paint, under_idx, under_paint, stale)`` is the per-pixel stroke stack
-    (updated); ``brushes``, ``costs`` and ``thetas`` are indexed by ``layer_of``.
+    (updated) in painting order; ``runs_of = (ranks, allow, keys)``: each paint's run per layer
+    ((L, K)), the tables ``allow[l, r, q] = ranks[l, q] >= r`` and each stroke's painting position
+    (:func:`stroke_keys`, updated when a stroke changes paint and so moves to another run).
+    ``brushes``, ``costs`` and ``thetas`` are indexed by ``layer_of``.
 
     For stroke k, a candidate geometry F' with paint q changes the finished picture only where
-    k is on top after or before the move: pixels of F' not covered by a later stroke take q, and
-    pixels of the old footprint F where k was on top but F' no longer covers show the paint just
-    under k. The (top, under) stack is kept exact after each accepted move except for the
-    "under" of pixels k uncovered (or had been directly under the top): those are marked stale,
-    and a candidate needing a stale "under" is refused until the next pass rebuilds the stack.
-    Deleting k (energy change: the error it uncovers minus its cost) is tried first.
+    k is on top after or before the move: pixels of F' where k, in q's run, lies above every
+    other stroke take q, and pixels of the old footprint F where k was on top but no longer is
+    show the stroke just under k. The (top, under) stack is kept exact after each accepted move
+    except where the "under" became unknown (k uncovered a pixel, had been directly under the
+    top, or went below the stroke under it): those are marked stale, and a candidate needing a
+    stale "under" is refused (or kept from the paints of earlier runs) until the next pass
+    rebuilds the stack. Deleting k (energy change: the error it uncovers minus its cost) is
+    tried first.
     """
     np.random.seed(seed)
     h, w, k = planes.shape
-    top_idx, top_paint, _, _, _ = stack
+    top_idx, top_paint, under_idx, under_paint, stale = stack
+    ranks, allow, keys = runs_of
     n_strokes = counts.shape[0]
     stamp = np.zeros((h, w), np.int32)
     stamp_id = 0
@@ -423,6 +519,12 @@ def relax_pass(planes, stack, all_pts, counts, paints, alive, layer_of, thetas, 
         lay = layer_of[st]
         brush = brushes[lay]
         width = brush.width_mm
+        last_run = 0
+        for q in range(k):
+            last_run = max(last_run, ranks[lay, q])
+        # painting positions: k in the first run of its layer, and the first of the next layer
+        key_first = lay * (k + 1) * n_strokes + st
+        key_next = (lay + 1) * (k + 1) * n_strokes
         n = counts[st]
         for p in range(n):
             cur[p, 0] = all_pts[st, p, 0]
@@ -446,7 +548,7 @@ def relax_pass(planes, stack, all_pts, counts, paints, alive, layer_of, thetas, 
             alive[st] = False
             total += uncover - costs[lay]
             continue
-        # recolour in place, then random local moves; each candidate takes its best paint
+        # recolour in place, then random local moves; each candidate takes its best paint (and that paint's run)
         for t in range(tries + 1):
             m = n
             for p in range(n):
@@ -464,13 +566,43 @@ def relax_pass(planes, stack, all_pts, counts, paints, alive, layer_of, thetas, 
             for q in range(k):
                 sums[q] = 0.0
             base = 0.0
+            # a pixel where k is on top but the stroke under it is unknown: k must not go to an earlier run
+            stale_top = False
             for c in range(nnew):
                 i = new_i[c]
                 j = new_j[c]
-                if top_idx[i, j] <= st:
-                    base -= planes[i, j, top_paint[i, j]]
+                tp = top_idx[i, j]
+                # thr: the lowest run of this layer at which k shows above o, the highest other stroke here
+                # (0: any run; within one run the stroke with the lower number is painted first)
+                if tp == st:
+                    o = under_idx[i, j]
+                    if stale[i, j]:
+                        stale_top = True
+                        o = -1
+                else:
+                    o = tp
+                thr = 0
+                if o >= 0:
+                    ko = keys[o]
+                    if ko >= key_next:
+                        continue  # under a stroke of a later layer, whatever its paint
+                    if ko > key_first:
+                        # same layer: k in run r comes after o when (lay (k + 1) + r) N + st > key of o
+                        thr = (ko - key_first) // n_strokes + 1
+                        if tp != st and thr > last_run:
+                            continue  # under a stroke painted after every run k could go to
+                shown = np.float64(planes[i, j, top_paint[i, j]])
+                if thr == 0:
+                    # k shows here with any paint
+                    base -= shown
                     for q in range(k):
                         sums[q] += planes[i, j, q]
+                else:
+                    # error here: ``hidden`` if k ends below o, paint q's if it shows
+                    hidden = np.float64(planes[i, j, under_paint[i, j]]) if tp == st else shown
+                    base += hidden - shown
+                    for q in range(k):
+                        sums[q] += allow[lay, thr, q] * (planes[i, j, q] - hidden)
             ok = True
             for v in range(nvis):
                 if stamp[vis_i[v], vis_j[v]] != new_id:
@@ -480,9 +612,12 @@ def relax_pass(planes, stack, all_pts, counts, paints, alive, layer_of, thetas, 
                     base += vis_d[v]
             if not ok:
                 continue
-            bq = 0
+            r_cur = ranks[lay, paint]
+            bq = -1
             bd = 1e300
             for q in range(k):
+                if stale_top and ranks[lay, q] < r_cur:
+                    continue
                 if sums[q] < bd:
                     bd = sums[q]
                     bq = q
@@ -496,7 +631,10 @@ def relax_pass(planes, stack, all_pts, counts, paints, alive, layer_of, thetas, 
                     all_pts[st, p, 0] = cand[p, 0]
                     all_pts[st, p, 1] = cand[p, 1]
                 # the old footprint and the stack still describe the stroke as it was: apply now
-                _apply_move(st, bq, new_i, new_j, nnew, old_i, old_j, nold, stamp, new_id, stack)
+                key_new = (lay * (k + 1) + ranks[lay, bq]) * n_strokes + st
+                _apply_move(st, bq, key_new, new_i, new_j, nnew, old_i, old_j, nold, stamp, new_id, stack, keys)
+                keys[st] = key_new
+                paints[st] = bq
                 total += d
                 paint = bq
                 # the applied footprint is the stroke's footprint from here on
@@ -531,17 +669,29 @@ def _uncover(st, old_i, old_j, nold, stamp, keep_id, stack):
 
 
 @njit(cache=True, nogil=True)
-def _apply_move(st, q, new_i, new_j, nnew, old_i, old_j, nold, stamp, new_id, stack):
-    """Update the (top, under) stack after stroke st moved from footprint old to new (stamped new_id) with paint q."""
+def _apply_move(st, q, key_new, new_i, new_j, nnew, old_i, old_j, nold, stamp, new_id, stack, keys):
+    """Update the (top, under) stack after stroke st moved from footprint old to new (stamped new_id) with paint q,
+    and so to painting position ``key_new`` (``keys[st]`` still holds the old one)."""
     _uncover(st, old_i, old_j, nold, stamp, new_id, stack)
     top_idx, top_paint, under_idx, under_paint, stale = stack
+    key_old = keys[st]
     for c in range(nnew):
         i = new_i[c]
         j = new_j[c]
         t = top_idx[i, j]
         if t == st:
-            top_paint[i, j] = q
-        elif t < st:
+            u = under_idx[i, j]
+            if stale[i, j] or u < 0 or keys[u] < key_new:
+                # still on top (a stale pixel only allowed a later run)
+                top_paint[i, j] = q
+            else:
+                # went below the stroke under it; what lies between is unknown
+                top_idx[i, j] = u
+                top_paint[i, j] = under_paint[i, j]
+                under_idx[i, j] = st
+                under_paint[i, j] = q
+                stale[i, j] = True
+        elif t < 0 or keys[t] < key_new:
             under_idx[i, j] = t
             under_paint[i, j] = top_paint[i, j]
             top_idx[i, j] = st
@@ -551,6 +701,9 @@ def _apply_move(st, q, new_i, new_j, nnew, old_i, old_j, nold, stamp, new_id, st
             u = under_idx[i, j]
             if u == st:
                 under_paint[i, j] = q
-            elif u < st:
+                if key_new < key_old:
+                    # it went down: another stroke may now be just under the top
+                    stale[i, j] = True
+            elif u < 0 or keys[u] < key_new:
                 under_idx[i, j] = st
                 under_paint[i, j] = q

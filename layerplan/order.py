@@ -54,7 +54,7 @@ def _must_precede(last, all_pts, starts, counts, paints, width, s):
     return out[:c]
 
 
-def painting_order(points, paints, width_mm: float, mm_per_px: float, shape) -> np.ndarray:
+def painting_order(points, paints, width_mm: float, mm_per_px: float, shape, *, runs=None) -> np.ndarray:
     """A painting order for one layer's strokes that leaves the picture unchanged.
 
     Parameters
@@ -64,6 +64,11 @@ def painting_order(points, paints, width_mm: float, mm_per_px: float, shape) -> 
     width_mm : float
     mm_per_px : float
     shape : (H, W) of the raster
+    runs : sequence of int, optional
+        The layer's paints (palette positions) in the order of their runs, as the placer made
+        the picture for: every stroke of ``runs[0]`` comes first, then every stroke of
+        ``runs[1]``, and so on; strokes are only reordered inside a run (same paint, so the
+        picture cannot change). Every paint of ``paints`` must be in it.
 
     Returns
     -------
@@ -85,6 +90,10 @@ def painting_order(points, paints, width_mm: float, mm_per_px: float, shape) -> 
     if n == 0:
         return np.zeros(0, dtype=np.int64)
     paints = np.asarray(paints, dtype=np.int64)
+    if runs is not None:
+        run_of = {int(q): r for r, q in enumerate(runs)}
+        top_y = np.array([float(p[:, 1].min()) for p in points])
+        return np.lexsort((top_y, [run_of[int(q)] for q in paints])).astype(np.int64)
     counts = np.array([len(p) for p in points], dtype=np.int64)
     starts = np.zeros(n, dtype=np.int64)
     starts[1:] = np.cumsum(counts)[:-1]

@@ -11,10 +11,10 @@ from .coats import with_coats
 from .colour import delta_e00, error_planes, srgb_to_lab
 from .fit import fit_to_wall
 from .ground import choose_ground
-from .layers import layer_specs
+from .layers import DEFAULT_PAINT_RUNS, PAINT_RUNS, layer_specs, paint_runs
 from .order import painting_order, short_travel
 from .palette import lightest_first, palette_from_image
-from .placer import orientation_field, place_layer, prune_strokes, relax_strokes
+from .placer import orientation_field, painting_keys, place_layer, prune_strokes, relax_strokes
 from .plan import Layer, Paint, Plan, Stroke, rgb_to_hex
 from .raster import render_steps
 from .options import check_raster
@@ -83,7 +83,7 @@ def mix_palette(pal_rgb: np.ndarray, pal_lab: np.ndarray, settings: Settings):
     return rgb, lab, [found[chosen[i]].to_dict() for i in order], stock
 
 
-def make_plan(image: np.ndarray, settings: Settings, *, progress=None) -> Plan:
+def make_plan(image: np.ndarray, settings: Settings, *, progress=None, runs: str | None = DEFAULT_PAINT_RUNS) -> Plan:
     """Plan a layered painting of a photo at wall scale.
 
     Parameters
@@ -92,6 +92,12 @@ def make_plan(image: np.ndarray, settings: Settings, *, progress=None) -> Plan:
     settings : Settings
     progress : callable(fraction, message), optional
         Called with non-decreasing fractions in [0, 1].
+    runs : str or None
+        How each layer's paint runs are ordered (a key of :data:`layerplan.layers.PAINT_RUNS`):
+        every paint of a layer is painted in one run, and the strokes are placed for that
+        order; each layer's ``runs`` (plan.json) lists them. None places strokes freely, one on
+        top of the other, and groups them by paint afterwards only where the picture allows
+        (several runs of a paint per layer); the bench compares the two.
 
     Returns
     -------
@@ -107,6 +113,8 @@ def make_plan(image: np.ndarray, settings: Settings, *, progress=None) -> Plan:
     Hertzmann, "Paint by Relaxation", 2001 (energy); Sharma et al. 2005 (CIEDE2000).
     """
     report = progress or _noop
+    if runs is not None and runs not in PAINT_RUNS:
+        raise ValueError(f"runs must be one of {', '.join(PAINT_RUNS)} or None; got {runs!r}")
     settings = settings.validated()
     image = np.asarray(image)
     if image.ndim != 3 or image.shape[2] != 3 or image.dtype != np.uint8:
@@ -156,10 +164,12 @@ def make_plan(image: np.ndarray, settings: Settings, *, progress=None) -> Plan:
         def sub(fraction, message, base=base, label=label):
             report(base + span * min(1.0, fraction), f"{label}: {message}")
 
+        # the order of the layer's paint runs is fixed from the picture before it, then placed for
+        ranks = None if runs is None else paint_runs(runs, planes, err)
         placed.append(place_layer(
             planes, canvas, err, theta, spec.limits, mm_per_px=s, wall_mm=(wall_w, wall_h),
             cost=spec.cost, seed=settings.seed * 7919 + spec.number, progress=sub,
-            tries=spec.tries, patience=spec.patience,
+            tries=spec.tries, patience=spec.patience, ranks=ranks,
         ))
     relax_label = "relaxing strokes against the finished picture"
     report(_P_PREP + _P_LAYERS, relax_label)
@@ -168,40 +178,44 @@ def make_plan(image: np.ndarray, settings: Settings, *, progress=None) -> Plan:
         report(_P_PREP + _P_LAYERS + _P_RELAX * fraction, f"{relax_label}: {message}")
 
     layer_of = np.concatenate([np.full(len(r.points), n) for n, r in enumerate(placed)]).astype(int)
+    ranks_all = np.stack([r.ranks for r in placed])
     all_points, all_paints, alive, _ = relax_strokes(
         planes, ground, [p for r in placed for p in r.points], layer_of, np.concatenate([r.paints for r in placed]),
         [spec.limits for spec in specs], [spec.cost for spec in specs], thetas, mm_per_px=s,
-        wall_mm=(wall_w, wall_h), seed=settings.seed * 7919, progress=relaxed,
+        wall_mm=(wall_w, wall_h), seed=settings.seed * 7919, ranks=ranks_all, progress=relaxed,
     )
     report(_P_PREP + _P_LAYERS + _P_RELAX, "taking away strokes later ones hid")
+    # painting order: layer by layer, run by run (relaxation may have moved a stroke to another paint's run)
     live = np.flatnonzero(alive)
+    live = live[np.argsort(painting_keys(layer_of, all_paints, ranks_all)[live], kind="stable")]
     keep = np.zeros(len(alive), dtype=bool)
     keep[live] = prune_strokes(
         planes, ground, [all_points[i] for i in live], np.array([specs[n].limits.width_mm for n in layer_of[live]]),
         all_paints[live], mm_per_px=s,
     )
-    offset = 0
-    for result in placed:
-        m = len(result.points)
-        result.points = all_points[offset : offset + m]
-        result.paints = all_paints[offset : offset + m]
-        offset += m
+    painted = live[keep[live]]
     report(0.97, "ordering strokes for painting")
     layers = []
-    offset = 0
-    for spec, result in zip(specs, placed):
-        kept = np.flatnonzero(keep[offset : offset + len(result.points)])
-        offset += len(result.points)
-        points = [result.points[i] for i in kept]
-        paints = result.paints[kept]
-        order = painting_order(points, paints, spec.limits.width_mm, s, (height_px, width_px))
+    for n, spec in enumerate(specs):
+        mine = painted[layer_of[painted] == n]
+        points = [all_points[i] for i in mine]
+        paints = all_paints[mine]
+        extra = {}
+        if runs is None:
+            order = painting_order(points, paints, spec.limits.width_mm, s, (height_px, width_px))
+        else:
+            # the layer's paints in run order; painting_order keeps each run together, ordering only inside it
+            run_paints = [int(q) for q in np.argsort(ranks_all[n]) if np.any(paints == q)]
+            order = painting_order(points, paints, spec.limits.width_mm, s, (height_px, width_px), runs=run_paints)
+            extra["runs"] = [{"paint": ids[q], "strokes": int(np.count_nonzero(paints == q))} for q in run_paints]
         points, paints = [points[i] for i in order], paints[order]
+        # inside each run (one paint, so the picture does not depend on it) a short path for the brush
         travel = short_travel(points, paints, reach_mm=settings.reach_mm, wall_width_mm=wall_w,
                               width_mm=spec.limits.width_mm, mm_per_px=s, shape=(height_px, width_px))
         strokes = [Stroke(paint=ids[int(paints[i])], width_mm=spec.limits.width_mm, path_mm=path)
                    for i, path in zip(travel.order, travel.paths(points))]
-        layers.append(Layer(brush_width_mm=spec.limits.width_mm, strokes=strokes,
-                            extra={"travel": travel.to_dict()}))
+        extra["travel"] = travel.to_dict()
+        layers.append(Layer(brush_width_mm=spec.limits.width_mm, strokes=strokes, extra=extra))
     plan = Plan(
         wall_width_mm=wall_w, wall_height_mm=wall_h, width_px=width_px, height_px=height_px, mm_per_px=s,
         palette=palette, ground=ids[ground], layers=layers, wall_unit=settings.wall_unit,

@@ -16,6 +16,12 @@ Brushes much wider than a few pixels are refined on block sums of the planes and
 checked exactly before they are painted. After the last layer, `relax_strokes`
 revisits every stroke against the finished picture.
 
+One run per paint: a layer paints each paint in one run, in an order fixed before it is
+placed (``ranks``). A new stroke is slotted into its paint's run, under the strokes of later
+runs already placed, and judged only by the pixels where it will show; relaxation and the
+clean-up use the same painting order (`painting_keys`), so the picture optimised is the one
+painted run by run.
+
 This module is the Python side: it checks and packs the inputs of the compiled kernels in
 :mod:`layerplan._placer_kernels`. A brush's limits reach them as one record
 (:data:`BRUSH_RECORD`, packed by :func:`brush_records`), so a new limit is a field of
@@ -160,9 +166,42 @@ def orientation_field(lab: np.ndarray, sigma_px: float) -> np.ndarray:
     return np.ascontiguousarray(phi + 0.5 * np.pi)
 
 
+def run_table(ranks) -> np.ndarray:
+    """``allow[..., r, q] = ranks[..., q] >= r`` for r = 0 … K, as float64 (the kernels multiply by it).
+
+    Parameters
+    ----------
+    ranks : (K,) or (L, K) int array, the run of each paint (per layer)
+
+    Returns
+    -------
+    allow : (K + 1, K) or (L, K + 1, K) float64 array
+    """
+    ranks = np.asarray(ranks, dtype=np.int64)
+    k = ranks.shape[-1]
+    r = np.arange(k + 1).reshape((k + 1, 1))
+    return np.ascontiguousarray((ranks[..., None, :] >= r).astype(np.float64))
+
+
+def check_ranks(ranks, k: int) -> np.ndarray:
+    """``ranks`` as a (K,) int64 array of runs 0 … K − 1; None means one run for all paints.
+
+    Raises
+    ------
+    ValueError
+        If ``ranks`` has the wrong length or is not a permutation of 0 … K − 1 (nor all zero).
+    """
+    if ranks is None:
+        return np.zeros(k, dtype=np.int64)
+    ranks = np.asarray(ranks, dtype=np.int64)
+    if ranks.shape != (k,) or not (np.array_equal(np.sort(ranks), np.arange(k)) or not ranks.any()):
+        raise ValueError(f"paint runs must give each of the {k} paints its own run 0 … {k - 1}, got {ranks.tolist()}")
+    return ranks
+
+
 @dataclass
 class LayerResult:
-    """Strokes placed in one layer (before ordering)."""
+    """Strokes placed in one layer, in placing order; painted run by run (``ranks``) they show as placed."""
 
     points: list[np.ndarray]
     paints: np.ndarray
@@ -170,10 +209,13 @@ class LayerResult:
     error_before: float
     error_after: float
     cost: float
+    #: (K,) the run of each paint in this layer (all zero: one run for every paint, painted as placed)
+    ranks: np.ndarray = None
 
 
 def place_layer(planes, canvas, err, theta, limits: BrushLimits, *, mm_per_px: float, wall_mm, cost: float,
-                seed: int, rounds: int = 10, tries: int = 300, patience: int = 80, progress=None) -> LayerResult:
+                seed: int, rounds: int = 10, tries: int = 300, patience: int = 80, ranks=None,
+                progress=None) -> LayerResult:
     """Place one layer's strokes on the canvas, in place.
 
     Parameters
@@ -192,27 +234,39 @@ def place_layer(planes, canvas, err, theta, limits: BrushLimits, *, mm_per_px: f
         Birth rounds; each samples new births where the remaining error is largest.
     tries, patience : int
         Refinement moves per stroke, and how many failures in a row end it.
+    ranks : (K,) int array, optional
+        The layer's paint order: paint q is painted in run ``ranks[q]`` (a permutation of
+        0 … K − 1), each paint's strokes together. Every new stroke goes into its paint's run,
+        under the strokes of later runs placed before it, and is judged by what shows. None:
+        no runs, each stroke painted after the ones placed before it.
     progress : callable(fraction, message), optional
 
     Returns
     -------
     LayerResult
+        The canvas and ``err`` are the picture after the layer painted run by run.
+
+    Raises
+    ------
+    ValueError
+        If ``ranks`` is not a permutation of the paints' positions.
 
     References
     ----------
     Hertzmann (2001), "Paint by Relaxation".
     """
     h, w, k = planes.shape
-    best_err = planes.min(axis=2)
+    ranks = check_ranks(ranks, k)
+    allow = run_table(ranks)
+    toprank = np.full((h, w), -1, dtype=np.int64)
     rng = np.random.default_rng(seed)
     w_px = limits.width_mm / mm_per_px
     f = max(1, int(w_px // EVAL_BRUSH_PX))
-    # one compiled form for both cases: the search grid's error is always float64
     if f > 1:
-        planes_c = block_sums(planes, f)
-        err_c = block_sums(err, f).astype(np.float64)
+        # the gain of each paint per block; no stroke of this layer yet, so every paint shows everywhere
+        gain_c = block_sums(err, f).astype(np.float64)[..., None] - block_sums(planes, f).astype(np.float64)
     else:
-        planes_c, err_c = planes, err.astype(np.float64)
+        gain_c = np.zeros((1, 1, k), dtype=np.float64)
     per_round = max(16, int(h * w / max(1.0, w_px * w_px)))
     max_strokes = per_round * rounds
     out_pts = np.zeros((max_strokes, MAX_POINTS, 2))
@@ -220,7 +274,8 @@ def place_layer(planes, canvas, err, theta, limits: BrushLimits, *, mm_per_px: f
     out_paint = np.zeros(max_strokes, np.int64)
     out_gain = np.zeros(max_strokes, np.float64)
     out = (out_pts, out_n, out_paint, out_gain)
-    grid = (planes_c, err_c, f)
+    grid = (gain_c, f)
+    runs_of = (ranks, allow, toprank)
     brush = brush_records([limits])[0]
     search = np.array((cost, tries, patience, PROBE, GIVE_UP), dtype=SEARCH_RECORD)[()]
     wall = (float(wall_mm[0]), float(wall_mm[1]))
@@ -228,8 +283,7 @@ def place_layer(planes, canvas, err, theta, limits: BrushLimits, *, mm_per_px: f
     before = float(err.sum(dtype=np.float64))
     count = 0
     for r in range(rounds):
-        room = (err - best_err).ravel().astype(np.float64)
-        np.maximum(room, 0.0, out=room)
+        room = kernels.layer_room(planes, err, toprank, allow)
         total = room.sum()
         if total <= cost:
             break
@@ -240,7 +294,7 @@ def place_layer(planes, canvas, err, theta, limits: BrushLimits, *, mm_per_px: f
         births = np.stack([flat // w, flat % w], axis=1).astype(np.int64)
         prev = count
         count = kernels.place_births(
-            planes, best_err, canvas, err, grid, theta, births, brush, search, float(mm_per_px), wall, moves,
+            planes, canvas, err, runs_of, grid, theta, births, brush, search, float(mm_per_px), wall, moves,
             PLACE_BEND, int(seed * 1000 + r), out, count,
         )
         if progress is not None:
@@ -256,7 +310,24 @@ def place_layer(planes, canvas, err, theta, limits: BrushLimits, *, mm_per_px: f
         error_before=before,
         error_after=float(err.sum(dtype=np.float64)),
         cost=float(cost),
+        ranks=ranks,
     )
+
+
+def painting_keys(layer_of, paints, ranks) -> np.ndarray:
+    """Where each stroke comes in the painting: by layer, then its paint's run in the layer, then its number.
+
+    Parameters
+    ----------
+    layer_of, paints : (N,) int arrays
+    ranks : (L, K) int array, the run of each paint per layer
+
+    Returns
+    -------
+    keys : (N,) int64 array; sorting the strokes by it gives the painting (file) order
+    """
+    return kernels.stroke_keys(np.asarray(layer_of, dtype=np.int64), np.asarray(paints, dtype=np.int64),
+                               np.ascontiguousarray(ranks, dtype=np.int64))
 
 
 def prune_strokes(planes, ground: int, points, widths, paints, *, mm_per_px: float, max_passes: int = 30):
@@ -321,21 +392,23 @@ def prune_strokes(planes, ground: int, points, widths, paints, *, mm_per_px: flo
 
 def relax_strokes(planes, ground: int, points, layer_of, paints, limits, costs, thetas, *, mm_per_px: float,
                   wall_mm, seed: int, passes: int = RELAX_PASSES, tries: int = RELAX_TRIES, delete: bool = RELAX_DELETE,
-                  progress=None):
+                  ranks=None, progress=None):
     """Revisit every stroke of the finished picture and keep local moves that lower its energy.
 
-    After all layers are placed, each stroke in turn (file order) may be deleted, recoloured,
-    shifted, turned, lengthened, shortened or bent; a change is kept only if it lowers the
-    energy of the *finished* picture, Σ ΔE00 + cost per stroke. Strokes are opaque and painted
-    in file order, so a change to stroke k shows only where no later stroke covers it; a
-    per-pixel stack (top stroke, and the stroke and paint just under it) gives the exact
-    change. The stack is rebuilt before each pass.
+    After all layers are placed, each stroke in turn may be deleted, recoloured, shifted,
+    turned, lengthened, shortened or bent; a change is kept only if it lowers the energy of
+    the *finished* picture, Σ ΔE00 + cost per stroke. Strokes are opaque and painted in
+    order — by layer, then by their paint's run in the layer (``ranks``), then by number
+    (:func:`painting_keys`) — so a change to stroke k shows only where no stroke painted after
+    it covers it; a recoloured stroke moves to its new paint's run. A per-pixel stack (top
+    stroke, and the stroke and paint just under it) gives the exact change. The stack is
+    rebuilt before each pass.
 
     Parameters
     ----------
     planes : (H, W, K) float32 array
     ground : int, palette position of the ground
-    points : list of (n_i, 2) arrays in wall mm, in file order over all layers
+    points : list of (n_i, 2) arrays in wall mm, layer after layer (placing order within a layer)
     layer_of : (N,) int array, layer position of each stroke (into ``limits``, ``costs``, ``thetas``)
     paints : (N,) int array
     limits : list of BrushLimits, one per layer
@@ -350,6 +423,9 @@ def relax_strokes(planes, ground: int, points, layer_of, paints, limits, costs, 
         Random local moves tried per stroke and pass (default `RELAX_TRIES`).
     delete : bool
         Whether deleting a stroke is one of the moves (default `RELAX_DELETE`: off).
+    ranks : (L, K) int array, optional
+        The run of each paint per layer (see `place_layer`); None: no runs, strokes painted in
+        the order given.
     progress : callable(fraction, message), optional
         Called after each pass.
 
@@ -369,8 +445,12 @@ def relax_strokes(planes, ground: int, points, layer_of, paints, limits, costs, 
     paints = np.asarray(paints, dtype=np.int64).copy()
     if n == 0:
         return [], paints, alive, 0.0
-    h, w, _ = planes.shape
+    h, w, k = planes.shape
     layer_of = np.asarray(layer_of, dtype=np.int64)
+    if ranks is None:
+        ranks = np.zeros((len(limits), k), dtype=np.int64)
+    ranks = np.ascontiguousarray(np.stack([check_ranks(r, k) for r in ranks]))
+    allow = run_table(ranks)
     counts = np.array([len(p) for p in points], dtype=np.int64)
     pts3 = np.zeros((n, MAX_POINTS, 2), dtype=np.float64)
     for i, p in enumerate(points):
@@ -383,17 +463,24 @@ def relax_strokes(planes, ground: int, points, layer_of, paints, limits, costs, 
     moves = _cumulative(RELAX_MOVES)
     change = 0.0
     for r in range(passes):
-        counts_c = counts.copy()
+        keys = painting_keys(layer_of, paints, ranks)
+        # the stack is built in painting order, then its stroke numbers mapped back
+        order = np.argsort(keys, kind="stable")
+        counts_o = counts[order]
         starts = np.zeros(n, dtype=np.int64)
-        starts[1:] = np.cumsum(counts_c)[:-1]
-        flat = np.ascontiguousarray(np.concatenate([pts3[i, : counts_c[i]] for i in range(n)]))
-        top_idx, top_paint, under_paint, under_idx = stack_tops(
-            h, w, float(mm_per_px), flat, starts, counts_c, widths[layer_of], paints, alive, int(ground))
+        starts[1:] = np.cumsum(counts_o)[:-1]
+        flat = np.ascontiguousarray(np.concatenate([pts3[i, : counts[i]] for i in order]))
+        top_o, top_paint, under_paint, under_o = stack_tops(
+            h, w, float(mm_per_px), flat, starts, counts_o, widths[layer_of[order]], paints[order], alive[order],
+            int(ground))
+        back = np.append(order, -1)  # position -1 (no stroke) stays -1
+        top_idx = back[top_o]
+        under_idx = back[under_o]
         stale = np.zeros((h, w), dtype=np.bool_)
         stack = (top_idx, top_paint, under_idx, under_paint, stale)
         change += kernels.relax_pass(
-            planes, stack, pts3, counts, paints, alive, layer_of, th, brushes, costs, float(mm_per_px), wall,
-            int(tries), int(seed * 1000 + r), bool(delete), moves, RELAX_BEND)
+            planes, stack, pts3, counts, paints, alive, layer_of, (ranks, allow, keys), th, brushes, costs,
+            float(mm_per_px), wall, int(tries), int(seed * 1000 + r), bool(delete), moves, RELAX_BEND)
         if progress is not None:
             progress((r + 1) / passes, f"pass {r + 1} of {passes}")
     return [pts3[i, : counts[i]].copy() for i in range(n)], paints, alive, float(change)

@@ -12,6 +12,10 @@ version 1). The names and meanings below must hold because other tools read them
                  "strokes": [{"paint": "P2", "width_mm": 100.0,
                               "path_mm": [[x, y], ...], "coats": 2}, ...]}, ...]}
 
+Optional per layer: ``"runs": [{"paint": "P4", "strokes": 120}, ...]``, the layer's paints
+in painting order, each painted in one run of that many strokes; the strokes of a run are
+consecutive in ``strokes``, runs in this order (absent in plans made before runs).
+
 Coordinates are wall millimetres, origin top-left, x right, y down. A stroke's
 ``coats`` (a whole number >= 1) is how many coats it takes to hide what it covers
 (:mod:`layerplan.coats`); it is written only when more than 1, and a stroke without it

@@ -294,3 +294,25 @@ def test_the_layer_sheet_says_the_travel(small_plan):
     # figures in the wall's unit, as plan.json gives them
     assert f"{t['lifted_m']:g} m lifted" in line and f"paints {t['painted_m']:g} m" in line
     assert "1 m squares" in line and f"{t['zone_visits']} set-up" in line
+
+
+def test_given_runs_stay_together_in_their_order_and_keep_the_picture():
+    # One run per paint: the placer made the layer's picture for its paints painted run by run, so the order
+    # must keep each paint's strokes together, runs in the order given, and may only reorder inside a run
+    # (same paint: the picture cannot change); within a run, top of the wall first (common practice: drips
+    # fall on unpainted wall)
+    width, s, shape = 18.0, 2.0, (100, 100)
+    for seed in range(4):
+        pts, paints = _random_strokes(120, seed)
+        runs = list(np.random.default_rng(seed).permutation(4))
+        run_of = np.array([runs.index(q) for q in range(4)])
+        placed_for = np.argsort(run_of[paints], kind="stable")  # the order the placer judged strokes in
+        order = painting_order(pts, paints, width, s, shape, runs=runs)
+        assert sorted(order.tolist()) == list(range(len(pts)))
+        assert list(dict.fromkeys(paints[order].tolist())) == [int(q) for q in runs]
+        assert _switches(paints[order]) == len(runs) - 1
+        assert np.array_equal(_render(pts, paints, order, width, s, shape),
+                              _render(pts, paints, placed_for, width, s, shape))
+        for q in runs:
+            ys = [pts[i][:, 1].min() for i in order if paints[i] == q]
+            assert ys == sorted(ys)

@@ -1,5 +1,7 @@
 """make_plan end to end on small synthetic images with known answers."""
 
+import dataclasses
+
 import numpy as np
 import pytest
 from sklearn.cluster import KMeans
@@ -10,6 +12,7 @@ from layerplan.fit import fit_to_wall
 from layerplan.ground import choose_ground
 from layerplan.palette import N_INIT, kmeans_lab, palette_from_image, sample_pixels
 from layerplan.pipeline import make_plan
+from layerplan.plan import Plan
 from layerplan.raster import render
 from layerplan.settings import Settings, choose_mm_per_px
 
@@ -125,3 +128,76 @@ def test_default_pixel_size_spans_the_narrowest_brush_and_caps_the_raster():
 def test_bad_settings_are_refused(kw, message):
     with pytest.raises(ValueError, match=message):
         make_plan(quadrants(), Settings(**{**dict(wall_width_mm=800.0, wall_height_mm=600.0), **kw}))
+
+
+def _runs(strokes):
+    """The paints of a stroke list as runs: [(paint, number of strokes in a row), ...]."""
+    out = []
+    for s in strokes:
+        if out and out[-1][0] == s.paint:
+            out[-1][1] += 1
+        else:
+            out.append([s.paint, 1])
+    return [tuple(r) for r in out]
+
+
+def _blobs(seed=1, h=60, w=80):
+    rng = np.random.default_rng(seed)
+    img = np.full((h, w, 3), (225, 215, 190), np.uint8)
+    yy, xx = np.mgrid[:h, :w]
+    for colour in ([170, 40, 40], [40, 80, 160], [60, 130, 60], [30, 30, 30], [230, 190, 60]):
+        for _ in range(3):
+            cy, cx, r = rng.integers(0, h), rng.integers(0, w), rng.integers(4, 12)
+            img[(yy - cy) ** 2 + (xx - cx) ** 2 < r * r] = colour
+    return (img.astype(int) + rng.integers(-12, 13, size=img.shape)).clip(0, 255).astype(np.uint8)
+
+
+@pytest.fixture(scope="module")
+def runs_plan():
+    return make_plan(_blobs(), Settings(paints=6, seed=2, free_palette=True, stroke_cost=2.0, **SMALL))
+
+
+def test_each_layer_paints_each_of_its_paints_in_one_run(runs_plan):
+    # one brush wash per paint and layer: the runs in the stroke list are as many as the layer's paints,
+    # in the order and of the sizes plan.json's "runs" gives; the sheet's order and the time estimate count
+    # exactly those runs (layerplan.sheets.layer_time_s: strokes, length and one paint change per run)
+    from layerplan.sheets import (PAINT_CHANGE_SECONDS, SECONDS_PER_STROKE, STROKE_MM_PER_SECOND, build_sheets,
+                                  layer_time_s)
+
+    plan = Plan.from_json(runs_plan.to_json())
+    assert sum(len(layer.strokes) > 0 for layer in plan.layers) >= 2
+    sheets = build_sheets(plan)
+    for layer, sheet in zip(plan.layers, sheets.layers):
+        runs = _runs(layer.strokes)
+        assert len(runs) == len({s.paint for s in layer.strokes})
+        assert runs == [(r["paint"], r["strokes"]) for r in layer.extra["runs"]]
+        if layer.strokes:
+            assert sheet.lead.endswith("Paint in this order: " + " → ".join(p for p, _ in runs) + ".")
+        # each coat of a stroke is painted again (layerplan.coats), with no wash between coats of one paint
+        moving = (sum(s.coats for s in layer.strokes) * SECONDS_PER_STROKE
+                  + sum(s.length_mm() * s.coats for s in layer.strokes) / STROKE_MM_PER_SECOND)
+        assert layer_time_s(layer) - moving == pytest.approx(len(runs) * PAINT_CHANGE_SECONDS)
+
+
+def test_the_picture_after_each_layer_does_not_depend_on_the_order_inside_a_run(runs_plan):
+    # the rendering rule (layerplan.raster: opaque strokes in file order) gives the same wall after every layer
+    # whatever the order inside each run; the run order itself matters (so it is fixed in plan.json)
+    from layerplan.raster import render_steps
+
+    steps = render_steps(runs_plan)
+    rng = np.random.default_rng(0)
+    shuffled, swapped = [], []
+    for layer in runs_plan.layers:
+        key = {r["paint"]: n for n, r in enumerate(layer.extra["runs"])}
+        inside = np.lexsort((rng.random(len(layer.strokes)), [key[s.paint] for s in layer.strokes]))
+        shuffled.append(dataclasses.replace(layer, strokes=[layer.strokes[i] for i in inside]))
+        backwards = np.argsort([-key[s.paint] for s in layer.strokes], kind="stable")
+        swapped.append(dataclasses.replace(layer, strokes=[layer.strokes[i] for i in backwards]))
+    for a, b in zip(steps, render_steps(dataclasses.replace(runs_plan, layers=shuffled))):
+        assert np.array_equal(a, b)
+    assert any(not np.array_equal(a, b) for a, b in zip(steps, render_steps(dataclasses.replace(runs_plan, layers=swapped))))
+
+
+def test_unknown_run_rule_is_refused():
+    with pytest.raises(ValueError, match="runs must be one of largest first, lightest first, darkest first"):
+        make_plan(quadrants(), Settings(paints=4, **SMALL), runs="by colour")

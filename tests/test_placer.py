@@ -259,3 +259,105 @@ def test_block_sums_add_up_every_pixel_once():
         for j in range(4):
             assert np.allclose(b[i, j], a[4 * i : 4 * i + 4, 4 * j : 4 * j + 4].sum(axis=(0, 1)), rtol=1e-6)
     assert np.isclose(b.sum(dtype=np.float64), a.sum(dtype=np.float64), rtol=1e-6)
+
+
+def _render_in_order(planes, s, widths, points, paints, order, canvas=None):
+    """Paint strokes opaque in the given order by the rendering rule (layerplan.raster.stroke_mask)."""
+    idx = np.zeros(planes.shape[:2], np.int64) if canvas is None else canvas.astype(np.int64).copy()
+    for k in order:
+        idx[stroke_mask(points[k], widths[k], s, idx.shape)] = paints[k]
+    return idx
+
+
+@pytest.mark.parametrize("s, width, cost", [(4.0, 12.0, 20.0), (2.0, 24.0, 400.0)])
+def test_strokes_placed_into_runs_show_as_placed_when_painted_run_by_run(s, width, cost):
+    # One run per paint: the layer is painted paint by paint in the order `ranks` gives, each run's strokes
+    # together. The placer slots every stroke into its paint's run, so the picture it builds must be the one
+    # the rendering rule paints run by run, and the gains it reports must add up to the error it removed
+    # (energy of Hertzmann 2001). The second case runs the coarse search grid of wide brushes.
+    img = _noisy_blobs(seed=2)
+    pal = [[230, 220, 200], [180, 40, 40], [40, 90, 170], [60, 140, 60]]
+    lab, planes = _setup(img, pal)
+    ranks = np.array([3, 0, 2, 1])  # red first, then green, then blue, the light paint last
+    canvas = np.zeros(img.shape[:2], np.int16)
+    err = np.ascontiguousarray(planes[:, :, 0])
+    res = place_layer(planes, canvas, err, orientation_field(lab, 0.5 * width / s), BrushLimits.for_brush(width),
+                      mm_per_px=s, wall_mm=(img.shape[1] * s, img.shape[0] * s), cost=cost, seed=3, ranks=ranks)
+    assert len(res.points) > 5
+    assert list(res.ranks) == list(ranks)
+    # the placer had to slot strokes under later runs: placing order is not run order
+    assert np.any(np.diff(ranks[res.paints]) < 0)
+    run_order = np.argsort(ranks[res.paints], kind="stable")
+    widths = [width] * len(res.points)
+    painted = _render_in_order(planes, s, widths, res.points, res.paints, run_order)
+    assert np.array_equal(painted, canvas)
+    # any order inside a run paints the same picture
+    shuffled = np.lexsort((np.random.default_rng(0).random(len(res.points)), ranks[res.paints]))
+    assert np.array_equal(_render_in_order(planes, s, widths, res.points, res.paints, shuffled), canvas)
+    rows, cols = np.indices(canvas.shape)
+    assert planes[rows, cols, painted].sum(dtype=float) == pytest.approx(
+        res.error_before - res.gains.sum(), rel=1e-5)
+    assert (res.gains > cost).all()
+
+
+def test_paint_runs_must_be_a_permutation():
+    img = _noisy_blobs(seed=2)
+    pal = [[230, 220, 200], [180, 40, 40], [40, 90, 170], [60, 140, 60]]
+    lab, planes = _setup(img, pal)
+    canvas = np.zeros(img.shape[:2], np.int16)
+    err = np.ascontiguousarray(planes[:, :, 0])
+    with pytest.raises(ValueError, match="paint runs must give each of the 4 paints its own run"):
+        place_layer(planes, canvas, err, orientation_field(lab, 1.0), BrushLimits.for_brush(12.0), mm_per_px=4.0,
+                    wall_mm=(256.0, 192.0), cost=20.0, seed=0, ranks=[0, 0, 1, 2])
+
+
+def test_relaxation_in_runs_lowers_the_energy_painted_run_by_run_by_what_it_reports():
+    # With runs, the painting order is layer, then the paint's run in that layer, then stroke number
+    # (placer.painting_keys); a recoloured stroke moves to its new paint's run. The energy of the finished
+    # picture painted in that order, recomputed from scratch (Hertzmann 2001), must fall by what relaxation says.
+    from layerplan.placer import painting_keys, relax_strokes
+
+    img = _noisy_blobs(seed=6)
+    pal = [[230, 220, 200], [180, 40, 40], [40, 90, 170], [60, 140, 60]]
+    lab, planes = _setup(img, pal)
+    s = 4.0
+    wall = (img.shape[1] * s, img.shape[0] * s)
+    canvas = np.zeros(img.shape[:2], np.int16)
+    err = np.ascontiguousarray(planes[:, :, 0])
+    ranks = np.array([[3, 0, 2, 1], [0, 3, 1, 2]])
+    limits, costs, thetas, points, paints, layer_of = [], [], [], [], [], []
+    for n, width in enumerate((24.0, 12.0)):
+        lim = BrushLimits.for_brush(width)
+        theta = orientation_field(lab, 0.5 * width / s)
+        cost = 5.0 * (width / s) ** 2
+        res = place_layer(planes, canvas, err, theta, lim, mm_per_px=s, wall_mm=wall, cost=cost, seed=n,
+                          ranks=ranks[n])
+        limits.append(lim)
+        costs.append(cost)
+        thetas.append(theta)
+        points += res.points
+        paints += list(res.paints)
+        layer_of += [n] * len(res.points)
+    paints, layer_of = np.array(paints), np.array(layer_of)
+    widths = [limits[n].width_mm for n in layer_of]
+
+    def energy(pts, q, alive):
+        order = [k for k in np.argsort(painting_keys(layer_of, q, ranks), kind="stable") if alive[k]]
+        idx = _render_in_order(planes, s, widths, pts, q, order)
+        rows, cols = np.indices(idx.shape)
+        return planes[rows, cols, idx].sum(dtype=float) + sum(costs[layer_of[k]] for k in order)
+
+    # the placer's picture is the one painted run by run
+    order = np.argsort(painting_keys(layer_of, paints, ranks), kind="stable")
+    assert np.array_equal(_render_in_order(planes, s, widths, points, paints, order), canvas)
+    # give every other stroke a wrong paint, so relaxation has strokes to recolour, i.e. to move between runs
+    paints = np.where(np.arange(len(paints)) % 2 == 1, (paints + 1) % 4, paints)
+    before = energy(points, paints, np.ones(len(points), bool))
+    new_pts, new_paints, alive, change = relax_strokes(
+        planes, 0, points, layer_of, paints, limits, costs, thetas, mm_per_px=s, wall_mm=wall, seed=1,
+        passes=3, tries=40, ranks=ranks)
+    assert change < 0.0
+    assert energy(new_pts, new_paints, alive) - before == pytest.approx(change, rel=1e-4, abs=1e-2)
+    assert np.count_nonzero(new_paints != paints) >= 3  # strokes changed paint, and so run
+    for p, lay in zip(new_pts, layer_of):
+        _assert_within(p, limits[lay], wall)
