@@ -150,3 +150,16 @@ def test_without_weasyprint_the_plan_is_still_written_and_the_cli_says_why(monke
         assert "plan.pdf was not written" in capsys.readouterr().err
     finally:
         pdf.unavailable.cache_clear()
+
+
+def test_the_web_page_offers_the_pdf(client):
+    from conftest import plan_form, wait_for_plan
+
+    plan_id = client.post("/api/plans", data=plan_form(pixel_mm="5")).get_json()["id"]
+    final = wait_for_plan(client, plan_id)[-1]
+    assert final["state"] == "done" and "plan.pdf" in final["files"]
+    page = client.get(f"/plans/{plan_id}").get_data(as_text=True)
+    assert 'id="dl-plan-pdf"' in page and 'type="application/pdf"' in page
+    served = client.get(final["files"]["plan.pdf"])
+    assert served.status_code == 200 and served.mimetype == "application/pdf"
+    assert len(PdfReader(io.BytesIO(served.data)).pages) >= 7
