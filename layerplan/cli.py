@@ -63,10 +63,10 @@ def _parser() -> argparse.ArgumentParser:
 
 
 def cmd_plan(args) -> int:
+    from .caveats import raster_warnings
     from .export import check_destination, write_outputs
     from .inventory import default_inventory, load_inventory
     from .load import load_image
-    from .caveats import raster_warnings
     from .pipeline import make_plan
     from .progress import TerminalBar
     from .settings import Settings
