@@ -21,6 +21,7 @@ References
 
 from __future__ import annotations
 
+from contextlib import contextmanager
 from functools import lru_cache
 
 #: the only kind of URL the printed plan holds (pictures are data URIs); anything else is refused,
@@ -30,6 +31,23 @@ _ALLOWED_SCHEMES = ("data",)
 SYSTEM_PACKAGES = ("libpango-1.0-0", "libpangoft2-1.0-0", "libharfbuzz-subset0")
 
 
+@contextmanager
+def _pillow_untouched():
+    """Keep Pillow's process-wide ``LOAD_TRUNCATED_IMAGES`` as it was.
+
+    WeasyPrint sets it to True when its image module is imported, which would make every
+    later photo load in the process (layerplan.load, the web app's workers) accept cut-short
+    files. The printed plan's pictures are whole PNGs of our own, so WeasyPrint needs no leniency.
+    """
+    from PIL import ImageFile
+
+    before = ImageFile.LOAD_TRUNCATED_IMAGES
+    try:
+        yield
+    finally:
+        ImageFile.LOAD_TRUNCATED_IMAGES = before
+
+
 @lru_cache(maxsize=1)
 def unavailable() -> str | None:
     """Why plan.pdf cannot be made on this machine, or None when it can.
@@ -37,7 +55,9 @@ def unavailable() -> str | None:
     WeasyPrint loads Pango when it is imported; a missing library is an ``OSError`` there.
     """
     try:
-        import weasyprint  # noqa: F401
+        with _pillow_untouched():
+            import weasyprint  # noqa: F401
+            import weasyprint.images  # noqa: F401  (the module that changes Pillow's setting)
     except ImportError:
         return "WeasyPrint is not installed (pip install weasyprint)"
     except OSError as exc:
@@ -77,4 +97,5 @@ def plan_pdf(html: str) -> bytes:
     from weasyprint.urls import URLFetcher
 
     fetcher = URLFetcher(allowed_protocols=_ALLOWED_SCHEMES)
-    return HTML(string=html, base_url=None, url_fetcher=fetcher, media_type="print").write_pdf()
+    with _pillow_untouched():
+        return HTML(string=html, base_url=None, url_fetcher=fetcher, media_type="print").write_pdf()

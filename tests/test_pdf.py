@@ -129,6 +129,19 @@ def test_only_pictures_inside_the_file_are_drawn(tmp_path):
     assert len(drawn.images) == 1 and len(refused.images) == 0
 
 
+def test_making_a_pdf_leaves_pillow_refusing_truncated_photos(printed):
+    from PIL import ImageFile
+
+    from layerplan.load import ImageError, load_image
+
+    pdf.plan_pdf(printed[0])
+    assert ImageFile.LOAD_TRUNCATED_IMAGES is False  # Pillow's default, which layerplan.load relies on
+    buf = io.BytesIO()
+    Image.fromarray(quadrants(64, 64)).save(buf, format="PNG")
+    with pytest.raises(ImageError, match="truncated or corrupt"):
+        load_image(buf.getvalue()[: len(buf.getvalue()) // 2])
+
+
 def test_the_same_html_gives_the_same_bytes(printed):
     assert pdf.plan_pdf(printed[0]) == printed[1]
 
