@@ -66,6 +66,7 @@ def _parser() -> argparse.ArgumentParser:
 
 
 def cmd_plan(args) -> int:
+    from .caveats import raster_warnings
     from .export import check_destination, write_outputs
     from .inventory import default_inventory, load_inventory
     from .load import load_image
@@ -87,7 +88,9 @@ def cmd_plan(args) -> int:
     except ValueError as exc:  # the message names the file, line and field
         raise UsageError(f"--inventory: {exc}") from exc
     image = load_image(args.image)
-    options.check_plan(settings, output, image.shape, inventory_paints=len(inventory))
+    size = options.check_plan(settings, output, image.shape, inventory_paints=len(inventory))
+    # said before the long work, so the painter can stop and fix it; the plan carries the same words
+    _print_warnings(raster_warnings(size, settings.brushes_mm, pixel_given=settings.mm_per_px is not None))
     bar = None if args.quiet else TerminalBar(sys.stderr)
     plan = make_plan(image, settings, progress=bar)
     # a new plan with its source named (the Plan make_plan returned is never changed)
@@ -96,10 +99,29 @@ def cmd_plan(args) -> int:
     if not args.quiet:
         print(f"plan written to {out}/ ({plan.stroke_count()} strokes, {len(plan.palette)} paints, "
               f"{len(plan.layers)} layers)", file=sys.stderr)
+    _print_pdf_note()
     return 0
 
 
+def _print_warnings(found) -> None:
+    for warning in found:  # what is wrong on the warning's line, then why and the fix
+        print(f"layerplan: warning: {warning['message']}", file=sys.stderr)
+        for key in ("cause", "fix"):
+            if isinstance(warning.get(key), str):
+                print(f"  {warning[key]}", file=sys.stderr)
+
+
+def _print_pdf_note() -> None:
+    from .pdf import unavailable
+
+    reason = unavailable()
+    if reason is not None:
+        print(f"layerplan: note: plan.pdf was not written: {reason}; plan.html prints the same sheets "
+              "from a browser", file=sys.stderr)
+
+
 def cmd_render(args) -> int:
+    from .caveats import plan_warnings
     from .export import write_outputs
     from .plan import Plan
 
@@ -121,6 +143,8 @@ def cmd_render(args) -> int:
     options.check_grid(plan.wall_width_mm, plan.wall_height_mm, output.get("grid_mm"))
     write_outputs(plan, out, **output)
     print(f"outputs rebuilt in {out}/ ({plan.stroke_count()} strokes, {len(plan.palette)} paints)", file=sys.stderr)
+    _print_warnings(plan_warnings(plan))  # what the plan said when it was made still holds
+    _print_pdf_note()
     return 0
 
 

@@ -1,4 +1,4 @@
-"""Write a Plan's outputs: plan.json, final.png, steps/NN.png, steps/NN.svg, overlay.svg, plan.html.
+"""Write a Plan's outputs: plan.json, final.png, steps/NN.png, steps/NN.svg, overlay.svg, plan.html, plan.pdf.
 
 Exporters read a `Plan` and nothing else, and never write into it: figures derived from
 the plan (the paint use, the wall after each layer, the outline maps) are worked out once
@@ -107,6 +107,17 @@ class ExportInputs:
         return tuple(layer_outlines(self.plan, n, canvas=self.canvases[n - 1])
                      for n in range(1, len(self.plan.layers) + 1))
 
+    @cached_property
+    def print_html(self) -> str:
+        """The printed plan (:func:`layerplan.report.plan_html`): plan.html, and what plan.pdf lays out."""
+        from .report import plan_html
+
+        images = {f"steps/{n:02d}": data for n, data in enumerate(self.step_pngs)}
+        images["final"] = self.step_pngs[-1]
+        return plan_html(self.plan, images=images, grid_mm=self.grid_mm, outlines=list(self.outlines),
+                         paint_use=dict(self.paint_use), steps=list(self.steps), paper=self.paper,
+                         canvases=list(self.canvases), enlargements_per_layer=self.enlargements_per_layer)
+
 
 # ------------------------------------------------------------------ the exporters
 def _step_pictures(x: ExportInputs) -> dict[str, bytes]:
@@ -131,14 +142,15 @@ def _wall_overlay(x: ExportInputs) -> dict[str, bytes]:
 
 
 def _print_plan(x: ExportInputs) -> dict[str, bytes]:
-    from .report import plan_html
+    return {"plan.html": x.print_html.encode("utf-8")}
 
-    images = {f"steps/{n:02d}": data for n, data in enumerate(x.step_pngs)}
-    images["final"] = x.step_pngs[-1]
-    return {"plan.html": plan_html(x.plan, images=images, grid_mm=x.grid_mm, outlines=list(x.outlines),
-                                   paint_use=dict(x.paint_use), steps=list(x.steps), paper=x.paper,
-                                   canvases=list(x.canvases),
-                                   enlargements_per_layer=x.enlargements_per_layer).encode("utf-8")}
+
+def _print_pdf(x: ExportInputs) -> dict[str, bytes]:
+    from .pdf import plan_pdf, unavailable
+
+    if unavailable() is not None:  # no Pango here: the rest of the plan is still written (the CLI says why)
+        return {}
+    return {"plan.pdf": plan_pdf(x.print_html)}
 
 
 def _plan_document(x: ExportInputs) -> dict[str, bytes]:
@@ -195,6 +207,7 @@ class Export:
 #: every output, in the order the web page lists them (each file belongs to exactly one)
 EXPORTS: Mapping[str, Export] = MappingProxyType({e.name: e for e in (
     Export("plan.html", "plan.html", "Print plan (open and print)", "text/html", _print_plan, opens=True),
+    Export("plan.pdf", "plan.pdf", "Print plan (PDF)", "application/pdf", _print_pdf),
     Export("overlay.svg", "overlay.svg", "Wall-scale SVG overlay", "image/svg+xml", _wall_overlay),
     Export("plan.json", "plan.json", "Plan data (JSON)", "application/json", _plan_document),
     Export("final.png", "final.png", "Final picture (PNG)", "image/png", _final_picture),
@@ -215,7 +228,9 @@ def build_files(plan: Plan, *, grid_mm: float | None = None, paper: str | None =
 
     ``steps/NN.png`` is the wall after layer NN (``00``: the ground); ``steps/NN.svg`` holds
     layer NN's strokes alone with its outline map and the transfer grid, for projecting; ``overlay.svg`` the whole
-    plan with the transfer grid and (hidden) outline maps; ``plan.html`` the printable plan.
+    plan with the transfer grid and (hidden) outline maps; ``plan.html`` the printable plan,
+    ``plan.pdf`` the same laid out on pages (left out where WeasyPrint cannot run, see
+    :func:`layerplan.pdf.unavailable`).
     The quantities (``options``: coverage_m2_per_litre, waste, ground_coats, stroke_coats,
     containers) are worked out once by :func:`layerplan.quantities.paint_use`, handed to the
     exporters and written as plan.json's ``paint_use`` section; ``plan`` itself is not changed.

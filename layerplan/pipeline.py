@@ -7,6 +7,7 @@ import dataclasses
 import numpy as np
 
 from . import __version__
+from .caveats import raster_warnings
 from .coats import with_coats
 from .colour import delta_e00, error_planes, srgb_to_lab
 from .fit import fit_to_wall
@@ -231,7 +232,10 @@ def make_plan(image: np.ndarray, settings: Settings, *, progress=None, runs: str
          "mean_delta_e_before": round(float(steps[n]), 4), "mean_delta_e_after": round(float(steps[n + 1]), 4)}
         for n, (layer, r) in enumerate(zip(layers, placed))
     ]
+    # brushes the raster leaves under the pixel rule: said in the plan, with the fix (absent when none)
+    warned = raster_warnings(size, settings.brushes_mm, pixel_given=settings.mm_per_px is not None)
     plan = dataclasses.replace(plan, extra={"generator": f"layerplan {__version__}", "settings": settings.to_dict(),
-                                            "stats": stats, "inventory": inventory})
+                                            "stats": stats, "inventory": inventory,
+                                            **({"warnings": warned} if warned else {})})
     report(1.0, "plan ready")
     return plan

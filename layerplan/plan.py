@@ -32,6 +32,11 @@ is :attr:`Plan.wall_unit`, ``inventory`` is :attr:`Plan.inventory` and a palette
 entry's ``recipe`` is :attr:`Paint.recipe`; they are still written where they always
 were, so the file does not change.
 
+An optional top-level ``warnings`` list says what the plan could not do as well as asked,
+each entry ``{"kind", "message", "cause", "fix", ...}`` (whole sentences, plus the figures
+behind them; :mod:`layerplan.caveats`). Absent means none: a plan the working raster
+serves well has no such key, so its file is unchanged.
+
 A `Plan` and its parts are frozen: stages and exporters read them and never write
 into them. A changed plan is a new one, made with :func:`dataclasses.replace`
 (``replace(plan, extra={**plan.extra, "source": ...})``).

@@ -615,29 +615,43 @@ def _grid(plan: Plan, imgs, grid_mm: float, unit: str) -> TransferGrid:
                         Figure(fig_w, caption, svg=svg))
 
 
-def _overview_width_mm(plan: Plan, paper: Paper) -> float:
-    """Printed width of a layer sheet's outline map (the whole wall), mm."""
-    # 118 mm tall at most on A4/Letter, leaving room for the paint key and the note under the map
-    return _fit_box(plan, paper.print_w_mm, 118.0 * paper.print_h_mm / PRINT_H_MM)
+def _overview_width_mm(plan: Plan, paper: Paper, reserve_mm: float = 0.0) -> float:
+    """Printed width of a layer sheet's outline map (the whole wall), mm.
+
+    ``reserve_mm`` is the height the sheet's optional lines take (see :func:`_layer_text_mm`).
+    """
+    # 118 mm tall at most on A4/Letter, leaving room for the paint key and the note under the map, less
+    # what the sheet's optional lines take, so the sheet stays one page (never under 60 mm)
+    return _fit_box(plan, paper.print_w_mm, max(60.0, 118.0 - reserve_mm) * paper.print_h_mm / PRINT_H_MM)
 
 
-def _overview_labels(plan: Plan, outline: dict[str, Any], paper: Paper) -> dict[str, Any]:
+def _layer_text_mm(layer, coat_lines: int) -> float:
+    """Height on paper of a layer sheet's optional text: the work-zone and travel line and the extra-coats list.
+
+    Measured on the printed sheets (sheet.css at A4): a wrapped hint line pair about 10 mm, the coats
+    block's two-line lead about 12 mm and each of its lines about 5 mm.
+    """
+    travel = 10.0 if layer.extra.get("travel") and layer.strokes else 0.0
+    return travel + ((12.0 + 5.0 * coat_lines) if coat_lines else 0.0)
+
+
+def _overview_labels(plan: Plan, outline: dict[str, Any], paper: Paper, reserve_mm: float = 0.0) -> dict[str, Any]:
     """The outline map with the labels its layer sheet has room for (see :func:`place_labels`)."""
-    scale = _overview_width_mm(plan, paper) / plan.wall_width_mm  # paper mm per wall mm
+    scale = _overview_width_mm(plan, paper, reserve_mm) / plan.wall_width_mm  # paper mm per wall mm
     return place_labels(outline, lambda a: label_box_mm(plan, a),
                         min_area_mm2=MIN_LABEL_PAPER_MM2 / (scale * scale))
 
 
 def _layer(plan: Plan, n: int, imgs, outline: dict[str, Any], changed: float, *,
            grid_mm: float, unit: str, paper: Paper = PAPERS[DEFAULT_PAPER],
-           labelled: dict[str, Any] | None = None, enlarged: bool = False) -> LayerSheet:
+           labelled: dict[str, Any] | None = None, enlarged: bool = False, reserve_mm: float = 0.0) -> LayerSheet:
     layer = plan.layers[n - 1]
     order_ix = plan.paint_index()
     count: dict[str, int] = {}
     for s in layer.strokes:
         count[s.paint] = count.get(s.paint, 0) + 1
     pic_w = _fit_box(plan, 92.0, 62.0)
-    map_w = _overview_width_mm(plan, paper)
+    map_w = _overview_width_mm(plan, paper, reserve_mm)
     hints: dict[str, dict[str, float]] = {}
     for a in outline["areas"]:
         d = hints.setdefault(a["paint"], {})
@@ -650,7 +664,7 @@ def _layer(plan: Plan, n: int, imgs, outline: dict[str, Any], changed: float, *,
                                  w.area(sum(d.values()) / 1e6, unit), max(d, key=d.get) if d else "—"))
     # labels: only where the shape is big enough on this page and the label clears the others
     if labelled is None:
-        labelled = _overview_labels(plan, outline, paper)
+        labelled = _overview_labels(plan, outline, paper, reserve_mm)
     unlabelled = sum(1 for a in labelled["areas"] if not a["label"])
     blank = (f"Blank (white) areas get no paint in this layer: the ground, {plan.ground}, stays showing there."
              if n == 1 else f"Blank (white) areas get no paint in this layer: what layer {n - 1} left stays "
@@ -753,7 +767,8 @@ def _tiling(plan: Plan, grid_mm: float, brush_mm: float, box_w: float, box_h: fl
 
 
 def _enlargements(plan: Plan, n: int, outline: dict[str, Any], labelled: dict[str, Any], canvas: np.ndarray, *,
-                  grid_mm: float, unit: str, paper: Paper, limit: int) -> tuple[list[Enlargement], str, Figure | None]:
+                  grid_mm: float, unit: str, paper: Paper, limit: int,
+                  reserve_mm: float = 0.0) -> tuple[list[Enlargement], str, Figure | None]:
     """The enlargement sheets of layer ``n``, the layer sheet's note about them, and its paint key."""
     layer = plan.layers[n - 1]
     areas = outline["areas"]
@@ -761,7 +776,7 @@ def _enlargements(plan: Plan, n: int, outline: dict[str, Any], labelled: dict[st
         return [], "", None
     painted = canvas >= 0
     brush = _narrowest_mm(layer)
-    overview = _overview_width_mm(plan, paper) / plan.wall_width_mm
+    overview = _overview_width_mm(plan, paper, reserve_mm) / plan.wall_width_mm
     unlabelled = [k for k, a in enumerate(labelled["areas"]) if not a["label"]]
     too_thin = brush * overview < MIN_BRUSH_PAPER_MM
     paints = sorted({a["paint"] for a in areas}, key=plan.paint_index().get)
@@ -999,11 +1014,13 @@ def build_sheets(
     coats_by_layer = coat_notes(plan, minimum=use.get("stroke_coats", 1))
     if canvases is None:
         canvases = [layer_canvas(plan, n) for n in range(1, len(plan.layers) + 1)]
-    labelled = [_overview_labels(plan, o, sheet) for o in outlines]
+    reserve = [_layer_text_mm(layer, len(coat_lines(notes_n))) for layer, notes_n in zip(plan.layers, coats_by_layer)]
+    labelled = [_overview_labels(plan, o, sheet, r) for o, r in zip(outlines, reserve)]
     enlargements, notes, keys = [], [], []
     for n in range(1, len(plan.layers) + 1):
         more, note, key = _enlargements(plan, n, outlines[n - 1], labelled[n - 1], np.asarray(canvases[n - 1]),
-                                        grid_mm=grid_mm, unit=unit, paper=sheet, limit=enlargements_per_layer)
+                                        grid_mm=grid_mm, unit=unit, paper=sheet, limit=enlargements_per_layer,
+                                        reserve_mm=reserve[n - 1])
         enlargements += more
         if note:
             notes.append((n, note))
@@ -1019,7 +1036,8 @@ def build_sheets(
         brushes=_brushes(plan, use, us),
         grid=_grid(plan, imgs, grid_mm, unit),
         layers=tuple(replace(_layer(plan, n, imgs, outlines[n - 1], changed[n - 1], grid_mm=grid_mm, unit=unit,
-                                    paper=sheet, labelled=labelled[n - 1], enlarged=n in enlarged),
+                                    paper=sheet, labelled=labelled[n - 1], enlarged=n in enlarged,
+                                    reserve_mm=reserve[n - 1]),
                              coats=coat_lines(coats_by_layer[n - 1]))
                      for n in range(1, len(plan.layers) + 1)),
         paper=sheet,

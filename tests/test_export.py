@@ -1,6 +1,6 @@
 """Exports (layerplan/export.py): the registry names every file the export writes, each file
 is what its media type says (read back with Python's own json, xml.etree and html.parser,
-Pillow, and the PNG signature of ISO/IEC 15948 §5.2), the plan handed in is never changed,
+Pillow, pypdf, and the PNG signature of ISO/IEC 15948 §5.2), the plan handed in is never changed,
 and the web page's download list is the registry's."""
 
 from __future__ import annotations
@@ -68,6 +68,11 @@ def _read(media_type: str, data: bytes):
         assert text.lstrip().lower().startswith("<!doctype html>")  # HTML Living Standard §13.1.1
         HTMLParser().feed(text)
         return text
+    if media_type == "application/pdf":
+        from pypdf import PdfReader  # a general-purpose PDF reader (tests/test_pdf.py checks the pages)
+
+        assert data.startswith(b"%PDF-")  # ISO 32000-1 §7.5.2, the file header
+        return len(PdfReader(io.BytesIO(data)).pages)
     raise AssertionError(f"no reader for {media_type}")
 
 

@@ -13,7 +13,7 @@ from flask import (Blueprint, abort, current_app, redirect, render_template, req
 from PIL import Image
 from werkzeug.exceptions import RequestEntityTooLarge
 
-from layerplan import options, quantities, wording
+from layerplan import caveats, options, quantities, wording
 from layerplan.export import EXPORTS
 from layerplan.plan import Plan
 from layerplan.settings import Settings
@@ -222,6 +222,7 @@ def _plan_view(plan: Plan, files: dict[str, str]) -> dict[str, Any]:
         "strokes": plan.stroke_count(),
         "final_url": files.get("final.png"), "print_url": files.get("plan.html"),
         "svg_url": files.get("overlay.svg"),
+        "warnings": caveats.plan_warnings(plan),  # e.g. a brush finer than the working raster, with the fix
     }
 
 
