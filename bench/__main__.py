@@ -200,6 +200,12 @@ def measure_plan(img, settings, *, unit_repeats=UNIT_REPEATS, with_baseline=Fals
         "time_s": t_plan, "cpu_s": c_plan, "unit_s": t_unit, "units": t_plan / t_unit,
         "unit_cpu_s": c_unit, "units_cpu": c_plan / c_unit,
         "rss_idle_mb": rss_idle / 1024, "stages_s": stage_times(events, t_end),
+        # what the order of work costs on the wall: lifted-brush travel per layer (plan.json's layer
+        # "travel", after and before the short-travel order) and strokes by the coats they take
+        "travel": [{k: (layer.extra.get("travel") or {}).get(k) for k in ("painted_m", "lifted_m", "lifted_before_m")}
+                   for layer in plan.layers],
+        "coats": [{str(c): sum(1 for s in layer.strokes if s.coats == c) for c in sorted({s.coats for s in layer.strokes})}
+                  for layer in plan.layers],
     }
     if peak_kb is not None:
         out["peak_rss_mb"] = peak_kb / 1024
@@ -427,6 +433,17 @@ def render_md(info, photos, scaling, memory, four_brush, results, quick, total_s
     for p in photos:
         L.append(f"- {p['photo']}: " + ", ".join(f"{k} {v:.2f} s" for k, v in p["stages_s"].items() if v >= 0.005)
                  + f"; layers alone = {p['stages_s'].get('layers', 0.0) / p['unit_s']:.1f} units")
+    L.append("")
+    L.append("Brush travel per layer (painted / lifted m, lifted before the short-travel order in brackets) and "
+             "strokes by coats (from what each stroke covers, `layerplan.coats`):")
+    L.append("")
+    for p in photos:
+        if "travel" not in p:
+            continue
+        travel = " · ".join(f"{t['painted_m']:.1f} / {t['lifted_m']:.1f} ({t['lifted_before_m']:.1f})"
+                            if t.get("lifted_m") is not None else "—" for t in p["travel"])
+        coats = " · ".join(", ".join(f"{n}×{c}" for c, n in layer.items()) or "—" for layer in p["coats"])
+        L.append(f"- {p['photo']}: travel {travel}; coats (strokes×coats) {coats}")
     L.append("")
     L.append("Baseline strokes by why they stopped (per layer): " + "; ".join(
         f"{p['photo']}: " + " / ".join(", ".join(f"{k} {v}" for k, v in s.items() if v) for s in p["baseline"]["stops"])
