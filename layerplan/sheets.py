@@ -139,6 +139,8 @@ class Cover:
     figure: Figure
     facts: tuple[tuple[str, str], ...]
     settings: tuple[tuple[str, str], ...]
+    #: the plan's warnings in words (plan.json ``warnings``: message, cause, fix), printed where the plan starts
+    warnings: tuple[str, ...] = ()
 
 
 @dataclass(frozen=True)
@@ -477,8 +479,12 @@ def _settings_rows(plan: Plan, unit: str) -> tuple[tuple[str, str], ...]:
 
 
 def _cover(plan: Plan, imgs, title: str, use: dict[str, Any], unit: str) -> Cover:
+    from .caveats import plan_warnings
+
     width, height = plan.wall_width_mm, plan.wall_height_mm
-    fig_w = _fit_box(plan, PRINT_W_MM - 16, 100.0)
+    warnings = tuple(" ".join(x[k] for k in ("message", "cause", "fix") if x.get(k)) for x in plan_warnings(plan))
+    # the picture gives up height to the warnings (a heading and about five lines each), so the cover stays a page
+    fig_w = _fit_box(plan, PRINT_W_MM - 16, max(50.0, 100.0 - 10.0 - 25.0 * len(warnings)) if warnings else 100.0)
     scale = width / fig_w
     stats = plan.extra.get("stats") or {}
     source = (plan.extra.get("source") or {}).get("image")
@@ -501,7 +507,7 @@ def _cover(plan: Plan, imgs, title: str, use: dict[str, Any], unit: str) -> Cove
     facts.append(("paint in all", f"about {w.volume(total_l, w.is_us(unit), used=True)}"))
     figure = Figure(fig_w, "The finished picture as planned, in the plan's paints.", png_uri(imgs["final"]),
                     "the finished picture")
-    return Cover(title, figure, tuple(facts), _settings_rows(plan, unit))
+    return Cover(title, figure, tuple(facts), _settings_rows(plan, unit), warnings)
 
 
 def _name_lines(p, recipe: Mapping[str, Any] | None) -> tuple[Line, ...]:

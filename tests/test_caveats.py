@@ -135,3 +135,42 @@ def test_the_web_plan_page_says_it(client):
     assert 'id="plan-warnings"' in pages["10"] and "20 mm brush spans only 2.00 working pixels" in pages["10"]
     assert "--pixel-mm 6.67" in pages["10"]  # 20 mm / 3, rounded up to 0.01 mm
     assert 'id="plan-warnings"' not in pages["5"]
+
+
+def test_the_printed_plan_says_it_on_its_cover():
+    # the painter reads the printed plan on the wall, not the web page: the warning and its fix are on the
+    # cover sheet of plan.html (and so of plan.pdf, made from the same HTML); a plan without warnings has none
+    from html.parser import HTMLParser
+
+    from layerplan.report import plan_html
+
+    class Cover(HTMLParser):
+        def __init__(self):
+            super().__init__()
+            self.depth, self.text = 0, []
+
+        def handle_starttag(self, tag, attrs):
+            if self.depth or dict(attrs).get("id") == "cover-warnings":
+                self.depth += 1
+
+        def handle_endtag(self, tag):
+            if self.depth:
+                self.depth -= 1
+
+        def handle_data(self, data):
+            if self.depth:
+                self.text.append(data)
+
+    def cover_warnings(plan):
+        parser = Cover()
+        parser.feed(plan_html(plan))
+        return " ".join(" ".join(parser.text).split())
+
+    coarse = make_plan(quadrants(), Settings(wall_width_mm=800.0, wall_height_mm=600.0, paints=4,
+                                             brushes_mm=(40.0, 20.0), mm_per_px=10.0))
+    (warning,) = plan_warnings(coarse)
+    text = cover_warnings(coarse)
+    assert " ".join(warning["message"].split()) in text and " ".join(warning["fix"].split()) in text
+    fine = make_plan(quadrants(), Settings(wall_width_mm=800.0, wall_height_mm=600.0, paints=4,
+                                           brushes_mm=(40.0, 20.0), mm_per_px=5.0))
+    assert cover_warnings(fine) == ""
