@@ -51,6 +51,18 @@ def _footprint_px(pts, n, width_mm, s, h, w, stamp, stamp_id, buf_i, buf_j, runs
 
 
 @njit(cache=True, nogil=True)
+def _best_paint(sums, k):
+    """The largest of ``sums[:k]`` and its paint (the first on ties)."""
+    best = -1e30
+    bq = 0
+    for q in range(k):
+        if sums[q] > best:
+            best = sums[q]
+            bq = q
+    return best, bq
+
+
+@njit(cache=True, nogil=True)
 def _footprint_gain(pts, n, width_mm, s, planes, err, toprank, allow, sums, runs, row_ab, row_n):
     """Gain of painting the stroke with each paint in its run; returns (best gain, best paint, run count).
 
@@ -74,12 +86,7 @@ def _footprint_gain(pts, n, width_mm, s, planes, err, toprank, allow, sums, runs
             else:
                 for q in range(k):
                     sums[q] += allow[r, q] * (e - planes[i, j, q])
-    best = -1e30
-    bq = 0
-    for q in range(k):
-        if sums[q] > best:
-            best = sums[q]
-            bq = q
+    best, bq = _best_paint(sums, k)
     return best, bq, c
 
 
@@ -95,12 +102,7 @@ def _block_gain(pts, n, width_mm, s_c, gain_c, sums, runs, row_ab, row_n):
         for j in range(runs[t, 1], runs[t, 2] + 1):
             for q in range(k):
                 sums[q] += gain_c[i, j, q]
-    best = -1e30
-    bq = 0
-    for q in range(k):
-        if sums[q] > best:
-            best = sums[q]
-            bq = q
+    best, bq = _best_paint(sums, k)
     return best, bq, c
 
 

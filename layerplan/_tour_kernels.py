@@ -62,6 +62,17 @@ def _gap(P, k):
 
 
 @njit(cache=True, nogil=True)
+def _reversal_shortens(P, i, j, m):
+    """Whether painting strokes ``i..j`` of the tour backwards (a 2-opt move) makes the lifted travel shorter."""
+    old = _gap(P, i - 1)
+    new = _d(P[i - 1, 2], P[i - 1, 3], P[j, 2], P[j, 3])
+    if j + 1 < m:
+        old += _gap(P, j)
+        new += _d(P[i, 0], P[i, 1], P[j + 1, 0], P[j + 1, 1])
+    return new < old - 1e-9
+
+
+@njit(cache=True, nogil=True)
 def _reverse(P, seq, flip, fixed, i, j):
     """Reverse the order of positions i..j (`_swap_ends` then turns each stroke end to start)."""
     while i < j:
@@ -145,12 +156,7 @@ def _two_opt(P, seq, flip, fixed, s, e, budget):
             if fixed[j]:
                 break  # this and every longer segment holds a stroke that must keep its direction
             evals += 1
-            old = _gap(P, i - 1)
-            new = _d(P[i - 1, 2], P[i - 1, 3], P[j, 2], P[j, 3])
-            if j + 1 < m:
-                old += _gap(P, j)
-                new += _d(P[i, 0], P[i, 1], P[j + 1, 0], P[j + 1, 1])
-            if new < old - 1e-9:
+            if _reversal_shortens(P, i, j, m):
                 _reverse(P, seq, flip, fixed, i, j)
                 _swap_ends(P, flip, i, j)
                 improved = True
@@ -326,12 +332,7 @@ def _near_pass(P, seq, flip, fixed, pos, nb, s, e, tmp):
                 if j < i or j >= e or c != _end_id(seq, flip, j, True) or _any_fixed(fixed, i, j):
                     continue
                 evals += 1
-                old = _gap(P, i - 1)
-                new = _d(P[i - 1, 2], P[i - 1, 3], P[j, 2], P[j, 3])
-                if j + 1 < m:
-                    old += _gap(P, j)
-                    new += _d(P[i, 0], P[i, 1], P[j + 1, 0], P[j + 1, 1])
-                if new < old - 1e-9:
+                if _reversal_shortens(P, i, j, m):
                     _reverse(P, seq, flip, fixed, i, j)
                     _swap_ends(P, flip, i, j)
                     for k in range(i, j + 1):
