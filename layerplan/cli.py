@@ -62,6 +62,9 @@ def _parser() -> argparse.ArgumentParser:
     from . import cli_swatches
 
     cli_swatches.register(sub)
+    from . import cli_machine
+
+    cli_machine.register(sub)
     return p
 
 

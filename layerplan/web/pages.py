@@ -345,3 +345,52 @@ def _size_text(width_mm, height_mm, unit: str) -> str:
     if not isinstance(width_mm, (int, float)) or not isinstance(height_mm, (int, float)):
         return ""
     return wording.wall_size(width_mm, height_mm, unit)
+
+
+# ---------------------------------------------------------------------- machine programs
+@bp.context_processor
+def _machine_choices() -> dict[str, Any]:
+    """The machine program formats and shipped profiles the plan page offers (layerplan.machine)."""
+    from layerplan import machine
+
+    return {"machine_formats": [(f.key, f.label) for f in machine.FORMATS.values()],
+            "machine_profiles": [(key, machine.shipped_profile(key).name) for key in machine.PROFILES]}
+
+
+@bp.get("/plans/<plan_id>/machine")
+def machine_program(plan_id: str):
+    """A finished plan as a machine program: ``?format=gcode|hpgl|svg&profile=<shipped profile>``.
+
+    Bad choices and plans that do not fit the machine answer 4xx with ``{"error": ...}``.
+    """
+    from flask import jsonify
+
+    from layerplan import machine
+
+    def refuse(message: str, status: int):
+        response = jsonify(error=message)
+        response.status_code = status
+        return response
+
+    record = service.store().get(plan_id)
+    if record is None:
+        return refuse(f"there is no plan {plan_id!r} (it may have been deleted)", 404)
+    fmt = request.args.get("format", "gcode")
+    name = request.args.get("profile", machine.DEFAULT_PROFILE)
+    if fmt not in machine.FORMATS:
+        return refuse(f"format must be one of {', '.join(machine.FORMATS)}, got {fmt!r}", 400)
+    if name not in machine.PROFILES:
+        return refuse(f"profile must be one of {', '.join(machine.PROFILES)}, got {name!r}", 400)
+    try:
+        plan = service.stored_plan(plan_id)
+    except ValueError as exc:
+        return refuse(f"the stored plan cannot be read: {exc}", 500)
+    if plan is None:
+        return refuse("the plan is not finished yet", 409)
+    try:
+        data = machine.machine_program(plan, machine.shipped_profile(name), fmt)
+    except machine.MachineError as exc:
+        return refuse(str(exc), 422)
+    kind = machine.FORMATS[fmt]
+    return send_file(io.BytesIO(data), mimetype=kind.media_type, as_attachment=True,
+                     download_name=f"layerplan-{plan_id}-{name}{kind.suffix}")
