@@ -6,12 +6,14 @@ An inventory is a small TOML file (TOML 1.0, read with Python's ``tomllib``) wit
     # My wall paints
     title = "Community-centre wall kit"      # optional, shown by `layerplan paints`
     format = 2                               # optional: the format of this file (1 or 2)
+    currency = "EUR"                         # needed when a container has a price (a code or a sign)
 
     [[paint]]
     name = "Titanium white"         # required; unique (ignoring case); no '='
     srgb = "#f4f3ee"                # the paint's colour as sRGB hex ...
     white = true                    # the white your tints are made with (at most one paint)
-    containers_l = [1.0, 4.0]       # optional: tin sizes you can buy, litres
+    containers_l = [1.0, 4.0]       # optional: tin sizes you can buy, litres ...
+    # ... or with what each costs: containers_l = [{ litres = 1.0, price = 14.5 }, 4.0]
     note = "covers well"            # optional free text
 
     [[paint]]
@@ -53,6 +55,12 @@ every error names the file, the line (of the faulty field where it is written on
 of its own, else of the paint's ``[[paint]]`` header), the paint's number and name, and
 the field (``tint.white_parts`` for a part of a tint).
 
+**Prices.** A container size may be written as a table ``{ litres = 1.0, price = 14.5 }``
+instead of a bare number: what one such container costs, in the file's ``currency`` (text of
+at most :data:`MAX_CURRENCY_CHARS` characters, a code such as ``EUR`` or a sign such as ``$``;
+needed once any price is given). The shopping list then says what each paint and the whole
+list cost (:func:`layerplan.quantities.paint_use`); sizes without a price leave the cost unknown.
+
 A default inventory ships with the package (``layerplan/data/default_inventory.toml``):
 a basic acrylic set for wall work with masstones and tints, approximate values from memory.
 """
@@ -82,7 +90,11 @@ MAX_FILE_BYTES = 1_000_000
 
 _PAINT_KEYS = ("name", "srgb", "lab", "white", "tint", "tinting_strength", "containers_l", "note")
 _TINT_KEYS = ("srgb", "lab", "paint_parts", "white_parts")
-_TOP_KEYS = ("title", "format", "paint")
+_TOP_KEYS = ("title", "format", "currency", "paint")
+#: longest currency text accepted ("EUR", "$", "CHF")
+MAX_CURRENCY_CHARS = 8
+#: largest price of one container accepted (a sanity bound in any currency)
+MAX_PRICE = 1_000_000.0
 #: the inventory formats this version reads (1: masstones only; 2: adds ``white`` and ``tint``)
 FORMATS = (1, 2)
 #: CIELAB L* by which a tint may fall outside its paint's and its white's lightness (measuring noise)
@@ -141,6 +153,9 @@ class StockPaint:
         Scattering of a paint without a tint in the simpler model (1 = like the white).
     containers_l : tuple of float
         Tin sizes the painter buys, litres (may be empty).
+    prices : tuple of (float or None)
+        What one container of each size in ``containers_l`` costs, in the inventory's currency
+        (None where not given); empty when no size of this paint has a price.
     note : str
     white : bool
         The white the inventory's tints are made with.
@@ -156,6 +171,7 @@ class StockPaint:
     note: str = ""
     white: bool = False
     tint: Tint | None = None
+    prices: tuple[float | None, ...] = ()
 
     @property
     def rgb(self) -> tuple[int, int, int]:
@@ -173,6 +189,8 @@ class Inventory:
     paints: tuple[StockPaint, ...]
     title: str = ""
     source: str = field(default="<inventory>", compare=False)
+    #: the currency of the containers' prices ("" when none has a price)
+    currency: str = ""
 
     def __len__(self) -> int:
         return len(self.paints)
@@ -281,6 +299,12 @@ def loads_inventory(text: str, *, source: str = "<inventory>") -> Inventory:
     fmt = doc.get("format", 1)
     if isinstance(fmt, bool) or fmt not in FORMATS:
         raise InventoryError(f"{source}: 'format' must be one of {', '.join(map(str, FORMATS))}, got {fmt!r}")
+    currency = doc.get("currency", "")
+    if not isinstance(currency, str) or len(currency.strip()) > MAX_CURRENCY_CHARS \
+            or any(ord(c) < 32 for c in currency):
+        raise InventoryError(f"{source}: 'currency' must be text of at most {MAX_CURRENCY_CHARS} characters "
+                             f"(such as \"EUR\" or \"$\"), got {currency!r}")
+    currency = currency.strip()
     entries = doc.get("paint")
     if entries is None or entries == []:
         raise InventoryError(f"{source}: no paints: add one [[paint]] table per paint")
@@ -312,7 +336,13 @@ def loads_inventory(text: str, *, source: str = "<inventory>") -> Inventory:
         seen[key] = i
         paints.append(paint)
     _check_white(paints, header_lines, field_lines, source)
-    return Inventory(paints=tuple(paints), title=title.strip(), source=source)
+    priced = next((i for i, p in enumerate(paints) if any(v is not None for v in p.prices)), None)
+    if priced is not None and not currency:
+        line = (field_lines[priced].get("containers_l", header_lines[priced]) if field_lines else None)
+        raise InventoryError(f"{_where(source, priced + 1, line, paints[priced].name)}: field 'containers_l': a "
+                             "price needs the currency it is in; add `currency = \"EUR\"` (or yours) at the top "
+                             "of the file")
+    return Inventory(paints=tuple(paints), title=title.strip(), source=source, currency=currency)
 
 
 def _check_white(paints: list[StockPaint], header_lines, field_lines, source: str) -> None:
@@ -418,6 +448,7 @@ def _parse_paint(entry: dict, number: int, line: int | None, source: str, *,
     containers = entry.get("containers_l", [])
     if not isinstance(containers, list):
         raise fail("containers_l", f"must be a list of sizes in litres, e.g. [1.0, 4.0], got {containers!r}")
+    containers, prices = _container_records(containers, fail)
     for c in containers:
         if (
             not isinstance(c, (int, float))
@@ -431,16 +462,39 @@ def _parse_paint(entry: dict, number: int, line: int | None, source: str, *,
     if not isinstance(note, str):
         raise fail("note", f"must be text, got {note!r}")
 
+    order = sorted(range(len(containers)), key=lambda k: float(containers[k]))
     return StockPaint(
         name=name,
         srgb=srgb,
         lab=lab,
         tinting_strength=float(strength),
-        containers_l=tuple(sorted(float(c) for c in containers)),
+        containers_l=tuple(float(containers[k]) for k in order),
         note=note.strip(),
         white=white,
         tint=tint,
+        prices=tuple(prices[k] for k in order) if any(v is not None for v in prices) else (),
     )
+
+
+def _container_records(items: list, fail) -> tuple[list, list]:
+    """``containers_l`` entries as (sizes, prices): a size alone, or ``{ litres = 1.0, price = 14.5 }``."""
+    sizes, prices = [], []
+    for c in items:
+        if not isinstance(c, dict):
+            sizes.append(c)
+            prices.append(None)
+            continue
+        unknown = sorted(set(c) - {"litres", "price"})
+        if unknown or "litres" not in c:
+            raise fail("containers_l", "a container with a price is { litres = 1.0, price = 14.5 }, "
+                                       f"got {c!r}")
+        price = c.get("price")
+        if price is not None and (isinstance(price, bool) or not isinstance(price, (int, float))
+                                  or not math.isfinite(price) or not 0.0 <= price <= MAX_PRICE):
+            raise fail("containers_l", f"a price must be a number from 0 to {MAX_PRICE:g}, got {price!r}")
+        sizes.append(c["litres"])
+        prices.append(None if price is None else float(price))
+    return sizes, prices
 
 
 def _colour(entry: dict, fail, prefix: str) -> tuple[str, tuple[float, float, float]]:

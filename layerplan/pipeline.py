@@ -52,7 +52,8 @@ def mix_palette(pal_rgb: np.ndarray, pal_lab: np.ndarray, settings: Settings):
     recipes : list of dict
         One recipe (:meth:`layerplan.recipes.Recipe.to_dict` form) per returned paint; ``target`` is the k-means colour.
     inventory : list of dict
-        The stock paints, ``{"name", "srgb", "tinting_strength", "containers_l"}``, for plan.json.
+        The stock paints, ``{"name", "srgb", "tinting_strength", "containers_l"}``, for plan.json; a paint
+        with priced containers also has ``"container_prices"`` (per size, None where unpriced) and ``"currency"``.
 
     Raises
     ------
@@ -71,8 +72,11 @@ def mix_palette(pal_rgb: np.ndarray, pal_lab: np.ndarray, settings: Settings):
     inv = default_inventory() if settings.inventory is None else load_inventory(settings.inventory)
     found = solve_recipes(pal_lab, inv, max_paints=settings.mix_paints, max_parts=settings.max_parts,
                           tolerance=settings.tolerance_de, targets_srgb=[rgb_to_hex(c) for c in pal_rgb])
+    # prices travel with their sizes (and their currency), only where the inventory gives them
     stock = [{"name": p.name, "srgb": p.srgb, "tinting_strength": p.tinting_strength,
-              "containers_l": list(p.containers_l)} for p in inv.paints]
+              "containers_l": list(p.containers_l),
+              **({"container_prices": list(p.prices), "currency": inv.currency} if p.prices else {})}
+             for p in inv.paints]
     if settings.free_palette:
         return pal_rgb, pal_lab, [r.to_dict() for r in found], stock
     keep: dict[str, int] = {}

@@ -340,6 +340,30 @@ def _container_sizes(name: str, plan: Plan, containers, default: Sequence[float]
     return default
 
 
+def _container_prices(name: str, plan: Plan) -> tuple[dict[float, float], str] | None:
+    """``({size in litres: price of one}, currency)`` of a stock paint in ``plan.extra["inventory"]``; None unpriced."""
+    for entry in plan.extra.get("inventory", []) or []:
+        if isinstance(entry, Mapping) and entry.get("name") == name and entry.get("container_prices"):
+            sizes, prices = entry.get("containers_l") or [], entry["container_prices"]
+            table = {round(float(s), 4): float(p) for s, p in zip(sizes, prices)
+                     if isinstance(p, (int, float)) and not isinstance(p, bool)}
+            return (table, str(entry.get("currency") or "")) if table else None
+    return None
+
+
+def _cost(containers: Sequence[Mapping[str, Any]], priced) -> float | None:
+    """What the containers cost, or None when a size has no price (or the paint none at all)."""
+    if not containers:
+        return 0.0 if priced else None
+    if not priced:
+        return None
+    table = priced[0]
+    try:
+        return round(sum(table[round(float(c["litres"]), 4)] * int(c["count"]) for c in containers), 2)
+    except KeyError:
+        return None
+
+
 def _us(litres: float) -> dict[str, float]:
     gal = litres / LITRES_PER_US_GALLON
     return {"us_gallons": round(gal, 3), "us_quarts": round(gal * US_QUARTS_PER_GALLON, 3)}
@@ -415,6 +439,11 @@ def paint_use(
         (what the litres are worked from). ``stock`` is empty when no palette entry has a recipe. Every
         paint and stock entry has ``trace``: true when more than nothing but less than
         :data:`TRACE_LITRES` is needed (too little to buy a container for).
+        Where the inventory prices the containers (``container_prices`` and ``currency`` of its
+        entries, see :mod:`layerplan.inventory`), a stock entry whose containers all have a price
+        gets ``"cost"`` (the sum of count × price, to 0.01), and the result gets
+        ``"cost": {"currency", "total", "priced", "unpriced"}``: the total over the priced stock
+        entries, and the names of those priced and of those with containers to buy but no price.
 
     Raises
     ------
@@ -478,14 +507,28 @@ def paint_use(
                 if p.id not in s["for"]:
                     s["for"].append(p.id)
     stock_list = []
+    priced, unpriced, currencies, total = [], [], set(), 0.0
     for name in sorted(stock):
         s = stock[name]
         s["containers"] = buy_containers(s["litres"], _container_sizes(name, plan, containers, default_sizes))
+        prices = _container_prices(name, plan) if containers is None else None
+        cost = _cost(s["containers"], prices)
+        if cost is not None:
+            s["cost"] = cost
+            priced.append(name)
+            currencies.add(prices[1])
+            total += cost
+        elif s["containers"]:
+            unpriced.append(name)
         s["trace"] = bool(0.0 < s["litres"] < TRACE_LITRES)
         s["litres"] = round(s["litres"], 3)
         if us:
             s.update(_us(s["litres"]))
         stock_list.append(s)
+    if len(currencies) > 1:
+        raise ValueError(f"the inventory prices paints in more than one currency ({', '.join(sorted(currencies))})")
+    cost = ({"cost": {"currency": currencies.pop(), "total": round(total, 2), "priced": priced,
+                      "unpriced": unpriced}} if priced else {})
     return {
         "coverage_m2_per_litre": float(coverage_m2_per_litre),
         "waste": float(waste),
@@ -495,6 +538,7 @@ def paint_use(
         "wall_unit": unit,
         "paints": paints,
         "stock": stock_list,
+        **cost,
     }
 
 

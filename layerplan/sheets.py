@@ -186,6 +186,8 @@ class StockRow:
     amount: str
     buy: str
     goes_into: str
+    #: what the containers cost, in words ("" when the inventory gives no price for them)
+    cost: str = ""
 
 
 @dataclass(frozen=True)
@@ -205,6 +207,9 @@ class Shopping:
     stock: tuple[StockRow, ...]
     paints: tuple[PaintUseRow, ...]
     trace: str | None  # the trace amount in words, when some entry is one
+    #: the stock paints' total cost in words, and what it leaves out; None when the inventory has no prices
+    total_cost: str | None = None
+    cost_note: str = ""
 
 
 @dataclass(frozen=True)
@@ -582,7 +587,22 @@ def _shopping(plan: Plan, use: dict[str, Any], unit: str) -> Shopping:
                                   "mix from stock" if mixed else "buy tinted, or mix",
                                   "—" if mixed else w.buy(e, us), batch))
     any_trace = any(w.is_trace(e) for e in list(use.get("stock") or []) + list(use["paints"]))
-    return Shopping(assumptions, stock, tuple(paints), w.volume(TRACE_LITRES, us) if any_trace else None)
+    shopping = Shopping(assumptions, stock, tuple(paints), w.volume(TRACE_LITRES, us) if any_trace else None)
+    return _with_cost(shopping, use)
+
+
+def _with_cost(shopping: Shopping, use: Mapping[str, Any]) -> Shopping:
+    """The shopping list with what each stock paint and the whole list cost (paint_use ``cost``), where priced."""
+    cost = use.get("cost")
+    if not isinstance(cost, Mapping):
+        return shopping
+    currency = str(cost.get("currency") or "")
+    by_name = {s["paint"]: s for s in use.get("stock") or []}
+    stock = tuple(replace(row, cost=w.money(by_name[row.paint]["cost"], currency)
+                          if "cost" in by_name.get(row.paint, {}) else "") for row in shopping.stock)
+    missing = list(cost.get("unpriced") or [])
+    note = (f"Not counted: {', '.join(missing)} (no price in the inventory)." if missing else "")
+    return replace(shopping, stock=stock, total_cost=w.money(float(cost["total"]), currency), cost_note=note)
 
 
 def _brushes(plan: Plan, use: dict[str, Any], us: bool) -> Brushes:

@@ -199,6 +199,15 @@ def brush(width_mm: float, us: bool = True) -> str:
     return text + f" (≈ {number(float(width_mm) / MM_PER_INCH, 1)} in)" if us else text
 
 
+# ------------------------------------------------------------------------------------ money
+def money(amount: float, currency: str) -> str:
+    """An amount of money to the cent: "€12.50", "$1,204.00", "EUR 12.50" (a code is set apart, a sign is not)."""
+    text = f"{float(amount):,.2f}"
+    if not currency:
+        return text
+    return f"{currency}{_NBSP}{text}" if currency.isalpha() else f"{currency}{text}"
+
+
 # ------------------------------------------------------------------------------------ durations
 def duration(seconds: float) -> str:
     """A working time to the minute, at least 1 min: "45 min", "2 h", "1 h 5 min"."""

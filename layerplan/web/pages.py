@@ -350,10 +350,11 @@ def _size_text(width_mm, height_mm, unit: str) -> str:
 # ---------------------------------------------------------------------- machine programs
 @bp.context_processor
 def _machine_choices() -> dict[str, Any]:
-    """The machine program formats and shipped profiles the plan page offers (layerplan.machine)."""
+    """The machine program formats and shipped profiles the plan page offers (layerplan.machine), and money."""
     from layerplan import machine
 
-    return {"machine_formats": [(f.key, f.label) for f in machine.FORMATS.values()],
+    return {"money": wording.money,  # the shopping list's prices, as the printed plan says them
+            "machine_formats": [(f.key, f.label) for f in machine.FORMATS.values()],
             "machine_profiles": [(key, machine.shipped_profile(key).name) for key in machine.PROFILES]}
 
 
