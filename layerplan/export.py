@@ -44,6 +44,8 @@ def png_bytes(rgb: np.ndarray) -> bytes:
 
 #: options of :func:`build_files` / :func:`write_outputs` for quantities (see layerplan.quantities.paint_use)
 QUANTITY_OPTIONS = ("coverage_m2_per_litre", "waste", "ground_coats", "stroke_coats", "containers")
+#: options of :func:`build_files` / :func:`write_outputs` for the work schedule (layerplan.schedule.work_schedule)
+SCHEDULE_OPTIONS = ("crew", "hours_per_day", "drying_hours", "labour_rate")
 
 
 # ------------------------------------------------------------------ what the exporters share
@@ -65,6 +67,9 @@ class ExportInputs:
         The paper plan.html is laid out for (a key of :data:`layerplan.sheets.PAPERS`).
     enlargements_per_layer : int, optional
         Most enlargement sheets of one layer in plan.html (default that of :func:`layerplan.sheets.build_sheets`).
+    schedule : mapping, optional
+        :func:`layerplan.schedule.work_schedule` of the plan and its paint use: plan.json's ``schedule``
+        section and the printed plan's day-by-day sheet (none without it).
     """
 
     plan: Plan
@@ -72,6 +77,7 @@ class ExportInputs:
     grid_mm: float
     paper: str = "a4"
     enlargements_per_layer: int | None = None
+    schedule: Mapping[str, Any] | None = None
 
     @cached_property
     def canvases(self) -> tuple[np.ndarray, ...]:
@@ -116,7 +122,8 @@ class ExportInputs:
         images["final"] = self.step_pngs[-1]
         return plan_html(self.plan, images=images, grid_mm=self.grid_mm, outlines=list(self.outlines),
                          paint_use=dict(self.paint_use), steps=list(self.steps), paper=self.paper,
-                         canvases=list(self.canvases), enlargements_per_layer=self.enlargements_per_layer)
+                         canvases=list(self.canvases), enlargements_per_layer=self.enlargements_per_layer,
+                         schedule=None if self.schedule is None else dict(self.schedule))
 
 
 # ------------------------------------------------------------------ the exporters
@@ -159,8 +166,10 @@ def _plan_document(x: ExportInputs) -> dict[str, bytes]:
     # recipe carries its batch, the split of that paint's litres into stock paints
     from .batches import with_batches
 
+    # the schedule likewise: worked out once from the plan and its paint use, written beside them
     written = dataclasses.replace(with_batches(x.plan, x.paint_use),
-                                  extra={**x.plan.extra, "paint_use": dict(x.paint_use)})
+                                  extra={**x.plan.extra, "paint_use": dict(x.paint_use),
+                                         **({"schedule": dict(x.schedule)} if x.schedule is not None else {})})
     return {"plan.json": written.to_json().encode("utf-8")}
 
 
@@ -233,7 +242,9 @@ def build_files(plan: Plan, *, grid_mm: float | None = None, paper: str | None =
     :func:`layerplan.pdf.unavailable`).
     The quantities (``options``: coverage_m2_per_litre, waste, ground_coats, stroke_coats,
     containers) are worked out once by :func:`layerplan.quantities.paint_use`, handed to the
-    exporters and written as plan.json's ``paint_use`` section; ``plan`` itself is not changed.
+    exporters and written as plan.json's ``paint_use`` section; the work schedule (``options``:
+    crew, hours_per_day, drying_hours, labour_rate) likewise by
+    :func:`layerplan.schedule.work_schedule`, as ``schedule``; ``plan`` itself is not changed.
     ``grid_mm`` is the transfer-grid square (default 500 mm, or 2 ft for walls measured in ft
     or in). ``paper`` is the paper plan.html is laid out for: a4 (default), letter, a3 or tabloid;
     ``enlargements_per_layer`` the most enlargement sheets of one layer there.
@@ -247,10 +258,12 @@ def build_files(plan: Plan, *, grid_mm: float | None = None, paper: str | None =
     from .report import default_grid_mm
     from .svg import check_grid
 
-    unknown = sorted(set(options) - set(QUANTITY_OPTIONS))
+    unknown = sorted(set(options) - set(QUANTITY_OPTIONS) - set(SCHEDULE_OPTIONS))
     if unknown:
         raise ValueError(f"unknown export option(s) {', '.join(unknown)}; valid: grid_mm, "
-                         f"{', '.join(QUANTITY_OPTIONS)}, paper")
+                         f"{', '.join(QUANTITY_OPTIONS + SCHEDULE_OPTIONS)}, paper")
+    timing = {k: options.pop(k) for k in SCHEDULE_OPTIONS if k in options and options[k] is not None}
+    options = {k: v for k, v in options.items() if k not in SCHEDULE_OPTIONS}
     from .sheets import DEFAULT_PAPER, PAPERS
 
     if paper is None:
@@ -260,8 +273,13 @@ def build_files(plan: Plan, *, grid_mm: float | None = None, paper: str | None =
     if grid_mm is None:
         grid_mm = default_grid_mm(plan.wall_unit, shorter_side_mm=min(plan.wall_width_mm, plan.wall_height_mm))
     grid_mm = check_grid(plan, grid_mm)
-    inputs = ExportInputs(plan=plan, paint_use=MappingProxyType(paint_use(plan, **options)), grid_mm=grid_mm,
-                          paper=paper, enlargements_per_layer=enlargements_per_layer)
+    from .schedule import check_options as check_schedule, work_schedule
+
+    check_schedule(**timing)
+    use = paint_use(plan, **options)
+    inputs = ExportInputs(plan=plan, paint_use=MappingProxyType(use), grid_mm=grid_mm,
+                          paper=paper, enlargements_per_layer=enlargements_per_layer,
+                          schedule=MappingProxyType(work_schedule(plan, use, **timing)))
     files: dict[str, bytes] = {}
     for export in EXPORTS.values():
         built = export.build(inputs)

@@ -496,6 +496,27 @@ OPTIONS: dict[str, Option] = {o.name: o for o in (
            "plan (the squares with the most areas are kept); 0 for none", "--enlargements",
            "Enlargements per layer", "enlargements per layer", "enlargements_per_layer", "quantities", _OUT,
            target="output", minimum=0, maximum=MAX_ENLARGEMENTS_PER_LAYER, metavar="N"),
+    # --- work schedule, labour cost and time budget (layerplan.schedule, layerplan.budget); schedule.HOURS_PER_DAY,
+    # DRYING_HOURS and MAX_CREW are repeated here to keep this module light (tests/test_schedule.py compares them)
+    Option("crew", "whole", 1, "painters sharing the work; each takes whole columns of work zones, so no two share a "
+           "ladder (the schedule sheet says who paints where)", "--crew", "Crew", "crew", "crew", "quantities", _OUT,
+           target="output", minimum=1, maximum=50, metavar="N"),
+    Option("day_hours", "number", 6.0, "painting hours a painter puts in a day at the wall", "--day-hours",
+           "Painting hours a day", "painting hours a day", "hours_per_day", "quantities", _OUT, target="output",
+           minimum=0.0, maximum=24.0, strict=True, unit="h", metavar="H"),
+    Option("drying", "number", 4.0, "hours each ground coat and layer dries before the next goes on (acrylics: 2-4 h "
+           "at 20 °C, longer when cold or damp)", "--drying-hours", "Drying hours", "drying time", "drying_hours",
+           "quantities", _OUT, target="output", minimum=0.0, maximum=336.0, unit="h", metavar="H"),
+    Option("labour_rate", "number", None, "pay for one painter-hour at the wall, in the inventory's currency: the "
+           "schedule adds the labour cost", "--labour-rate", "Labour rate (per hour)", "labour rate", "labour_rate",
+           "quantities", _OUT, target="output", minimum=0.0, metavar="RATE", default_text="none"),
+    Option("hours", "number", None, "fit the plan to this many hours of the crew at the wall (with --crew): the "
+           "stroke cost is raised or lowered until the schedule fits, and the plan says how close it came",
+           "--hours", "Time budget (hours)", "time budget", "hours", "planning", target="budget", minimum=0.0,
+           strict=True, unit="h", metavar="H", default_text="none (use --stroke-cost)", form=False),
+    Option("strokes", "whole", None, "fit the plan to about this many strokes (instead of --hours)", "--strokes",
+           "Stroke budget", "stroke budget", "strokes", "planning", target="budget", minimum=1, maximum=1_000_000,
+           metavar="N", default_text="none", form=False),
 )}
 
 GROUP_TITLES = {"planning": "planning", "mixing": "paints and mix recipes", "quantities": "quantities and printing"}
@@ -745,7 +766,8 @@ def options_table() -> str:
             "| --- | --- | --- | --- | --- |"]
     for o in OPTIONS.values():
         commands = "" if o.commands == ("plan",) else f" ({', '.join(o.commands)})"
-        fieldname = f"`{o.field}` ({o.label})" if o.form else "upload or edit on the start page"
+        fieldname = f"`{o.field}` ({o.label})" if o.form else (
+            "command line only" if o.target == "budget" else "upload or edit on the start page")
         if o.name == "wall":
             fieldname = "`wall_width`, `wall_height`, `unit`, or `wall` (Surface)"
         if o.name == "brushes":

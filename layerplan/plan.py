@@ -32,6 +32,16 @@ is :attr:`Plan.wall_unit`, ``inventory`` is :attr:`Plan.inventory` and a palette
 entry's ``recipe`` is :attr:`Paint.recipe`; they are still written where they always
 were, so the file does not change.
 
+An optional top-level ``schedule`` (absent in plans written before it) is the work schedule the
+exporter worked out from the plan and its ``paint_use`` (:func:`layerplan.schedule.work_schedule`):
+``{"hours": crew-hours of painting, "crew": painters, "days": working days, "painting_hours": hours the
+crew is at the wall, "hours_per_day", "drying_hours", "reach_m", "tasks": [...], "days_list": [...],
+"idle_painters": [...], "weather": [...]}`` plus ``"labour_rate"``, ``"paid_hours"``, ``"labour_cost"``
+(and ``"currency"``) with a labour rate. Like ``paint_use`` it is derived: reading a plan never needs it,
+and ``layerplan render`` works it out again. An optional ``budget`` says how a plan was fitted to a time
+or stroke budget (:func:`layerplan.budget.fit_to_budget`): ``{"hours" or "strokes": asked, "crew",
+"achieved_hours", "strokes_made", "stroke_cost", "plans_tried", "within"}``.
+
 An optional top-level ``warnings`` list says what the plan could not do as well as asked,
 each entry ``{"kind", "message", "cause", "fix", ...}`` (whole sentences, plus the figures
 behind them; :mod:`layerplan.caveats`). Absent means none: a plan the working raster

@@ -81,6 +81,7 @@ def plan_html(
     paper: str = "a4",
     canvases: list[np.ndarray] | None = None,
     enlargements_per_layer: int | None = None,
+    schedule: dict[str, Any] | None = None,
 ) -> str:
     """The printable plan as one self-contained HTML document.
 
@@ -111,6 +112,8 @@ def plan_html(
     enlargements_per_layer : int, optional
         Most enlargement sheets of one layer; default
         :data:`layerplan.sheets.MAX_ENLARGEMENTS_PER_LAYER`.
+    schedule : dict, optional
+        The work schedule (:func:`layerplan.schedule.work_schedule`): adds the day-by-day sheet.
 
     Returns
     -------
@@ -128,5 +131,5 @@ def plan_html(
     """
     return render_sheets(build_sheets(plan, images=images, grid_mm=grid_mm, outlines=outlines,
                                       paint_use=paint_use, title=title, steps=steps, paper=paper,
-                                      canvases=canvases, **({} if enlargements_per_layer is None else
+                                      canvases=canvases, schedule=schedule, **({} if enlargements_per_layer is None else
                                                             {"enlargements_per_layer": enlargements_per_layer})))

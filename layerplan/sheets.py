@@ -296,6 +296,29 @@ class Enlargement:
 
 
 @dataclass(frozen=True)
+class ScheduleDay:
+    """One day of the schedule: what is painted (task, hours in words) and what dries overnight."""
+
+    day: int
+    work: tuple[tuple[str, str], ...]
+    dries: str = ""
+
+
+@dataclass(frozen=True)
+class ScheduleSheet:
+    """The day-by-day sheet (:func:`layerplan.schedule.work_schedule` in words)."""
+
+    lead: str
+    facts: tuple[tuple[str, str], ...]
+    days: tuple[ScheduleDay, ...]
+    #: (task, painter, part of the wall, hours): who paints where in each layer
+    shares: tuple[tuple[str, str, str, str], ...]
+    idle: str
+    rules: str
+    weather: tuple[str, ...]
+
+
+@dataclass(frozen=True)
 class Sheets:
     """Every sheet of a printed plan, in print order (the safety sheet is fixed text of the template)."""
 
@@ -314,6 +337,8 @@ class Sheets:
     enlargement_notes: tuple[tuple[int, str], ...] = ()
     #: (layer, figure): each layer's paint key, the hatching of each paint on its maps
     layer_keys: tuple[tuple[int, Figure], ...] = ()
+    #: the day-by-day sheet, when the plan was given a schedule
+    schedule: ScheduleSheet | None = None
 
     def enlargements_of(self, n: int) -> tuple[Enlargement, ...]:
         """The enlargement sheets of layer ``n``, in print order."""
@@ -621,6 +646,49 @@ def _brushes(plan: Plan, use: dict[str, Any], us: bool) -> Brushes:
         f" ({w.number(GROUND_M2_PER_HOUR * w.FT2_PER_M2, 0)} ft²)" if us else "")
     return Brushes(tuple(rows), w.duration(total), w.number(SECONDS_PER_STROKE),
                    w.number(STROKE_MM_PER_SECOND / 10), w.number(PAINT_CHANGE_SECONDS / 60), rate)
+
+
+def _hours(h: float) -> str:
+    return w.duration(float(h) * 3600.0) if h > 0 else "—"
+
+
+def schedule_sheet(schedule: Mapping[str, Any], unit: str) -> ScheduleSheet:
+    """The day-by-day sheet of a work schedule (:func:`layerplan.schedule.work_schedule`), in words."""
+    crew = int(schedule["crew"])
+    reach = float(schedule["reach_m"]) * 1000.0
+    facts = [("crew", w.count(crew, "painter")),
+             ("work", f"{_hours(schedule['hours'])} of painting in all (crew-hours)"),
+             ("at the wall", f"{_hours(schedule['painting_hours'])} with the crew working side by side"),
+             ("days", f"{schedule['days']}, at {w.number(schedule['hours_per_day'])} h of painting a day"),
+             ("drying", f"at least {w.number(schedule['drying_hours'])} h after each ground coat and layer")]
+    if "labour_cost" in schedule:
+        currency = str(schedule.get("currency") or "")
+        facts.append(("labour", f"{w.money(schedule['labour_cost'], currency)}: {w.number(schedule['paid_hours'])} "
+                                f"paid hours ({w.count(crew, 'painter')} at the wall) at "
+                                f"{w.money(schedule['labour_rate'], currency)} an hour"))
+    days = tuple(ScheduleDay(int(d["day"]), tuple((x["task"], _hours(x["hours"])) for x in d["work"]),
+                             f"let {d['dry_after']} dry" if d.get("dry_after") else "")
+                 for d in schedule["days_list"])
+    shares = []
+    for task in schedule["tasks"]:
+        for p in task["painters"]:
+            where = (f"columns {p['columns']} ({w.length(p['band_mm'][0], unit)} to "
+                     f"{w.length(p['band_mm'][1], unit)} from the left), {w.count(p['strokes'], 'stroke')}"
+                     if p.get("band_mm") else str(p["columns"]))
+            shares.append((task["task"], f"painter {p['painter']}", where, _hours(p["hours"])))
+    idle = "; ".join(f"layer {x['layer']}: {w.count(x['painters'], 'painter')} without a part of the wall"
+                     for x in schedule.get("idle_painters") or [])
+    if idle:
+        idle = (f"{idle} (the wall has too few {w.length(reach, unit)} work-zone columns for the whole crew to "
+                "paint without sharing a ladder; they can mix paint, wash brushes and move ladders).")
+    lead = (f"The wall is cut into columns of {w.length(reach, unit)} work zones (what one ladder or lift position "
+            "reaches), named A, B, C… from the left. Each painter takes whole columns, a band of the wall from the "
+            "top down, so no two painters share a ladder and drips fall on each painter's own unpainted wall.")
+    rules = (f"Worked out from the time rules of the brushes-and-time sheet (from memory), with "
+             f"{w.number(schedule['hours_per_day'])} h of painting a day per painter (from memory: an eight-hour day "
+             "less setting up, breaks and washing up) and the drying wait counted through the night. Each painter "
+             "washes out and reloads for each paint they use in a layer.")
+    return ScheduleSheet(lead, tuple(facts), days, tuple(shares), idle, rules, tuple(schedule.get("weather") or ()))
 
 
 def _grid(plan: Plan, imgs, grid_mm: float, unit: str) -> TransferGrid:
@@ -964,6 +1032,7 @@ def build_sheets(
     paper: str = DEFAULT_PAPER,
     canvases: list[np.ndarray] | None = None,
     enlargements_per_layer: int = MAX_ENLARGEMENTS_PER_LAYER,
+    schedule: Mapping[str, Any] | None = None,
 ) -> Sheets:
     """The printed plan's sheets as plain data (the options of :func:`layerplan.report.plan_html`).
 
@@ -994,6 +1063,8 @@ def build_sheets(
         to skip enlargements of squares the layer leaves alone; made if missing.
     enlargements_per_layer : int
         Most enlargement sheets of one layer (>= 0); the layer sheet says what was left out.
+    schedule : mapping, optional
+        The work schedule (:func:`layerplan.schedule.work_schedule`); adds the day-by-day sheet.
 
     Returns
     -------
@@ -1071,4 +1142,5 @@ def build_sheets(
         grid_parts=_grid_parts(plan, steps[-1], grid_mm, unit, sheet),
         enlargement_notes=tuple(notes),
         layer_keys=tuple(keys),
+        schedule=None if schedule is None else schedule_sheet(schedule, unit),
     )

@@ -134,7 +134,8 @@ def test_paint_use_is_worked_out_once_and_shared(monkeypatch):
 def test_plan_json_keeps_the_contract_and_the_paint_use_section_goes_last(files):
     plan = _board()
     doc = json.loads(files["plan.json"])
-    assert list(doc) == [*plan.to_dict(), "paint_use"]
+    # the derived sections last: paint use, then the work schedule worked out from it
+    assert list(doc) == [*plan.to_dict(), "paint_use", "schedule"]
     assert doc["settings"]["wall_unit"] == "cm" and doc["inventory"] == plan.extra["inventory"]
     # the recipe as given, plus its batch (the split of the paint's litres, layerplan.batches)
     assert {k: v for k, v in doc["palette"][2]["recipe"].items() if k != "batch"} == plan.palette[2].extra["recipe"]

@@ -58,6 +58,15 @@ numbers are mm):
                   (``--paper``, default a4)
 ``enlargements``  most enlargement sheets of one layer in the printed plan (the squares with the most areas
                   are kept); 0 for none; whole number from 0 to 400 (``--enlargements``, default 24)
+``crew``          painters sharing the work; each takes whole columns of work zones, so no two share a ladder
+                  (the schedule sheet says who paints where); whole number from 1 to 50 (``--crew``, default
+                  1)
+``day_hours``     painting hours a painter puts in a day at the wall; from 0 to 24 h (``--day-hours``, default
+                  6)
+``drying``        hours each ground coat and layer dries before the next goes on (acrylics: 2-4 h at 20 °C,
+                  longer when cold or damp); from 0 to 336 h (``--drying-hours``, default 4)
+``labour_rate``   pay for one painter-hour at the wall, in the inventory's currency: the schedule adds the
+                  labour cost; >= 0 (``--labour-rate``, default none)
 <!-- end of options table -->
 
 Errors are ``{"error": "<message>"}`` with 400, 404, 405, 413, 415 or 503. A refused plan
