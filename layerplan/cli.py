@@ -95,7 +95,18 @@ def cmd_plan(args) -> int:
     # said before the long work, so the painter can stop and fix it; the plan carries the same words
     _print_warnings(raster_warnings(size, settings.brushes_mm, pixel_given=settings.mm_per_px is not None))
     bar = None if args.quiet else TerminalBar(sys.stderr)
-    plan = make_plan(image, settings, progress=bar)
+    hours, strokes = values.get("hours"), values.get("strokes")
+    if hours is not None and strokes is not None:
+        raise UsageError("give one budget: --hours (with --crew) or --strokes, not both")
+    if hours is not None or strokes is not None:
+        from .budget import budget_words, fit_to_budget
+
+        # the stroke cost is searched for the plan that comes closest to the budget (a few plans' time)
+        plan = fit_to_budget(image, settings, hours=hours, strokes=strokes, crew=output.get("crew", 1),
+                             quantity_options=output, progress=bar)
+        print(f"layerplan: {budget_words(plan.extra['budget'])}", file=sys.stderr)
+    else:
+        plan = make_plan(image, settings, progress=bar)
     # a new plan with its source named (the Plan make_plan returned is never changed)
     plan = dataclasses.replace(plan, extra={**plan.extra, "source": {"image": Path(args.image).name}})
     write_outputs(plan, out, **output)
