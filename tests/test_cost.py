@@ -129,3 +129,33 @@ def test_shopping_sheet_shows_cost_per_paint_and_total():
     shop = _shopping(plan, paint_use(plan), "m")
     assert {r.paint: r.cost for r in shop.stock} == {"Blue": "EUR\u00a05.00", "White": "EUR\u00a06.00"}
     assert shop.total_cost == "EUR\u00a011.00"
+
+
+def test_plan_page_shows_cost_per_stock_paint_and_total(client):
+    """The web page's shopping list, for an inventory entered on the start page with every size priced."""
+    import re
+    from importlib import resources
+
+    from conftest import plan_form, wait_for_plan
+
+    text = resources.files("layerplan").joinpath("data", "default_inventory.toml").read_text("utf-8")
+    text = 'currency = "EUR"\n' + re.sub(
+        r"containers_l = \[([^\]]*)\]",
+        lambda m: "containers_l = [" + ", ".join(f"{{ litres = {v.strip()}, price = {12 * float(v):.2f} }}"
+                                                  for v in m.group(1).split(",") if v.strip()) + "]", text)
+    assert "price = " in text  # the default set lists container sizes, so each got a price
+    r = client.post("/api/plans", data=plan_form(inventory="edit", inventory_text=text),
+                    content_type="multipart/form-data")
+    plan_id = r.get_json()["id"]
+    assert wait_for_plan(client, plan_id, timeout=240)[-1]["state"] == "done"
+    use = client.get(f"/api/plans/{plan_id}").get_json()
+    page = client.get(f"/plans/{plan_id}").get_data(as_text=True)
+    doc = client.get(next(u for n, u in use["files"].items() if n == "plan.json")).get_json()
+    cost = doc["paint_use"]["cost"]
+    # the total is the sum of the stock paints' costs, each count × price (12 a litre here)
+    assert cost["total"] == pytest.approx(sum(s["cost"] for s in doc["paint_use"]["stock"]))
+    for s in doc["paint_use"]["stock"]:
+        assert s["cost"] == pytest.approx(sum(12 * c["litres"] * c["count"] for c in s["containers"]), abs=0.01)
+        assert wording.money(s["cost"], "EUR") in page
+    total = re.search(r'id="stock-total">.*?<td class="num">([^<]*)</td>', page, re.S).group(1)
+    assert total == wording.money(cost["total"], "EUR")
