@@ -272,7 +272,7 @@ def test_huge_lengths_walls_and_brushes_are_refused_with_the_real_bound():
         OPTIONS["brushes"].parse(HUGE[:150])
     with pytest.raises(OptionError, match=r"^brushes: brush width must be at least 1 mm, got 0.1"):
         OPTIONS["brushes"].parse("100,0.1")
-    with pytest.raises(OptionError, match=r"^brushes: at most 8 brushes, got 20,000$"):
+    with pytest.raises(OptionError, match=r"^at most 8 brushes, got 20,000$"):
         OPTIONS["brushes"].check([10.0] * 20_000)
 
 
