@@ -20,6 +20,10 @@ class UsageError(Exception):
     """A bad argument: reported on stderr with exit status 2."""
 
 
+#: largest plan.json `layerplan render` reads, bytes (a plan at the 8-megapixel limit is some 70 MB)
+MAX_PLAN_JSON_BYTES = 300_000_000
+
+
 def _parser() -> argparse.ArgumentParser:
     p = argparse.ArgumentParser(
         prog="layerplan",
@@ -82,14 +86,14 @@ def cmd_plan(args) -> int:
     values = options.values_from_cli(args, "plan")
     settings = Settings(**options.settings_kwargs(values)).validated()
     output = options.output_kwargs(values)
-    try:
-        out = check_destination(args.out)
+    try:  # before the long work: a folder that cannot take the plan is said now, not after it
+        out = check_destination(args.out, photo=args.image)
     except ValueError as exc:
-        raise UsageError(f"--out: {exc}") from exc
+        raise UsageError(f"--out: {exc}") from None
     try:
         inventory = default_inventory() if settings.inventory is None else load_inventory(settings.inventory)
     except ValueError as exc:  # the message names the file, line and field
-        raise UsageError(f"--inventory: {exc}") from exc
+        raise UsageError(f"--inventory: {exc}") from None
     image = load_image(args.image)
     size = options.check_plan(settings, output, image.shape, inventory_paints=len(inventory))
     # said before the long work, so the painter can stop and fix it; the plan carries the same words
@@ -109,7 +113,7 @@ def cmd_plan(args) -> int:
         plan = make_plan(image, settings, progress=bar)
     # a new plan with its source named (the Plan make_plan returned is never changed)
     plan = dataclasses.replace(plan, extra={**plan.extra, "source": {"image": Path(args.image).name}})
-    write_outputs(plan, out, **output)
+    write_outputs(plan, out, photo=args.image, **output)
     if not args.quiet:
         print(f"plan written to {out}/ ({plan.stroke_count()} strokes, {len(plan.palette)} paints, "
               f"{len(plan.layers)} layers)", file=sys.stderr)
@@ -136,24 +140,30 @@ def _print_pdf_note() -> None:
 
 def cmd_render(args) -> int:
     from .caveats import plan_warnings
-    from .export import write_outputs
+    from .export import check_destination, write_outputs
     from .plan import Plan
 
     output = options.output_kwargs(options.values_from_cli(args, "render"))
     src = Path(args.plan_json)
-    if not src.is_file():
+    if not src.is_file():  # a device or a pipe (/dev/zero) is no plan.json either
         raise UsageError(f"{src} is not a file; give the plan.json a `layerplan plan` wrote")
-    out = Path(args.out)
-    if out.exists() and not out.is_dir():
-        raise UsageError(f"--out {out} exists and is not a folder")
     try:
-        text = src.read_text(encoding="utf-8")
-    except UnicodeDecodeError as exc:
-        raise UsageError(f"{src} is not a plan.json (not UTF-8 text)") from exc
+        out = check_destination(args.out)
+    except ValueError as exc:
+        raise UsageError(f"--out: {exc}") from None
+    with src.open("rb") as f:
+        data = f.read(MAX_PLAN_JSON_BYTES + 1)
+    if len(data) > MAX_PLAN_JSON_BYTES:
+        raise UsageError(f"{src} is over {MAX_PLAN_JSON_BYTES // 1_000_000} MB; a plan.json of the largest plan "
+                         f"is well under that")
+    try:
+        text = data.decode("utf-8")
+    except UnicodeDecodeError:
+        raise UsageError(f"{src} is not a plan.json (not UTF-8 text)") from None
     try:
         plan = Plan.from_json(text)
     except ValueError as exc:
-        raise UsageError(f"{src}: {exc}") from exc
+        raise UsageError(f"{src}: {exc}") from None
     options.check_grid(plan.wall_width_mm, plan.wall_height_mm, output.get("grid_mm"))
     write_outputs(plan, out, **output)
     print(f"outputs rebuilt in {out}/ ({plan.stroke_count()} strokes, {len(plan.palette)} paints)", file=sys.stderr)

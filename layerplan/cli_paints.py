@@ -21,9 +21,14 @@ import math
 import sys
 
 from .inventory import Inventory, InventoryError, default_inventory, load_inventory
+from .options import shown
 from .plan import hex_to_rgb, rgb_to_hex
 
 EXIT_USAGE = 2
+#: most colours `layerplan mix` matches in one call (a palette is at most 32; a swatch card a few dozen)
+MAX_MIX_COLOURS = 256
+#: largest number of parts in a --combine mix (as a tint's parts in an inventory)
+MAX_COMBINE_PARTS = 1000.0
 
 
 class _Fail(Exception):
@@ -150,7 +155,7 @@ def parse_colour(text: str) -> str:
     try:
         return rgb_to_hex(hex_to_rgb(text))
     except ValueError:
-        raise ValueError(f"not a colour: {text!r} (give sRGB hex like '#6b8e23')") from None
+        raise ValueError(f"not a colour: {shown(text)} (give sRGB hex like '#6b8e23')") from None
 
 
 def _parse_combine(items: list[str]) -> dict[str, float]:
@@ -158,16 +163,17 @@ def _parse_combine(items: list[str]) -> dict[str, float]:
     for item in items:
         name, sep, amount = item.rpartition("=")
         if not sep or not name.strip():
-            raise _Fail(f"--combine: {item!r} is not NAME=PARTS (e.g. 'Earth yellow=2')")
+            raise _Fail(f"--combine: {shown(item)} is not NAME=PARTS (e.g. 'Earth yellow=2')")
         try:
             value = float(amount)
         except ValueError:
-            raise _Fail(f"--combine: parts in {item!r} must be a number, got {amount!r}") from None
-        if not math.isfinite(value) or value <= 0:
-            raise _Fail(f"--combine: parts in {item!r} must be > 0, got {amount!r}")
+            raise _Fail(f"--combine: parts in {shown(item)} must be a number, got {shown(amount)}") from None
+        if not math.isfinite(value) or not 0 < value <= MAX_COMBINE_PARTS:
+            raise _Fail(f"--combine: parts in {shown(item)} must be > 0 and at most {MAX_COMBINE_PARTS:g}, "
+                        f"got {shown(amount)}")
         key = name.strip()
         if key.casefold() in (k.casefold() for k in parts):
-            raise _Fail(f"--combine: paint {key!r} is given twice")
+            raise _Fail(f"--combine: paint {shown(key)} is given twice")
         parts[key] = value
     return parts
 
@@ -192,6 +198,8 @@ def _mix_text(args) -> str:
             text += f"  {_less_sure(result['no_tint'])}\n"
         return text
 
+    if len(args.colours) > MAX_MIX_COLOURS:
+        raise _Fail(f"at most {MAX_MIX_COLOURS} colours at a time, got {len(args.colours):,}")
     colours = [parse_colour(c) for c in args.colours]
     inv = inventory_from_arg(args.inventory)
     recipes = recipes_for_srgb(colours, inv, max_paints=args.mix_paints, max_parts=args.max_parts,

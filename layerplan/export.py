@@ -7,8 +7,9 @@ registry, :data:`EXPORTS` (name -> :class:`Export`: builder, label, media type, 
 names); :func:`build_files` runs it and the web page's download list reads it, so a new
 export is one entry there.
 
-Everything is written into a temporary folder beside the destination and moved into
-place at the end, so a failed run never leaves a plan that looks finished.
+Everything is written into a hidden partial folder and moved into place at the end, so a
+failed run never leaves a plan that looks finished; files a plan did not write are never
+touched (:func:`check_destination`, :func:`write_outputs`).
 """
 
 from __future__ import annotations
@@ -19,6 +20,7 @@ import os
 import re
 import shutil
 import tempfile
+import time
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass
 from functools import cached_property
@@ -306,64 +308,234 @@ def _folder_mode(private: Path) -> int:
         probe.rmdir()
 
 
-def check_destination(out_dir) -> Path:
-    """Check that a plan may be written to ``out_dir`` (call it before long work too).
+#: hidden folders a plan is written into before it is moved into place: ``.NAME.partial-PID-xxxx``
+#: beside a new folder, ``.layerplan.partial-PID-xxxx`` inside an existing one (``.NAME.old-PID``
+#: and a partial without a process id: left by older versions)
+_PARTIAL_RE = re.compile(r"^\.(?P<name>.+)\.(?:partial|old)-(?:(?P<pid>\d+)(?:-|$))?")
+_INSIDE = "layerplan"
+#: a partial folder of no known process is taken as abandoned after this long, s
+_ABANDONED_S = 3600.0
+
+
+def _plan_file(rel: str) -> bool:
+    """Whether a plan writes the file ``rel`` (relative, ``/``-separated): safe to replace."""
+    return export_for(rel) is not None
+
+
+def _foreign(folder: Path, *, keep: Path | None = None) -> list[str]:
+    """The entries of ``folder`` a plan did not write (``keep``, the photo, aside), relative names."""
+    found = []
+    for entry in sorted(folder.iterdir()):
+        rel = entry.name
+        if keep is not None and entry == keep:
+            continue
+        if _PARTIAL_RE.match(rel):
+            continue  # a partial plan of ours
+        if entry.is_dir() and not entry.is_symlink() and rel == "steps":
+            found += [f"steps/{e.name}" for e in sorted(entry.iterdir()) if not _plan_file(f"steps/{e.name}")
+                      or not e.is_file()]
+        elif not (entry.is_file() and _plan_file(rel)):
+            found.append(rel + ("/" if entry.is_dir() else ""))
+    return found
+
+
+def _listed(names: list[str]) -> str:
+    shown = ", ".join(names[:3])
+    return shown + (f" and {len(names) - 3} more" if len(names) > 3 else "")
+
+
+def _probe_writable(folder: Path) -> None:
+    """Make and remove a hidden folder in ``folder``: the one sure test of being able to write there."""
+    try:
+        probe = tempfile.mkdtemp(prefix=".layerplan-probe-", dir=folder)
+    except OSError as exc:
+        raise ValueError(f"cannot write into {folder}: {exc.strerror or exc}") from None
+    os.rmdir(probe)
+
+
+def check_destination(out_dir, *, photo=None) -> Path:
+    """Check that a plan may be written to ``out_dir``; call it before the long work.
+
+    The folder may be new, empty, or an earlier plan (its other files are kept); the
+    photo's own folder only when it holds nothing else; and it must be writable (a hidden
+    folder is made and removed to find out).
+
+    Parameters
+    ----------
+    out_dir : path
+    photo : path, optional, keyword-only
+        The photo being planned, which may sit in ``out_dir``.
+
+    Returns
+    -------
+    Path
+        ``out_dir`` made absolute (``.`` and ``..`` resolved to the folders they name).
 
     Raises
     ------
     ValueError
-        If ``out_dir`` is a file, or a folder that is neither empty nor an earlier plan.
+        A file; a folder holding other files and no plan; the photo's folder holding
+        other files; the root folder; or a folder that cannot be written.
     """
-    out = Path(out_dir)
+    if not str(out_dir).strip():
+        raise ValueError("give the folder to write the plan into")
+    out = Path(os.path.abspath(os.fspath(out_dir)))
+    if not out.name:
+        raise ValueError(f"{out} is the root folder; give a folder for the plan, e.g. {out / 'plan'}")
+    if out.is_symlink() and not out.exists():
+        raise ValueError(f"{out} is a link to nothing; give a folder for the plan")
     if out.exists():
         if not out.is_dir():
             raise ValueError(f"output {out} exists and is not a folder")
-        if any(out.iterdir()) and not (out / _MARKER).exists():
-            raise ValueError(f"output folder {out} is not empty and holds no plan; refusing to overwrite it")
+        keep = None
+        if photo is not None:
+            photo_path = Path(os.path.abspath(os.fspath(photo)))
+            if photo_path.parent.exists() and photo_path.parent.samefile(out):
+                keep = out / photo_path.name
+                if _plan_file(photo_path.name):
+                    raise ValueError(f"{out} holds the photo {photo_path.name}, a name the plan writes; give "
+                                     f"another folder, e.g. {out / 'plan'}")
+        others = _foreign(out, keep=keep)
+        if others and keep is not None:
+            raise ValueError(f"output folder {out} is the photo's own folder and holds other files ({_listed(others)}); give "
+                             f"a new folder, e.g. {out / 'plan'}")
+        if others and not (out / _MARKER).is_file():
+            raise ValueError(f"output folder {out} is not empty and holds no plan ({_listed(others)}); refusing to "
+                             f"overwrite it: give a new or empty folder")
+        _probe_writable(out)
+    else:
+        base = out.parent
+        while not base.exists():
+            base = base.parent
+        if not base.is_dir():
+            raise ValueError(f"cannot make {out}: {base} is a file")
+        _probe_writable(base)
     return out
 
 
-def write_outputs(plan: Plan, out_dir, **options) -> Path:
-    """Write all outputs of ``plan`` into ``out_dir``, atomically.
+def _alive(pid: int) -> bool:
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except OSError:  # another user's process: alive
+        return True
+    return True
+
+
+def clean_partials(folder, name: str) -> list[Path]:
+    """Remove the partial folders an interrupted run left for ``name`` in ``folder``.
+
+    A partial folder is removed when the process that made it is gone (or, for one without
+    a process id, after an hour), and only if it holds nothing but files a plan writes.
+
+    Returns
+    -------
+    list of Path
+        The folders removed.
+    """
+    removed = []
+    folder = Path(folder)
+    try:
+        entries = list(folder.iterdir())
+    except OSError:
+        return removed
+    for entry in entries:
+        m = _PARTIAL_RE.match(entry.name)
+        if m is None or m.group("name") != name or not entry.is_dir() or entry.is_symlink():
+            continue
+        pid = m.group("pid")
+        if pid is not None and (int(pid) == os.getpid() or _alive(int(pid))):
+            continue
+        try:
+            if pid is None and time.time() - entry.stat().st_mtime < _ABANDONED_S:
+                continue
+            files = [p for p in entry.rglob("*") if not p.is_dir()]
+        except OSError:
+            continue
+        if all(p.is_file() and not p.is_symlink() and _plan_file(p.relative_to(entry).as_posix()) for p in files):
+            shutil.rmtree(entry, ignore_errors=True)
+            removed.append(entry)
+    return removed
+
+
+def write_outputs(plan: Plan, out_dir, *, photo=None, **options) -> Path:
+    """Write all outputs of ``plan`` into ``out_dir``.
+
+    Every file is first written into a hidden partial folder; then a new folder is renamed
+    into place at once, or, for an existing folder, the earlier plan.json is removed, the
+    files are moved in and plan.json comes last, so a folder without it never looks
+    finished. Files a plan does not write are never touched; partial folders an
+    interrupted run left are removed (:func:`clean_partials`).
 
     Parameters
     ----------
     plan : Plan
     out_dir : path
-        Created if missing. An existing folder is replaced only if it is empty or holds an
-        earlier plan (a plan.json).
+        Created if missing. An existing folder must be empty or hold an earlier plan
+        (see :func:`check_destination`).
+    photo : path, optional, keyword-only
+        The photo planned, which may sit in ``out_dir`` (its own folder) and is kept.
     **options
         ``grid_mm`` and the quantity options, passed to :func:`build_files`.
 
     Returns
     -------
-    Path of the folder written.
+    Path of the folder written (absolute).
 
     Raises
     ------
     ValueError
-        If ``out_dir`` exists and is not a plan folder, or is a file; or a bad option.
+        If ``out_dir`` cannot take a plan (see :func:`check_destination`); or a bad option.
     """
-    out = check_destination(out_dir)
-    out.parent.mkdir(parents=True, exist_ok=True)
+    out = check_destination(out_dir, photo=photo)
     files = build_files(plan, **options)
-    tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.partial-", dir=out.parent))
+    if out.exists():
+        clean_partials(out, _INSIDE)
+        _write_into(out, files)
+    else:
+        out.parent.mkdir(parents=True, exist_ok=True)
+        clean_partials(out.parent, out.name)
+        _write_new(out, files)
+    return out
+
+
+def _write_files(tmp: Path, files: Mapping[str, bytes]) -> None:
+    for rel in files:
+        path = tmp / rel
+        path.parent.mkdir(parents=True, exist_ok=True)
+        path.write_bytes(files[rel])
+
+
+def _write_new(out: Path, files: Mapping[str, bytes]) -> None:
+    tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.partial-{os.getpid()}-", dir=out.parent))
     try:
-        # plan.json last: a folder without it never looks finished
-        for rel in sorted(files, key=lambda r: r == "plan.json"):
-            path = tmp / rel
-            path.parent.mkdir(parents=True, exist_ok=True)
-            path.write_bytes(files[rel])
+        _write_files(tmp, files)
         # mkdtemp makes the folder 0700; a finished plan gets the usual mode for a new folder
         tmp.chmod(_folder_mode(tmp))
-        old = None
-        if out.exists():
-            old = out.with_name(f".{out.name}.old-{os.getpid()}")
-            os.replace(out, old)
         os.replace(tmp, out)
-        if old is not None:
-            shutil.rmtree(old, ignore_errors=True)
     except BaseException:
         shutil.rmtree(tmp, ignore_errors=True)
         raise
-    return out
+
+
+def _write_into(out: Path, files: Mapping[str, bytes]) -> None:
+    # the partial folder inside the destination: moving out of it never crosses a file system
+    tmp = Path(tempfile.mkdtemp(prefix=f".{_INSIDE}.partial-{os.getpid()}-", dir=out))
+    try:
+        _write_files(tmp, files)
+        marker = out / _MARKER
+        if marker.is_file():
+            marker.unlink()  # from here until the end the folder does not look finished
+        for rel in sorted(files):
+            if rel != _MARKER:
+                (out / rel).parent.mkdir(parents=True, exist_ok=True)
+                os.replace(tmp / rel, out / rel)
+        earlier = [*out.iterdir(), *((out / "steps").iterdir() if (out / "steps").is_dir() else ())]
+        for old in [p for p in earlier if p.is_file() and not p.is_symlink()]:
+            rel = old.relative_to(out).as_posix()
+            if rel not in files and _plan_file(rel):  # an earlier plan's file this one does not have
+                old.unlink()
+        os.replace(tmp / _MARKER, marker)
+    finally:
+        shutil.rmtree(tmp, ignore_errors=True)

@@ -69,11 +69,13 @@ from __future__ import annotations
 
 import math
 import re
+import stat
 import tomllib
 from dataclasses import dataclass, field
 from importlib import resources
 from pathlib import Path
 
+from .options import shown
 from .plan import hex_to_rgb, rgb_to_hex
 
 #: the most paints an inventory may list (far more than a wall painter carries; keeps the
@@ -85,8 +87,17 @@ MAX_NAME_CHARS = 60
 MIN_TINTING_STRENGTH, MAX_TINTING_STRENGTH = 0.01, 50.0
 #: largest container size accepted, litres (a 200 L drum)
 MAX_CONTAINER_L = 200.0
-#: largest inventory file read, bytes
+#: largest inventory file read, bytes (64 paints with tints and notes take some 20 kB)
 MAX_FILE_BYTES = 1_000_000
+#: most sizes listed for one paint's containers (a paint line is sold in five or six; common practice)
+MAX_CONTAINER_SIZES = 8
+#: smallest container size, litres (quantities are worked out to 10 mL)
+MIN_CONTAINER_L = 0.01
+#: deepest nesting of arrays and inline tables (an inventory needs 2: a tint's ``lab`` inside its table);
+#: checked on the text before parsing, since Python's TOML reader recurses once per level
+MAX_NESTING = 8
+#: longest title and note, characters
+MAX_TITLE_CHARS, MAX_NOTE_CHARS = 200, 500
 
 _PAINT_KEYS = ("name", "srgb", "lab", "white", "tint", "tinting_strength", "containers_l", "note")
 _TINT_KEYS = ("srgb", "lab", "paint_parts", "white_parts")
@@ -245,16 +256,24 @@ def load_inventory(path) -> Inventory:
     p = Path(path)
     source = str(path)
     try:
-        if p.is_dir():
+        mode = p.stat().st_mode
+        if stat.S_ISDIR(mode):
             raise InventoryError(f"{source}: is a folder, not an inventory file")
-        size = p.stat().st_size
-        if size > MAX_FILE_BYTES:
-            raise InventoryError(f"{source}: inventory file is too large ({size} bytes; at most {MAX_FILE_BYTES})")
-        data = p.read_bytes()
+        if not stat.S_ISREG(mode):  # a device (/dev/zero), a pipe or a socket could be read forever
+            raise InventoryError(f"{source}: not a regular file; give the path of a TOML inventory file")
+        with p.open("rb") as f:
+            data = f.read(MAX_FILE_BYTES + 1)  # never more than the limit, whatever the size says
+        if len(data) > MAX_FILE_BYTES:
+            raise InventoryError(f"{source}: inventory file is too large (over {MAX_FILE_BYTES:,} bytes; at most "
+                                 f"{MAX_FILE_BYTES:,})")
+    except InventoryError:
+        raise
     except FileNotFoundError:
         raise InventoryError(f"{source}: no such inventory file") from None
     except PermissionError:
         raise InventoryError(f"{source}: cannot read the inventory file (permission denied)") from None
+    except ValueError:  # a path with a NUL byte in it
+        raise InventoryError(f"{source}: not a usable file path") from None
     except OSError as exc:
         raise InventoryError(f"{source}: cannot read the inventory file: {exc.strerror or exc}") from None
     try:
@@ -283,27 +302,38 @@ def loads_inventory(text: str, *, source: str = "<inventory>") -> Inventory:
     ------
     InventoryError
     """
+    if len(text) > MAX_FILE_BYTES:
+        raise InventoryError(f"{source}: inventory is too large ({len(text):,} characters; at most "
+                             f"{MAX_FILE_BYTES:,})")
+    deep = _too_deep(text, MAX_NESTING)
+    if deep is not None:
+        raise InventoryError(f"{source}: line {deep}: arrays or tables nested more than {MAX_NESTING} deep; an "
+                             f"inventory needs at most 2 (a tint's lab list inside its table)")
     try:
         doc = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
-        raise InventoryError(f"{source}: not valid TOML: {exc}") from None
+        raise InventoryError(f"{source}: not valid TOML: {_cut(str(exc))}") from None
+    except RecursionError:  # nesting the text scan did not see; refused all the same
+        raise InventoryError(f"{source}: nested too deep to read (at most {MAX_NESTING} levels)") from None
     unknown = [k for k in doc if k not in _TOP_KEYS]
     if unknown:
         raise InventoryError(
-            f"{source}: unknown top-level key {unknown[0]!r} (allowed: {', '.join(_TOP_KEYS)}; "
+            f"{source}: unknown top-level key {_said(unknown[0])} (allowed: {', '.join(_TOP_KEYS)}; "
             f"each paint goes in a [[paint]] table)"
         )
     title = doc.get("title", "")
     if not isinstance(title, str):
-        raise InventoryError(f"{source}: 'title' must be text, got {title!r}")
+        raise InventoryError(f"{source}: 'title' must be text, got {_said(title)}")
+    if len(title) > MAX_TITLE_CHARS:
+        raise InventoryError(f"{source}: 'title' is longer than {MAX_TITLE_CHARS} characters ({len(title):,})")
     fmt = doc.get("format", 1)
     if isinstance(fmt, bool) or fmt not in FORMATS:
-        raise InventoryError(f"{source}: 'format' must be one of {', '.join(map(str, FORMATS))}, got {fmt!r}")
+        raise InventoryError(f"{source}: 'format' must be one of {', '.join(map(str, FORMATS))}, got {_said(fmt)}")
     currency = doc.get("currency", "")
     if not isinstance(currency, str) or len(currency.strip()) > MAX_CURRENCY_CHARS \
             or any(ord(c) < 32 for c in currency):
         raise InventoryError(f"{source}: 'currency' must be text of at most {MAX_CURRENCY_CHARS} characters "
-                             f"(such as \"EUR\" or \"$\"), got {currency!r}")
+                             f"(such as \"EUR\" or \"$\"), got {_said(currency)}")
     currency = currency.strip()
     entries = doc.get("paint")
     if entries is None or entries == []:
@@ -398,12 +428,14 @@ def _where(source: str, number: int, line: int | None, name: str | None) -> str:
 def _parse_paint(entry: dict, number: int, line: int | None, source: str, *,
                  field_lines: dict[str, int] | None = None) -> StockPaint:
     raw_name = entry.get("name")
-    shown = raw_name.strip() if isinstance(raw_name, str) and raw_name.strip() else None
+    label = raw_name.strip() if isinstance(raw_name, str) and raw_name.strip() else None
+    if label is not None and len(label) > MAX_NAME_CHARS:  # messages name the paint, never at length
+        label = label[:MAX_NAME_CHARS - 1] + "…"
 
     def fail(fieldname: str, message: str) -> InventoryError:
         # the field's own line (a tint's parts are on the tint's line), else the paint's header
         at = (field_lines or {}).get(fieldname.split(".")[0], line)
-        return InventoryError(f"{_where(source, number, at, shown)}: field {fieldname!r}: {message}")
+        return InventoryError(f"{_where(source, number, at, label)}: field {_said(fieldname)}: {message}")
 
     for key in entry:
         if key not in _PAINT_KEYS:
@@ -412,18 +444,18 @@ def _parse_paint(entry: dict, number: int, line: int | None, source: str, *,
     if raw_name is None:
         raise fail("name", "missing; every paint needs a name")
     if not isinstance(raw_name, str) or not raw_name.strip():
-        raise fail("name", f"must be non-empty text, got {raw_name!r}")
+        raise fail("name", f"must be non-empty text, got {_said(raw_name)}")
     name = " ".join(raw_name.split())
     if len(name) > MAX_NAME_CHARS:
-        raise fail("name", f"longer than {MAX_NAME_CHARS} characters")
+        raise fail("name", f"longer than {MAX_NAME_CHARS} characters ({len(name):,})")
     if "=" in name or any(ord(c) < 32 for c in name):
-        raise fail("name", f"may not contain '=' or control characters, got {name!r}")
+        raise fail("name", f"may not contain '=' or control characters, got {_said(name)}")
 
     srgb, lab = _colour(entry, fail, "")
 
     white = entry.get("white", False)
     if not isinstance(white, bool):
-        raise fail("white", f"must be true or false, got {white!r}")
+        raise fail("white", f"must be true or false, got {_said(white)}")
     tint = None
     if "tint" in entry:
         if white:
@@ -435,32 +467,32 @@ def _parse_paint(entry: dict, number: int, line: int | None, source: str, *,
 
     strength = entry.get("tinting_strength", 1.0)
     if (
-        not isinstance(strength, (int, float))
-        or isinstance(strength, bool)
-        or not math.isfinite(strength)
+        not _finite_number(strength)
         or not MIN_TINTING_STRENGTH <= strength <= MAX_TINTING_STRENGTH
     ):
         raise fail(
             "tinting_strength",
-            f"must be a number from {MIN_TINTING_STRENGTH:g} to {MAX_TINTING_STRENGTH:g}, got {strength!r}",
+            f"must be a number from {MIN_TINTING_STRENGTH:g} to {MAX_TINTING_STRENGTH:g}, got {_said(strength)}",
         )
 
     containers = entry.get("containers_l", [])
     if not isinstance(containers, list):
-        raise fail("containers_l", f"must be a list of sizes in litres, e.g. [1.0, 4.0], got {containers!r}")
+        raise fail("containers_l", f"must be a list of sizes in litres, e.g. [1.0, 4.0], got {_said(containers)}")
+    # each size listed is tried when the tins to buy are worked out: a few, as a shop sells them
+    if len(containers) > MAX_CONTAINER_SIZES:
+        raise fail("containers_l", f"at most {MAX_CONTAINER_SIZES} sizes, got {len(containers):,}")
     containers, prices = _container_records(containers, fail)
     for c in containers:
-        if (
-            not isinstance(c, (int, float))
-            or isinstance(c, bool)
-            or not math.isfinite(c)
-            or not 0.0 < c <= MAX_CONTAINER_L
-        ):
-            raise fail("containers_l", f"sizes must be > 0 and at most {MAX_CONTAINER_L:g} litres, got {c!r}")
+        if not _finite_number(c) or not 0.0 < c <= MAX_CONTAINER_L:
+            raise fail("containers_l", f"sizes must be > 0 and at most {MAX_CONTAINER_L:g} litres, got {_said(c)}")
+        if c < MIN_CONTAINER_L:
+            raise fail("containers_l", f"sizes must be at least {MIN_CONTAINER_L:g} litres (10 mL), got {_said(c)}")
 
     note = entry.get("note", "")
     if not isinstance(note, str):
-        raise fail("note", f"must be text, got {note!r}")
+        raise fail("note", f"must be text, got {_said(note)}")
+    if len(note) > MAX_NOTE_CHARS:
+        raise fail("note", f"longer than {MAX_NOTE_CHARS} characters ({len(note):,})")
 
     order = sorted(range(len(containers)), key=lambda k: float(containers[k]))
     return StockPaint(
@@ -487,11 +519,11 @@ def _container_records(items: list, fail) -> tuple[list, list]:
         unknown = sorted(set(c) - {"litres", "price"})
         if unknown or "litres" not in c:
             raise fail("containers_l", "a container with a price is { litres = 1.0, price = 14.5 }, "
-                                       f"got {c!r}")
+                                       f"got {_said(c)}")
         price = c.get("price")
         if price is not None and (isinstance(price, bool) or not isinstance(price, (int, float))
                                   or not math.isfinite(price) or not 0.0 <= price <= MAX_PRICE):
-            raise fail("containers_l", f"a price must be a number from 0 to {MAX_PRICE:g}, got {price!r}")
+            raise fail("containers_l", f"a price must be a number from 0 to {MAX_PRICE:g}, got {_said(price)}")
         sizes.append(c["litres"])
         prices.append(None if price is None else float(price))
     return sizes, prices
@@ -505,20 +537,15 @@ def _colour(entry: dict, fail, prefix: str) -> tuple[str, tuple[float, float, fl
     if has_srgb:
         value = entry["srgb"]
         if not isinstance(value, str):
-            raise fail(prefix + "srgb", f"must be a text hex colour like \"#c8962e\", got {value!r}")
+            raise fail(prefix + "srgb", f"must be a text hex colour like \"#c8962e\", got {_said(value)}")
         try:
             rgb = hex_to_rgb(value)
         except ValueError:
-            raise fail(prefix + "srgb", f"not a hex colour (#rrggbb): {value!r}") from None
+            raise fail(prefix + "srgb", f"not a hex colour (#rrggbb): {_said(value)}") from None
         return rgb_to_hex(rgb), _lab_of_srgb(rgb)
     value = entry["lab"]
-    if (
-        not isinstance(value, list)
-        or len(value) != 3
-        or not all(isinstance(v, (int, float)) and not isinstance(v, bool) for v in value)
-        or not all(math.isfinite(v) for v in value)
-    ):
-        raise fail(prefix + "lab", f"must be three numbers [L, a, b], got {value!r}")
+    if not isinstance(value, list) or len(value) != 3 or not all(_finite_number(v) for v in value):
+        raise fail(prefix + "lab", f"must be three numbers [L, a, b], got {_said(value)}")
     L, a, b = (float(v) for v in value)
     if not 0.0 <= L <= 100.0:
         raise fail(prefix + "lab", f"L must be from 0 to 100, got {L:g}")
@@ -532,7 +559,7 @@ def _parse_tint(value, fail) -> Tint:
     """The ``tint = {srgb|lab, paint_parts, white_parts}`` table of a paint."""
     if not isinstance(value, dict):
         raise fail("tint", "must be a table like { srgb = \"#8f9ad0\", paint_parts = 1, white_parts = 9 }, "
-                           f"got {value!r}")
+                           f"got {_said(value)}")
 
     for key in value:
         if key not in _TINT_KEYS:
@@ -543,15 +570,85 @@ def _parse_tint(value, fail) -> Tint:
         if key not in value:
             raise fail("tint." + key, "missing; say how many parts of paint and of white the tint was mixed from")
         v = value[key]
-        if (
-            isinstance(v, bool)
-            or not isinstance(v, (int, float))
-            or not math.isfinite(v)
-            or not 0.0 < v <= MAX_TINT_PARTS
-        ):
-            raise fail("tint." + key, f"must be a number > 0 and at most {MAX_TINT_PARTS:g}, got {v!r}")
+        if not _finite_number(v) or not 0.0 < v <= MAX_TINT_PARTS:
+            raise fail("tint." + key, f"must be a number > 0 and at most {MAX_TINT_PARTS:g}, got {_said(v)}")
         parts[key] = float(v)
     return Tint(srgb=srgb, lab=lab, **parts)
+
+
+def _finite_number(value) -> bool:
+    """A TOML number (not a boolean) that a float holds: 1e400 and 10**400 are not."""
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        return False
+    try:
+        return math.isfinite(value)
+    except OverflowError:
+        return False
+
+
+def _said(value) -> str:
+    """A value as an error message repeats it: short, whatever was written (a table is named, not printed)."""
+    if isinstance(value, dict):
+        return f"a table of {len(value)} field{'s' if len(value) != 1 else ''}"
+    if isinstance(value, list) and len(value) > 8:
+        return f"a list of {len(value):,} items"
+    try:
+        return shown(value)
+    except RecursionError:
+        return "a value nested too deep to show"
+
+
+def _cut(text: str, limit: int = 300) -> str:
+    return text if len(text) <= limit else text[:limit - 1] + "…"
+
+
+#: what the nesting scan stops at: brackets, the start of a string or a comment, a line end
+_SCAN_RE = re.compile(r"""[\[\]{}"'#\n]""")
+_BASIC_RE = re.compile(r'(?:[^"\\\n]|\\.)*"?')  # rest of a one-line "..." string (escapes skipped)
+_ML_BASIC_RE = re.compile(r'(?:[^"\\]|\\.|"(?!""))*(?:"""|$)', re.S)  # rest of a """...""" string
+
+
+def _too_deep(text: str, limit: int) -> int | None:
+    """The 1-based line where arrays and inline tables nest more than ``limit`` deep, or None.
+
+    Brackets inside strings and comments are not counted (TOML 1.0: strings, comments).
+    A table header such as ``[[paint]]`` counts 2 while it is open, like an array of arrays.
+    """
+    depth, line, pos, n = 0, 1, 0, len(text)
+    while True:
+        m = _SCAN_RE.search(text, pos)
+        if m is None:
+            return None
+        c, i = m.group(), m.start()
+        if c == "\n":
+            line, pos = line + 1, i + 1
+        elif c == "#":
+            end = text.find("\n", i)
+            pos = n if end < 0 else end
+        elif c in "[{":
+            depth += 1
+            if depth > limit:
+                return line
+            pos = i + 1
+        elif c in "]}":
+            depth, pos = max(0, depth - 1), i + 1
+        else:  # a string: skip to its end, counting its lines
+            if text.startswith(c * 3, i):
+                if c == '"':
+                    end = _ML_BASIC_RE.match(text, i + 3).end()
+                else:
+                    close = text.find("'''", i + 3)
+                    end = n if close < 0 else close + 3
+            elif c == '"':
+                end = _BASIC_RE.match(text, i + 1).end()
+            else:
+                close = text.find("'", i + 1)
+                nl = text.find("\n", i + 1)
+                end = n if close < 0 else close + 1
+                if 0 <= nl < close:  # an unclosed literal string ends at the line end (the parser says so)
+                    end = nl
+            line += text.count("\n", i, end)
+            pos = end
 
 
 def _lab_of_srgb(rgb) -> tuple[float, float, float]:

@@ -53,6 +53,27 @@ PAPERS, DEFAULT_PAPER = ("a4", "letter", "a3", "tabloid"), "a4"
 ENLARGEMENTS_PER_LAYER, MAX_ENLARGEMENTS_PER_LAYER = 24, 400
 #: upper bound on a seed, so it stays an ordinary integer everywhere
 MAX_SEED = 2**32 - 1
+#: most coats of the ground or of any stroke: two or three is the rule, a deep red on black may take
+#: five (common practice); ten leaves room and keeps litres and painting times ordinary numbers
+MAX_COATS = 10
+#: spreading rates we accept, m²/L: tins say about 6 to 16 (common practice, from memory); 0.5 is a
+#: thick textured coating, 100 nothing sold for walls. The floor also keeps litres finite.
+MIN_COVERAGE_M2_PER_L, MAX_COVERAGE_M2_PER_L = 0.5, 100.0
+#: highest stroke cost: at 1000 ΔE00 per brush-width square no stroke is worth painting any more
+MAX_STROKE_COST = 1000.0
+#: smallest work zone, mm (less than an arm's reach means nothing to a painter)
+MIN_REACH_MM = 100.0
+#: smallest transfer-grid square, mm (a chalk line is about that wide)
+MIN_GRID_MM = 1.0
+#: narrowest brush, mm (a fine liner; common practice)
+MIN_BRUSH_MM = 1.0
+#: longest text an option takes as typed (a wall size or a brush kit is a few dozen characters):
+#: longer text is refused unread, so a pasted page is neither parsed nor repeated back
+MAX_TEXT_CHARS = 200
+#: longest inventory path (PATH_MAX on Linux)
+MAX_PATH_CHARS = 4096
+#: longest value a message repeats whole; longer ones are cut and measured (see :func:`shown`)
+SHOWN_CHARS = 40
 
 #: first and last line of the generated tables in README.md and layerplan/web/api.py
 TABLE_START = "<!-- options table: made by `python -m layerplan.options --write`; edit layerplan/options.py -->"
@@ -109,8 +130,46 @@ class OptionError(ValueError):
 
 
 # ------------------------------------------------------------------------------ readers
+_DIGITS_RE = re.compile(r"[-+]?\d+(?:\.\d*)?")
+
+
+def shown(value) -> str:
+    """A value as a message repeats it: short ones whole, long ones cut and measured.
+
+    ``'15%'`` stays ``'15%'``; a 100,000-character field reads ``a 100,000-digit number``
+    or ``'xxxx…' (100,000 characters)``, so a refusal never sends kilobytes back.
+    """
+    if isinstance(value, bool) or value is None:
+        return repr(value)
+    if isinstance(value, int):
+        try:
+            digits = len(str(abs(value)))
+        except ValueError:  # past Python's limit on int-to-text conversion (4300 digits)
+            return f"a number of about {int(value.bit_length() * math.log10(2)) + 1:,} digits"
+        return repr(value) if digits <= SHOWN_CHARS else f"a {digits:,}-digit number"
+    if isinstance(value, float):
+        return f"{value:g}"
+    if isinstance(value, str):
+        t = value.strip()
+        if len(t) <= SHOWN_CHARS:
+            return repr(t)
+        if _DIGITS_RE.fullmatch(t):
+            return f"a {len(t.lstrip('+-').split('.')[0]):,}-digit number"
+        return f"{t[:SHOWN_CHARS - 10]!r}… ({len(t):,} characters)"
+    text = repr(value)
+    return text if len(text) <= SHOWN_CHARS else f"{text[:SHOWN_CHARS - 10]}… ({len(text):,} characters)"
+
+
+def _is_finite(value) -> bool:
+    """``math.isfinite`` that says False for an int too large for a float instead of raising."""
+    try:
+        return math.isfinite(value)
+    except OverflowError:
+        return False
+
+
 def _show(text: str) -> str:
-    return repr(text.strip())
+    return shown(text)
 
 
 def _bounds_rule(opt: "Option") -> str:
@@ -118,6 +177,8 @@ def _bounds_rule(opt: "Option") -> str:
     if opt.kind == "whole":
         return f"a whole number from {lo:.0f} to {hi:.0f}" if hi is not None else f"a whole number >= {lo:.0f}"
     if hi is not None:
+        if opt.strict:
+            return f"> {lo:g} and at most {hi:g}{{unit}}"
         return f"from {lo:g} to {hi:g}{{unit}}"
     return f"{'>' if opt.strict else '>='} {lo:g}{{unit}}"
 
@@ -138,7 +199,7 @@ def _read_whole(opt: "Option", text: str) -> int:
 
 def _check_whole(opt: "Option", value) -> int:
     if isinstance(value, bool) or not isinstance(value, int) or not _in_bounds(opt, value):
-        raise OptionError(opt.name, f"{{name}} must be {_bounds_rule(opt)}, got {value!r}")
+        raise OptionError(opt.name, f"{{name}} must be {_bounds_rule(opt)}, got {shown(value)}")
     return value
 
 
@@ -148,17 +209,21 @@ def _read_number(opt: "Option", text: str) -> float:
     except ValueError:
         raise OptionError(opt.name, f"{{name}} must be a number, got {_show(text)}") from None
     if not math.isfinite(value):
+        if _DIGITS_RE.match(text.strip()):  # digits too many for a float: out of bounds, not "inf"
+            raise OptionError(opt.name, f"{{name}} must be {_bounds_rule(opt)}, got {_show(text)}")
         raise OptionError(opt.name, f"{{name}} must be a finite number, got {_show(text)}")
     return _check_number(opt, value)
 
 
 def _check_number(opt: "Option", value) -> float:
     if isinstance(value, bool) or not isinstance(value, (int, float)):
-        raise OptionError(opt.name, f"{{name}} must be a number, got {value!r}")
+        raise OptionError(opt.name, f"{{name}} must be a number, got {shown(value)}")
+    if isinstance(value, int) and not _is_finite(value):
+        raise OptionError(opt.name, f"{{name}} must be {_bounds_rule(opt)}, got {shown(value)}")
     if not math.isfinite(value):
         raise OptionError(opt.name, f"{{name}} must be a finite number, got {value!r}")
     if not _in_bounds(opt, value):
-        raise OptionError(opt.name, f"{{name}} must be {_bounds_rule(opt)}, got {value:g}")
+        raise OptionError(opt.name, f"{{name}} must be {_bounds_rule(opt)}, got {shown(float(value))}")
     return float(value)
 
 
@@ -177,31 +242,49 @@ def _read_fraction(opt: "Option", text: str) -> float:
     if not percent and value > 1:  # 15 could mean 15 % or 1500 %: ask rather than guess
         hint = f" (for {value:g} percent write {value:g}%)" if value <= 100 else ""
         raise OptionError(opt.name, f"{{name}} must be {_FRACTION_RULE}, got {_show(text)}{hint}")
-    return _check_fraction(opt, value / 100.0 if percent else value, shown=t)
+    return _check_fraction(opt, value / 100.0 if percent else value, typed=t)
 
 
-def _check_fraction(opt: "Option", value, *, shown: str | None = None) -> float:
-    if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value) \
+def _check_fraction(opt: "Option", value, *, typed: str | None = None) -> float:
+    if isinstance(value, bool) or not isinstance(value, (int, float)) or not _is_finite(value) \
             or not 0 <= value <= 1:
-        raise OptionError(opt.name, f"{{name}} must be {_FRACTION_RULE}, got {repr(value) if shown is None else repr(shown)}")
+        said = shown(value if typed is None else typed)
+        raise OptionError(opt.name, f"{{name}} must be {_FRACTION_RULE}, got {said}")
     return float(value)
+
+
+def _length_bounds(opt: "Option", mm: float, said: str) -> float:
+    """A length in mm against the option's bounds (lengths have no range word: the side at fault is said)."""
+    if opt.minimum is not None and mm < opt.minimum:
+        raise OptionError(opt.name, f"{{name}} must be at least {opt.minimum:g} mm, got {said}")
+    if opt.maximum is not None and mm > opt.maximum:
+        raise OptionError(opt.name, f"{{name}} must be at most {opt.maximum / 1000:g} m, got {said}")
+    return mm
 
 
 def _read_length(opt: "Option", text: str) -> float:
     try:
         mm = units.parse_length(text)
+    except OverflowError:  # more digits than a float holds
+        mm = math.inf
     except ValueError:
         raise OptionError(opt.name, f"{{name}} must be a length such as 50cm or 2ft (plain numbers are mm), "
                                     f"got {_show(text)}") from None
-    if not math.isfinite(mm) or mm <= 0:
+    if mm <= 0:
         raise OptionError(opt.name, f"{{name}} must be > 0, got {_show(text)}")
-    return mm
+    if not math.isfinite(mm) and opt.maximum is None:
+        raise OptionError(opt.name, f"{{name}} must be a finite length, got {_show(text)}")
+    return _length_bounds(opt, mm, _show(text))
 
 
 def _check_length(opt: "Option", value) -> float:
-    if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value) or value <= 0:
-        raise OptionError(opt.name, f"{{name}} must be > 0{{unit}}, got {value!r}")
-    return float(value)
+    if isinstance(value, bool) or not isinstance(value, (int, float)) or value <= 0:
+        raise OptionError(opt.name, f"{{name}} must be > 0{{unit}}, got {shown(value)}")
+    if not _is_finite(value):
+        if opt.maximum is None or (isinstance(value, float) and math.isnan(value)):
+            raise OptionError(opt.name, f"{{name}} must be a finite length{{unit}}, got {shown(value)}")
+        return _length_bounds(opt, math.inf, shown(value))
+    return _length_bounds(opt, float(value), f"{float(value):g} mm")
 
 
 def _read_choice(opt: "Option", text: str) -> str:
@@ -210,7 +293,7 @@ def _read_choice(opt: "Option", text: str) -> str:
 
 def _check_choice(opt: "Option", value) -> str:
     if value not in opt.choices:
-        raise OptionError(opt.name, f"{{name}} must be one of {', '.join(opt.choices)}, got {value!r}")
+        raise OptionError(opt.name, f"{{name}} must be one of {', '.join(opt.choices)}, got {shown(value)}")
     return value
 
 
@@ -225,13 +308,16 @@ def _read_switch(opt: "Option", text: str) -> bool:
 
 def _check_switch(opt: "Option", value) -> bool:
     if not isinstance(value, bool):
-        raise OptionError(opt.name, f"{{name}} must be true or false, got {value!r}")
+        raise OptionError(opt.name, f"{{name}} must be true or false, got {shown(value)}")
     return value
 
 
 def _read_wall(opt: "Option", text: str) -> tuple[float, float | None, str]:
     try:
         width, height, unit = units.parse_wall(text)
+    except OverflowError:  # a side with more digits than a float holds
+        raise OptionError("wall", f"{{name}} must be at most {MAX_WALL_MM / 1000:g} m a side, got {_show(text)}",
+                          field="wall") from None
     except ValueError as exc:
         raise OptionError(opt.name, "{name}: " + str(exc)) from None
     check_wall_side("width", width, field="wall")
@@ -244,7 +330,7 @@ def check_wall_side(side: str, mm, *, field: str | None = None, shown: str | Non
     """Check one side of the wall, in mm; ``side`` is ``"width"`` or ``"height"``.
 
     The message names the side; ``shown`` is the value as the painter typed it, with its
-    unit (default: ``mm`` in metres).
+    unit (default: ``mm`` in metres); a long one is cut (:func:`layerplan.options.shown`).
 
     Raises
     ------
@@ -252,12 +338,15 @@ def check_wall_side(side: str, mm, *, field: str | None = None, shown: str | Non
         The side is not a number > 0, or over :data:`~layerplan.settings.MAX_WALL_MM`.
     """
     number = isinstance(mm, (int, float)) and not isinstance(mm, bool)
+    finite = number and _is_finite(mm)
     if shown is None:
-        shown = f"{mm / 1000:g} m" if number and math.isfinite(mm) else repr(mm)
+        shown = f"{float(mm) / 1000:g} m" if finite else _show(mm) if number else _show(repr(mm))
+    elif len(shown) > SHOWN_CHARS:
+        shown = _show(shown)
     noun, field = f"wall {side}", field or f"wall_{side}"
-    if not number or not math.isfinite(mm) or mm <= 0:
+    if not number or mm != mm or mm <= 0:  # mm != mm: NaN
         raise OptionError("wall", f"{{name}} must be > 0{{unit}}, got {shown}", field=field, noun=noun)
-    if mm > MAX_WALL_MM:
+    if not finite or mm > MAX_WALL_MM:
         raise OptionError("wall", f"{{name}} must be at most {MAX_WALL_MM / 1000:g} m, got {shown}", field=field,
                           noun=noun)
     return float(mm)
@@ -266,6 +355,9 @@ def check_wall_side(side: str, mm, *, field: str | None = None, shown: str | Non
 def _read_brushes(opt: "Option", text: str) -> tuple[float, ...]:
     try:
         brushes = units.parse_brushes(text)
+    except OverflowError:  # a width with more digits than a float holds
+        raise OptionError(opt.name, f"{{name}}: brush width must be at most {MAX_BRUSH_MM:g} mm, "
+                                    f"got {_show(text)}") from None
     except ValueError as exc:
         raise OptionError(opt.name, "{name}: " + str(exc)) from None
     return _check_brushes(opt, brushes, raw=True)
@@ -273,10 +365,15 @@ def _read_brushes(opt: "Option", text: str) -> tuple[float, ...]:
 
 def _check_brushes(opt: "Option", value, *, raw: bool = False) -> tuple[float, ...]:
     prefix = "{name}: " if raw else ""
+    if hasattr(value, "__len__") and len(value) > MAX_BRUSHES:
+        raise OptionError(opt.name, f"{prefix}at most {MAX_BRUSHES} brushes, got {len(value):,}")
     try:
         brushes = tuple(float(b) for b in value)
+    except OverflowError:
+        raise OptionError(opt.name, f"{prefix}brush width must be at most {MAX_BRUSH_MM:g} mm, "
+                                    f"got {shown(value)}") from None
     except (TypeError, ValueError):
-        raise OptionError(opt.name, f"{prefix}brush widths must be numbers in mm, got {value!r}") from None
+        raise OptionError(opt.name, f"{prefix}brush widths must be numbers in mm, got {shown(value)}") from None
     if not brushes:
         raise OptionError(opt.name, f"{prefix}give at least one brush width")
     if len(brushes) > MAX_BRUSHES:
@@ -284,6 +381,8 @@ def _check_brushes(opt: "Option", value, *, raw: bool = False) -> tuple[float, .
     for b in brushes:
         if not math.isfinite(b) or b <= 0:
             raise OptionError(opt.name, f"{prefix}brush width must be > 0 mm, got {b:g}")
+        if b < MIN_BRUSH_MM:
+            raise OptionError(opt.name, f"{prefix}brush width must be at least {MIN_BRUSH_MM:g} mm, got {b:g}")
         if b > MAX_BRUSH_MM:
             raise OptionError(opt.name, f"{prefix}brush width must be at most {MAX_BRUSH_MM:g} mm, got {b:g}")
     if len(set(brushes)) != len(brushes):
@@ -296,8 +395,11 @@ def _read_file(opt: "Option", text: str) -> str:
 
 
 def _check_file(opt: "Option", value) -> str:
-    if not isinstance(value, str) or not value.strip():
-        raise OptionError(opt.name, f"{{name}} must be the path of an inventory file, got {value!r}")
+    if not isinstance(value, str) or not value.strip() or "\0" in value:
+        raise OptionError(opt.name, f"{{name}} must be the path of an inventory file, got {shown(value)}")
+    if len(value) > MAX_PATH_CHARS:
+        raise OptionError(opt.name, f"{{name}}: a path of at most {MAX_PATH_CHARS:,} characters, "
+                                    f"got {len(value):,}")
     return value
 
 
@@ -389,6 +491,15 @@ class Option:
         """Read the option from text as a person typed it; raises :class:`OptionError`."""
         if not isinstance(text, str):
             raise TypeError(f"{self.name}: text expected, got {type(text).__name__}")
+        limit = MAX_PATH_CHARS if self.kind == "file" else MAX_TEXT_CHARS
+        if len(text) > limit:  # refused unread: neither parsed nor repeated back
+            if _DIGITS_RE.fullmatch(text.strip()):  # a number: say its bound, as for a shorter one
+                if self.kind in ("whole", "number"):
+                    raise OptionError(self.name, f"{{name}} must be {_bounds_rule(self)}, got {_show(text)}")
+                if self.kind == "length" and self.maximum is not None:
+                    _length_bounds(self, math.inf, _show(text))
+            raise OptionError(self.name, f"{{name}} must be at most {limit:,} characters, "
+                                         f"got {len(text):,}")
         return _KINDS[self.kind][0](self, text)
 
     def check(self, value):
@@ -401,13 +512,17 @@ class Option:
         if self.kind in ("whole", "number"):
             rule = _bounds_rule(self).replace("{unit}", f" {self.unit}" if self.unit else "")
             return rule.replace("a whole number", "whole number")
+        if self.kind == "length" and self.minimum is not None:
+            return (f"a length with a unit: 50cm, 2ft, 1/2m (plain numbers are mm); from {self.minimum:g} mm "
+                    f"to {self.maximum / 1000:g} m")
         return {
             "fraction": "0.15 or 15% (a fraction or a percentage)",
             "length": "a length with a unit: 50cm, 2ft, 1/2m (plain numbers are mm)",
             "choice": " or ".join(self.choices),
             "switch": "on or off",
             "wall": "WxH with a unit (m, cm, mm, ft, in): 4x2.5m, 12x8ft; or the width alone",
-            "brushes": f"widths in mm, comma-separated, or with units (4in, 2in); at most {MAX_BRUSHES}",
+            "brushes": f"widths in mm, comma-separated, or with units (4in, 2in); at most {MAX_BRUSHES}, "
+                       f"each from {MIN_BRUSH_MM:g} to {MAX_BRUSH_MM:g} mm",
             "file": "a TOML inventory file",
         }[self.kind]
 
@@ -455,10 +570,11 @@ OPTIONS: dict[str, Option] = {o.name: o for o in (
            "seed", "seed", "planning", minimum=0, maximum=MAX_SEED, metavar="N"),
     Option("stroke_cost", "number", _S.stroke_cost, "colour error (ΔE00 per brush-width square) a stroke "
            "must remove to be painted; lower for more detail, higher for fewer strokes", "--stroke-cost",
-           "Stroke cost", "stroke cost", "stroke_cost", "planning", minimum=0.0, metavar="DE"),
+           "Stroke cost", "stroke cost", "stroke_cost", "planning", minimum=0.0, maximum=MAX_STROKE_COST, metavar="DE"),
     Option("reach", "length", _S.reach_mm, "side of a work zone, what you paint from one ladder or lift position: "
            "each paint's strokes are ordered zone by zone, top of the wall first", "--reach", "Work zone (reach)",
-           "work zone", "reach_mm", "planning", unit="mm", metavar="LENGTH", default_text="2m"),
+           "work zone", "reach_mm", "planning", minimum=MIN_REACH_MM, maximum=MAX_WALL_MM, unit="mm", metavar="LENGTH",
+           default_text="2m"),
     # --- mixing
     Option("inventory", "file", None, "the paints you own, to mix recipes from", "--inventory", "Paint inventory",
            "inventory", "inventory", "mixing", metavar="FILE", default_text="a basic acrylic set", form=False),
@@ -476,16 +592,19 @@ OPTIONS: dict[str, Option] = {o.name: o for o in (
     # --- quantities and printing
     Option("coverage", "number", COVERAGE_M2_PER_L, "spreading rate of one coat (check your tins)", "--coverage",
            "Coverage m²/L", "coverage", "coverage_m2_per_litre", "quantities", _OUT, target="output",
-           minimum=0.0, strict=True, unit="m²/L", metavar="M2_PER_L"),
+           minimum=MIN_COVERAGE_M2_PER_L, maximum=MAX_COVERAGE_M2_PER_L, unit="m²/L", metavar="M2_PER_L"),
     Option("ground_coats", "whole", GROUND_COATS, "coats of the ground", "--ground-coats", "Ground coats",
-           "ground coats", "ground_coats", "quantities", _OUT, target="output", minimum=0, metavar="N"),
+           "ground coats", "ground_coats", "quantities", _OUT, target="output", minimum=0, maximum=MAX_COATS,
+           metavar="N"),
     Option("stroke_coats", "whole", STROKE_COATS, "least coats of any stroke; light over dark, and bright "
            "reds and yellows, get more by themselves", "--stroke-coats", "Stroke coats",
-           "stroke coats", "stroke_coats", "quantities", _OUT, target="output", minimum=1, metavar="N"),
+           "stroke coats", "stroke_coats", "quantities", _OUT, target="output", minimum=1, maximum=MAX_COATS,
+           metavar="N"),
     Option("waste", "fraction", WASTE, "extra paint to buy for spills and touch-ups", "--waste", "Waste",
            "waste", "waste", "quantities", _OUT, target="output", metavar="SHARE"),
     Option("grid", "length", None, "transfer-grid square, drawn on the print and the overlay", "--grid",
            "Transfer-grid spacing", "grid spacing", "grid_mm", "quantities", _OUT, target="output", unit="mm",
+           minimum=MIN_GRID_MM, maximum=MAX_WALL_MM,
            metavar="LENGTH",
            default_text=f"50cm, or 2ft for walls in ft or in; 10cm or 4in on small boards; "
                         f"at most {MAX_GRID_SQUARES} squares along the longest side"),
@@ -671,12 +790,23 @@ def check_raster(settings, image_shape) -> WorkingSize:
         (the wall's), or the raster is over ``HARD_MAX_RASTER_PX`` or has a side under
         ``MIN_RASTER_SIDE_PX`` (the pixel size's).
     """
-    from .settings import working_raster
+    from .settings import choose_mm_per_px, working_raster
 
-    wall_w, wall_h, s, width_px, height_px = working_raster(settings, image_shape)
+    h, w = image_shape[:2]
+    wall_w = float(settings.wall_width_mm)
+    wall_h = float(settings.wall_height_mm) if settings.wall_height_mm is not None else wall_w * h / w
     if settings.wall_height_mm is None and (not math.isfinite(wall_h) or wall_h > MAX_WALL_MM):
         raise OptionError("wall", f"the height from the photo's shape would be {wall_h / 1000:g} m, over the "
                                   f"{MAX_WALL_MM / 1000:g} m limit; give the height too", field="wall_height")
+    s = settings.mm_per_px or choose_mm_per_px(wall_w, wall_h, min(settings.brushes_mm))
+    # counted in floats first: a pixel of 1e-300 mm makes more pixels than an int conversion takes
+    w_px, h_px = wall_w / s, wall_h / s
+    if not w_px * h_px <= HARD_MAX_RASTER_PX * 1.01:
+        said = f"{round(w_px)}x{round(h_px)} px" if max(w_px, h_px) < 1e12 else "more than a trillion pixels"
+        raise OptionError("pixel_mm", f"working raster of {said} is too large (at most "
+                                      f"{HARD_MAX_RASTER_PX / 1e6:g} megapixels); use a {{name}} coarser than "
+                                      f"{s:g} mm")
+    wall_w, wall_h, s, width_px, height_px = working_raster(settings, image_shape)
     if width_px * height_px > HARD_MAX_RASTER_PX:
         raise OptionError("pixel_mm", f"working raster of {width_px}x{height_px} px is too large (at most "
                                       f"{HARD_MAX_RASTER_PX / 1e6:g} megapixels); use a {{name}} coarser than "
@@ -747,6 +877,7 @@ def check_plan(settings, output: Mapping[str, Any], image_shape, *, inventory_pa
         Naming the option at fault: the wall, the pixel size, the grid, the mix options or
         a quantity option.
     """
+    check_settings(settings)
     check_output(output)
     size = check_raster(settings, image_shape)
     check_grid(size.wall_width_mm, size.wall_height_mm, output.get("grid_mm"))

@@ -47,6 +47,12 @@ each entry ``{"kind", "message", "cause", "fix", ...}`` (whole sentences, plus t
 behind them; :mod:`layerplan.caveats`). Absent means none: a plan the working raster
 serves well has no such key, so its file is unchanged.
 
+:meth:`Plan.from_dict` checks what a hand-edited or hostile file could get wrong before any
+exporter reads it (:data:`LIMITS`): a wall of 0 to 100 m a side, a raster of at most 8
+megapixels that matches the wall at its pixel size, finite numbers, at most 32 paints and 8
+layers, strokes of a known paint with a brush of 1 to 1000 mm, 1 to 4 coats and finite points
+near the wall, and container sizes as an inventory allows them.
+
 A `Plan` and its parts are frozen: stages and exporters read them and never write
 into them. A changed plan is a new one, made with :func:`dataclasses.replace`
 (``replace(plan, extra={**plan.extra, "source": ...})``).
@@ -63,12 +69,23 @@ from typing import Any
 
 import numpy as np
 
+from .settings import HARD_MAX_RASTER_PX, MAX_BRUSHES, MAX_PAINTS, MAX_WALL_MM
 from .units import UNITS_MM
 
 FORMAT = "layerplan.plan"
 VERSION = 1
 #: the wall unit of plans that do not name one (plan.json ``settings.wall_unit``)
 DEFAULT_WALL_UNIT = "m"
+#: what :meth:`Plan.from_dict` accepts. The raster, paints and layers are the planner's own
+#: limits (layerplan.settings); brush widths those of the brushes option and coats those of
+#: layerplan.coats (MAX_COATS, repeated here: coats imports the planner); container sizes those of
+#: an inventory file (layerplan.inventory, which imports this module). Strokes and points are
+#: far above what the planner makes at its 8-megapixel limit, yet keep a file to minutes of work.
+LIMITS: Mapping[str, float] = MappingProxyType({
+    "wall_mm": MAX_WALL_MM, "raster_px": HARD_MAX_RASTER_PX, "paints": MAX_PAINTS, "layers": MAX_BRUSHES,
+    "brush_min_mm": 1.0, "brush_max_mm": 1000.0, "coats": 4, "strokes": 2_000_000, "points": 20_000_000,
+    "inventory": 64, "container_sizes": 8, "container_min_l": 0.01, "container_max_l": 200.0,
+})
 
 
 @dataclass(frozen=True)
@@ -364,25 +381,129 @@ class Plan:
                 },
                 wall_unit=unit,
             )
-        except (KeyError, TypeError, IndexError, ValueError) as exc:
-            # ValueError: a number or a path that does not parse ("abc", [[1, 2, 3]])
-            raise ValueError(f"plan.json is missing or has a malformed field: {exc}") from exc
+        except (KeyError, TypeError, IndexError, ValueError, OverflowError) as exc:
+            # ValueError: a number or a path that does not parse ("abc", [[1, 2, 3]]); OverflowError:
+            # a number too large for a float or an int (1e999 px)
+            raise ValueError(f"plan.json is missing or has a malformed field: {_cut(str(exc))}") from exc
         ids = plan.paint_index()
         if plan.ground not in ids:
-            raise ValueError(f"ground paint {plan.ground!r} is not in the palette")
+            raise ValueError(f"ground paint {_said(plan.ground)} is not in the palette")
         for n, layer in enumerate(plan.layers):
             for s in layer.strokes:
                 if s.paint not in ids:
-                    raise ValueError(f"layer {n + 1}: stroke paint {s.paint!r} is not in the palette")
+                    raise ValueError(f"layer {n + 1}: stroke paint {_said(s.paint)} is not in the palette")
+        _check_sizes(plan)
         return plan
 
     @classmethod
     def from_json(cls, text: str) -> "Plan":
+        """Read plan.json text (see :meth:`from_dict`).
+
+        Raises
+        ------
+        ValueError
+            Not JSON (or nested too deep to read, or a number of thousands of digits), or
+            any reason of :meth:`from_dict`.
+        """
         try:
             doc = json.loads(text)
-        except json.JSONDecodeError as exc:
-            raise ValueError(f"plan.json is not valid JSON: {exc}") from exc
+        except RecursionError:
+            raise ValueError("plan.json is not a plan: arrays or objects nested too deep to read") from None
+        except ValueError as exc:  # JSONDecodeError, or an integer past Python's 4300-digit limit
+            raise ValueError(f"plan.json is not valid JSON: {_cut(str(exc))}") from None
         return cls.from_dict(doc)
+
+
+def _cut(text: str, limit: int = 300) -> str:
+    return text if len(text) <= limit else text[:limit - 1] + "…"
+
+
+def _said(value) -> str:
+    """A value as a message repeats it, cut short (a hostile file may hold megabytes in one field)."""
+    text = repr(value) if not isinstance(value, (dict, list)) else f"a {type(value).__name__}"
+    return _cut(text, 40)
+
+
+def _finite(x) -> bool:
+    return isinstance(x, float) and math.isfinite(x)
+
+
+def _check_sizes(plan: "Plan") -> None:
+    """The limits of :data:`LIMITS`, on a plan read from a file (names the field and its bound)."""
+    for name, mm in (("wall.width_mm", plan.wall_width_mm), ("wall.height_mm", plan.wall_height_mm)):
+        if not _finite(mm) or not 0 < mm <= LIMITS["wall_mm"]:
+            raise ValueError(f"plan.json {name} must be > 0 and at most {LIMITS['wall_mm'] / 1000:g} m, "
+                             f"got {_said(mm)}")
+    s, w_px, h_px = plan.mm_per_px, plan.width_px, plan.height_px
+    if not _finite(s) or s <= 0:
+        raise ValueError(f"plan.json raster.mm_per_px must be a number > 0, got {_said(s)}")
+    if w_px < 1 or h_px < 1 or w_px * h_px > LIMITS["raster_px"]:
+        raise ValueError(f"plan.json raster of {_said(w_px)}x{_said(h_px)} px: each side must be at least 1 px "
+                         f"and the whole at most {LIMITS['raster_px'] / 1e6:g} megapixels")
+    # the raster is the wall divided into pixels (layerplan.settings.raster_size); a pixel's slack
+    # either way, and 1 %, allow for rounding and for files written by other tools
+    for side, mm, px in (("width", plan.wall_width_mm, w_px), ("height", plan.wall_height_mm, h_px)):
+        if abs(px * s - mm) > s + 0.01 * mm:
+            raise ValueError(f"plan.json raster {side} of {px} px at {s:g} mm a pixel is {px * s:g} mm, but the "
+                             f"wall is {mm:g} mm {'wide' if side == 'width' else 'high'}")
+    if not plan.palette or len(plan.palette) > LIMITS["paints"]:
+        raise ValueError(f"plan.json palette must have 1 to {LIMITS['paints']:g} paints, got {len(plan.palette)}")
+    for p in plan.palette:
+        try:
+            p.rgb
+        except (ValueError, AttributeError):
+            raise ValueError(f"plan.json paint {_said(p.id)}: srgb is not a hex colour (#rrggbb): "
+                             f"{_said(p.srgb)}") from None
+        if len(p.lab) != 3 or not all(math.isfinite(v) for v in p.lab):
+            raise ValueError(f"plan.json paint {_said(p.id)}: lab must be three finite numbers")
+    if len(plan.layers) > LIMITS["layers"]:
+        raise ValueError(f"plan.json has {len(plan.layers)} layers; at most {LIMITS['layers']:g} (one a brush)")
+    strokes = points = 0
+    margin = max(plan.wall_width_mm, plan.wall_height_mm)  # strokes may overhang the edge, not go far off
+    lo, hi = LIMITS["brush_min_mm"], LIMITS["brush_max_mm"]
+    for n, layer in enumerate(plan.layers, start=1):
+        if not _finite(layer.brush_width_mm) or not lo <= layer.brush_width_mm <= hi:
+            raise ValueError(f"plan.json layer {n}: brush width must be from {lo:g} to {hi:g} mm, "
+                             f"got {_said(layer.brush_width_mm)}")
+        strokes += len(layer.strokes)
+        if strokes > LIMITS["strokes"]:
+            raise ValueError(f"plan.json has more than {LIMITS['strokes']:,.0f} strokes")
+        for k, st in enumerate(layer.strokes, start=1):
+            where = f"plan.json layer {n}, stroke {k}"
+            if not _finite(st.width_mm) or not lo <= st.width_mm <= hi:
+                raise ValueError(f"{where}: width must be from {lo:g} to {hi:g} mm, got {_said(st.width_mm)}")
+            if st.coats > LIMITS["coats"]:
+                raise ValueError(f"{where}: coats must be from 1 to {LIMITS['coats']:g}, got {_said(st.coats)}")
+            path = st.path_mm
+            points += len(path)
+            if len(path) < 1:
+                raise ValueError(f"{where}: path_mm must have at least one point")
+            if points > LIMITS["points"]:
+                raise ValueError(f"plan.json has more than {LIMITS['points']:,.0f} stroke points")
+            if not np.isfinite(path).all():
+                raise ValueError(f"{where}: path_mm must be finite numbers")
+            if (path < -margin).any() or (path[:, 0] > plan.wall_width_mm + margin).any() \
+                    or (path[:, 1] > plan.wall_height_mm + margin).any():
+                raise ValueError(f"{where}: path_mm goes more than a wall's size off the wall")
+    _check_inventory(plan.extra.get("inventory"))
+
+
+def _check_inventory(entries) -> None:
+    """plan.json ``inventory``: container sizes as an inventory file allows them (they are tried one by one)."""
+    if entries is None:
+        return
+    if not isinstance(entries, list) or len(entries) > LIMITS["inventory"]:
+        raise ValueError(f"plan.json inventory must be a list of at most {LIMITS['inventory']:g} paints")
+    lo, hi = LIMITS["container_min_l"], LIMITS["container_max_l"]
+    for i, e in enumerate(entries, start=1):
+        sizes = e.get("containers_l", []) if isinstance(e, Mapping) else []
+        if not isinstance(sizes, list) or len(sizes) > LIMITS["container_sizes"]:
+            raise ValueError(f"plan.json inventory paint {i}: containers_l must list at most "
+                             f"{LIMITS['container_sizes']:g} sizes")
+        for c in sizes:
+            if isinstance(c, bool) or not isinstance(c, (int, float)) or not lo <= c <= hi:
+                raise ValueError(f"plan.json inventory paint {i}: container sizes must be from {lo:g} to {hi:g} "
+                                 f"litres, got {_said(c)}")
 
 
 def _whole_coats(value) -> int:

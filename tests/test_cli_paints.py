@@ -125,3 +125,15 @@ def test_a_bad_inventory_file_is_named_with_its_line(capsys, tmp_path):
     code, out, err = run(capsys, "mix", "#808080", "--inventory", str(f))
     assert code == 2 and out == ""
     assert "bad.toml: line 7: paint 2 ('Grey'): field 'srgb': not a hex colour" in err
+
+
+def test_mix_refuses_long_or_huge_input_without_repeating_it(capsys):
+    from layerplan.cli import main
+
+    assert main(["mix", "#" + "a" * 100_000]) == 2
+    err = capsys.readouterr().err
+    assert "not a colour: '#aaa" in err and "(100,001 characters)" in err and len(err) < 300
+    assert main(["mix", "--combine", "White=1e300"]) == 2
+    assert "must be > 0 and at most 1000, got '1e300'" in capsys.readouterr().err
+    assert main(["mix", *["#808080"] * 300]) == 2
+    assert "at most 256 colours at a time, got 300" in capsys.readouterr().err

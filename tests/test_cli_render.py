@@ -83,9 +83,9 @@ def test_render_rebuilds_with_new_options_and_keeps_strokes(planned):
 
 @pytest.mark.parametrize("extra, message", [
     (["--waste", "lots"], "--waste must be a fraction or a percentage"),
-    (["--coverage", "0"], "--coverage must be > 0, got 0"),  # the same words as the web form's
-    (["--ground-coats", "-1"], "--ground-coats must be a whole number >= 0, got -1"),
-    (["--stroke-coats", "0"], "--stroke-coats must be a whole number >= 1, got 0"),
+    (["--coverage", "0"], "--coverage must be from 0.5 to 100, got 0"),  # the same words as the web form's
+    (["--ground-coats", "-1"], "--ground-coats must be a whole number from 0 to 10, got -1"),
+    (["--stroke-coats", "0"], "--stroke-coats must be a whole number from 1 to 10, got 0"),
     (["--grid", "5parsec"], "--grid must be a length such as 50cm"),
     (["--grid", "1mm"], "--grid of 1 mm gives 800 squares"),  # checked before writing, naming the flag
 ])

@@ -243,3 +243,57 @@ def test_a_damaged_stored_plan_is_named_on_its_page(app, client, damage, words):
     path.unlink()
     r = client.get(f"/plans/{plan_id}")
     assert r.status_code == 500 and "plan.json is missing" in r.get_data(as_text=True)
+
+
+# ------------------------------------------------------------------ where a plan may be written
+def test_check_destination_names_what_is_wrong(tmp_path, monkeypatch):
+    from layerplan.export import check_destination
+
+    with pytest.raises(ValueError, match=r"^/ is the root folder; give a folder for the plan, e.g. /plan$"):
+        check_destination("/")
+    with pytest.raises(ValueError, match=r"^give the folder to write the plan into$"):
+        check_destination("  ")
+    (tmp_path / "gone").symlink_to(tmp_path / "nowhere")
+    with pytest.raises(ValueError, match=r"is a link to nothing"):
+        check_destination(tmp_path / "gone")
+    # '.' and '..' name the folders they stand for (a plan folder needs a name for its partial folder)
+    (tmp_path / "here").mkdir()
+    monkeypatch.chdir(tmp_path / "here")
+    assert check_destination(".") == tmp_path / "here" and check_destination("sub/..") == tmp_path / "here"
+    busy = tmp_path / "busy"
+    busy.mkdir()
+    for name in ("a.txt", "b.txt", "c.txt", "d.txt", "e.txt"):
+        (busy / name).write_text("x")
+    with pytest.raises(ValueError, match=r"holds no plan \(a.txt, b.txt, c.txt and 2 more\)"):
+        check_destination(busy)
+    # the photo's own folder: only when it holds nothing else, and not under a name the plan writes
+    (tmp_path / "solo").mkdir()
+    (tmp_path / "solo" / "wall.jpg").write_bytes(b"jpeg")
+    assert check_destination(tmp_path / "solo", photo=tmp_path / "solo" / "wall.jpg") == tmp_path / "solo"
+    (tmp_path / "odd").mkdir()
+    (tmp_path / "odd" / "final.png").write_bytes(b"png")
+    with pytest.raises(ValueError, match=r"holds the photo final.png, a name the plan writes"):
+        check_destination(tmp_path / "odd", photo=tmp_path / "odd" / "final.png")
+    assert not [p for p in tmp_path.rglob(".layerplan-probe-*")]  # the writability probe leaves nothing
+
+
+def test_clean_partials_removes_only_abandoned_folders_of_plan_files(tmp_path):
+    import os
+    import subprocess
+    import sys
+
+    from layerplan.export import clean_partials
+
+    dead = subprocess.run([sys.executable, "-c", "import os; print(os.getpid())"], capture_output=True,
+                          text=True, check=True).stdout.strip()  # a process id that has just ended
+    gone = tmp_path / f".mural.partial-{dead}-x1"
+    (gone / "steps").mkdir(parents=True)
+    (gone / "steps" / "01.svg").write_text("<svg/>")
+    ours = tmp_path / f".mural.partial-{os.getpid()}-x2"  # this process is still writing it
+    ours.mkdir()
+    other_name = tmp_path / f".other.partial-{dead}-x3"
+    other_name.mkdir()
+    recent_legacy = tmp_path / ".mural.partial-abcd"  # no process id, made just now: may be live
+    recent_legacy.mkdir()
+    assert clean_partials(tmp_path, "mural") == [gone]
+    assert ours.exists() and other_name.exists() and recent_legacy.exists() and not gone.exists()

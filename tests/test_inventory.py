@@ -267,3 +267,81 @@ def test_the_documented_examples_are_valid_inventories():
         inv = loads_inventory(text)
         assert inv.white is not None and any(p.tint is not None for p in inv.paints)
         assert any(p.tint is None and not p.white for p in inv.paints)
+
+
+# ------------------------------------------------------------------ hostile inventories
+def test_a_file_nested_500_deep_is_refused_with_a_message_not_a_recursion_error():
+    # about 1 kB of brackets: Python's TOML reader recurses once per level and would raise RecursionError
+    for text in ("x = " + "[" * 500 + "]" * 500 + "\n", "x = " + "{a = " * 500 + "1" + "}" * 500 + "\n",
+                 PAINT + "note = " + "[" * 500 + "\n"):
+        with pytest.raises(InventoryError, match=r"^kit\.toml: line \d+: arrays or tables nested more than 8 "
+                                                 r"deep; an inventory needs at most 2") as info:
+            _bad(text)
+        assert len(str(info.value)) < 200
+
+
+def test_brackets_inside_strings_and_comments_do_not_count_as_nesting():
+    text = (PAINT + 'note = "' + "[" * 50 + '"\n# ' + "{" * 50 + "\n"
+            + '[[paint]]\nname = "Blue \'[[[[[[[[[[\'"\nsrgb = "#23308a"\n'
+            + "note = '''" + "[" * 50 + "\n" + "{" * 20 + "'''\n")
+    inv = _bad(text)
+    assert inv.paints[0].note == "[" * 50 and inv.names()[1] == "Blue '[[[[[[[[[['"
+
+
+def test_a_deep_dotted_key_is_refused_as_an_unknown_field_without_printing_it():
+    with pytest.raises(InventoryError, match=r"field 'note': must be text, got a table of 1 field$"):
+        _bad(PAINT + "note." + ".".join(["a"] * 2000) + " = 1\n")
+
+
+def test_twenty_thousand_container_sizes_are_refused_naming_the_limit():
+    # a tin list is tried size by size when the tins to buy are worked out: 20,000 made a plan take minutes
+    sizes = ", ".join(f"{0.01 * (k + 1):.2f}" for k in range(20_000))
+    with pytest.raises(InventoryError, match=r"field 'containers_l': at most 8 sizes, got 20,000$"):
+        _bad(PAINT + f"containers_l = [{sizes}]\n")
+    with pytest.raises(InventoryError, match=r"sizes must be at least 0\.01 litres \(10 mL\), got 0\.001$"):
+        _bad(PAINT + "containers_l = [0.001]\n")
+    assert _bad(PAINT + "containers_l = [0.25, 0.5, 1, 2.5, 5, 10, 20, 200]\n").paints[0].containers_l[-1] == 200
+
+
+def test_huge_numbers_and_long_texts_are_refused_without_being_echoed():
+    huge = "1" + "0" * 400
+    for text, message in (
+        (PAINT + f"containers_l = [{huge}]\n", r"sizes must be > 0 and at most 200 litres, got a 401-digit number$"),
+        (PAINT + f"tinting_strength = {huge}.0\n", r"got inf$"),
+        ('[[paint]]\nname = "Grey"\nlab = [50, ' + huge + ', 0]\n', r"must be three numbers \[L, a, b\], got"),
+        (PAINT + 'note = "' + "x" * 5000 + '"\n', r"field 'note': longer than 500 characters \(5,000\)$"),
+        ('title = "' + "t" * 5000 + '"\n' + PAINT, r"'title' is longer than 200 characters \(5,000\)$"),
+        ('[[paint]]\nname = "' + "n" * 5000 + '"\nsrgb = "#fff"\n', r"longer than 60 characters \(5,000\)$"),
+        (PAINT.replace('"#ffffff"', '"#' + "f" * 5000 + '"'), r"not a hex colour \(#rrggbb\): '#f+'… \(5,001 characters\)$"),
+    ):
+        with pytest.raises(InventoryError, match=message) as info:
+            _bad(text)
+        assert len(str(info.value)) < 300, str(info.value)
+
+
+def test_an_inventory_text_over_the_size_limit_is_refused():
+    from layerplan.inventory import MAX_FILE_BYTES
+
+    with pytest.raises(InventoryError, match=r"inventory is too large \(1,000,001 characters; at most 1,000,000\)"):
+        _bad(PAINT + "#" * (MAX_FILE_BYTES + 1 - len(PAINT)))
+
+
+def test_dev_zero_and_other_files_that_are_not_regular_are_refused_at_once(tmp_path):
+    import os
+
+    with pytest.raises(InventoryError, match=r"^/dev/zero: not a regular file"):
+        load_inventory("/dev/zero")
+    fifo = tmp_path / "pipe.toml"
+    os.mkfifo(fifo)  # opening a pipe with no writer would wait for ever
+    with pytest.raises(InventoryError, match=r"pipe\.toml: not a regular file"):
+        load_inventory(fifo)
+
+
+def test_a_file_is_read_no_further_than_the_limit(tmp_path, monkeypatch):
+    from layerplan import inventory
+
+    big = tmp_path / "big.toml"
+    big.write_bytes(PAINT.encode() + b"#" * 5000)
+    monkeypatch.setattr(inventory, "MAX_FILE_BYTES", 1000)
+    with pytest.raises(InventoryError, match=r"big\.toml: inventory file is too large \(over 1,000 bytes"):
+        load_inventory(big)

@@ -150,7 +150,7 @@ def test_each_front_end_names_the_option_its_own_way():
 
 
 def test_settings_are_checked_by_their_options():
-    with pytest.raises(OptionError, match=r"^stroke cost must be >= 0, got -1$") as info:
+    with pytest.raises(OptionError, match=r"^stroke cost must be from 0 to 1000, got -1$") as info:
         Settings(stroke_cost=-1.0).validated()
     assert info.value.option == "stroke_cost"
     with pytest.raises(OptionError, match=r"^wall height must be at most 100 m, got 200 m$") as info:
@@ -191,7 +191,7 @@ def test_a_large_inventory_with_many_parts_is_refused_before_planning():
 
 
 def test_quantity_options_given_as_values_are_checked_too():
-    with pytest.raises(OptionError, match=r"^coverage must be > 0 m²/L, got 0$"):
+    with pytest.raises(OptionError, match=r"^coverage must be from 0.5 to 100 m²/L, got 0$"):
         options.check_plan(Settings(), {"coverage_m2_per_litre": 0.0}, (60, 80, 3))
     with pytest.raises(OptionError, match=r"^waste must be a fraction or a percentage"):
         options.check_plan(Settings(), {"waste": 15}, (60, 80, 3))
@@ -231,3 +231,80 @@ def test_paints_and_mix_do_not_load_the_planner_or_the_web_app():
     assert _heavy(loaded) == []
     loaded = _modules_after("from layerplan.cli import main\nmain(['mix', '#6b8e23', '--json'])")
     assert _heavy(loaded, ("sklearn", "flask", "layerplan.placer", "layerplan.pipeline")) == []
+
+
+# ------------------------------------------------------------- hostile values: bounds and short messages
+HUGE = "1" + "0" * 400  # one followed by 400 zeros: more than a float holds
+
+
+@pytest.mark.parametrize("name,bound", [
+    ("ground_coats", "from 0 to 10"), ("stroke_coats", "from 1 to 10"), ("paints", "from 2 to 32"),
+    ("seed", "from 0 to 4294967295"), ("max_parts", "from 1 to 30"), ("enlargements", "from 0 to 400"),
+    ("stroke_cost", "from 0 to 1000"), ("coverage", "from 0.5 to 100"), ("tolerance", "from 0 to 100"),
+])
+def test_a_huge_number_is_refused_naming_the_option_and_its_bound_not_echoed(name, bound):
+    o = OPTIONS[name]
+    big = "1e+30" if o.kind == "number" else repr(10**30)  # short enough to repeat whole
+    for text, said in ((HUGE, "a 401-digit number"), (str(10**30), big), ("1" * 100_000, "a 100,000-digit number")):
+        with pytest.raises(OptionError) as info:
+            o.parse(text)
+        message = info.value.cli_message()
+        assert message.startswith(o.flag) and bound in message, message
+        assert len(message) < 200, message  # never the whole input back
+        assert message.endswith(f"got {said}"), message
+    # the same bound for a value already typed (library callers, the JSON API)
+    with pytest.raises(OptionError, match=bound):
+        o.check(10**400)
+
+
+def test_huge_lengths_walls_and_brushes_are_refused_with_the_real_bound():
+    with pytest.raises(OptionError, match=r"^work zone must be at most 100 m, got a 401-digit number$"):
+        OPTIONS["reach"].parse(HUGE)
+    with pytest.raises(OptionError, match=r"^work zone must be at least 100 mm, got '5cm'$"):
+        OPTIONS["reach"].parse("5cm")
+    with pytest.raises(OptionError, match=r"^grid spacing must be at most 100 m, got '1e3km'|^grid spacing must be"):
+        OPTIONS["grid"].parse(HUGE + "m")
+    with pytest.raises(OptionError, match=r"^wall width must be at most 100 m, got 1e\+149 m$"):
+        OPTIONS["wall"].parse(HUGE[:150] + "x2m")
+    with pytest.raises(OptionError, match=r"^wall width must be at most 100 m, got a 401-digit number$"):
+        options.check_wall_side("width", 10**400)
+    with pytest.raises(OptionError, match=r"^brushes: brush width must be at most 1000 mm"):
+        OPTIONS["brushes"].parse(HUGE[:150])
+    with pytest.raises(OptionError, match=r"^brushes: brush width must be at least 1 mm, got 0.1"):
+        OPTIONS["brushes"].parse("100,0.1")
+    with pytest.raises(OptionError, match=r"^at most 8 brushes, got 20,000$"):
+        OPTIONS["brushes"].check([10.0] * 20_000)
+
+
+def test_a_long_text_is_refused_unread_with_its_length():
+    with pytest.raises(OptionError, match=r"^--wall must be at most 200 characters, got 600,000$"):
+        try:
+            OPTIONS["wall"].parse("4x2m" * 150_000)
+        except OptionError as exc:
+            raise OptionError(exc.option, exc.cli_message()) from None
+    with pytest.raises(OptionError) as info:
+        OPTIONS["fit"].parse("x" * 600_000)
+    assert "600,000" in str(info.value) and len(str(info.value)) < 100
+
+
+def test_shown_cuts_long_values_and_keeps_short_ones():
+    assert options.shown("15%") == "'15%'" and options.shown(40) == "40" and options.shown(2.5) == "2.5"
+    assert options.shown(HUGE) == "a 401-digit number" and options.shown(10**400) == "a 401-digit number"
+    assert options.shown(10**5000).startswith("a number of about 5,0")  # beyond Python's int-to-text limit
+    cut = options.shown("abc" * 10_000)
+    assert cut.endswith("(30,000 characters)") and len(cut) < 60
+
+
+def test_a_pixel_so_small_the_raster_overflows_is_refused_as_too_large():
+    settings = Settings(wall_width_mm=4000.0, wall_height_mm=2000.0, mm_per_px=1e-320)
+    with pytest.raises(OptionError, match=r"working raster of more than a trillion pixels is too large") as info:
+        options.check_plan(settings, {}, (60, 80, 3))
+    assert info.value.option == "pixel_mm" and len(str(info.value)) < 200
+
+
+def test_check_plan_checks_the_settings_themselves_too():
+    # a Settings made without .validated() (a library caller) is still checked before planning
+    with pytest.raises(OptionError, match=r"^paints must be a whole number from 2 to 32, got a 51-digit number$"):
+        options.check_plan(Settings(paints=10**50), {}, (60, 80, 3))
+    with pytest.raises(OptionError, match=r"^ground coats must be a whole number from 0 to 10, got a 401-digit"):
+        options.check_plan(Settings(), {"ground_coats": 10**400}, (60, 80, 3))

@@ -111,3 +111,66 @@ def test_recipe_and_inventory_are_read_only_views():
     # they stay where plan.json has them
     doc = plan.to_dict()
     assert doc["inventory"] == stock
+
+
+# ------------------------------------------------------------------ hostile plan.json files
+def _stroke(d):
+    return d["layers"][0]["strokes"][0]
+
+
+@pytest.mark.parametrize("change,message", [
+    # a negative or zero wall used to make `layerplan render` loop for ever drawing the grid
+    (lambda d: d["wall"].update(width_mm=-1000.0), r"^plan.json wall.width_mm must be > 0 and at most 100 m, got -1000.0$"),
+    (lambda d: d["wall"].update(height_mm=0), r"wall.height_mm must be > 0 and at most 100 m, got 0.0"),
+    (lambda d: d["wall"].update(width_mm=1e300), r"wall.width_mm must be > 0 and at most 100 m, got 1e\+300"),
+    (lambda d: d["wall"].update(width_mm=10**400), r"malformed field: int too large to convert to float"),
+    # a 30000² raster is 900 megapixels: refused before anything is allocated
+    (lambda d: d["raster"].update(width_px=30_000, height_px=30_000),
+     r"raster of 30000x30000 px: each side must be at least 1 px and the whole at most 8 megapixels"),
+    (lambda d: d["raster"].update(width_px=-5), r"raster of -5x100 px"),
+    (lambda d: d["raster"].update(mm_per_px=0), r"raster.mm_per_px must be a number > 0, got 0.0"),
+    (lambda d: d["raster"].update(mm_per_px=float("nan")), r"raster.mm_per_px must be a number > 0, got nan"),
+    (lambda d: d["raster"].update(mm_per_px=50.0),
+     r"raster width of 200 px at 50 mm a pixel is 10000 mm, but the wall is 1000 mm wide"),
+    (lambda d: d["palette"][0].update(lab=[float("inf"), 0, 0]), r"paint 'P1': lab must be three finite numbers"),
+    (lambda d: d["palette"][0].update(srgb="#" + "f" * 100_000), r"paint 'P1': srgb is not a hex colour .*'#fff"),
+    (lambda d: d.update(palette=[{"id": f"P{i}", "srgb": "#000000", "lab": [0, 0, 0]} for i in range(40)]),
+     r"palette must have 1 to 32 paints, got 40"),
+    (lambda d: d.update(layers=d["layers"] * 9), r"has 9 layers; at most 8"),
+    (lambda d: d["layers"][0]["brush"].update(width_mm=-50), r"layer 1: brush width must be from 1 to 1000 mm"),
+    (lambda d: _stroke(d).update(width_mm=0.0), r"layer 1, stroke 1: width must be from 1 to 1000 mm, got 0.0"),
+    (lambda d: _stroke(d).update(coats=10**6), r"layer 1, stroke 1: coats must be from 1 to 4, got 1000000"),
+    (lambda d: _stroke(d).update(path_mm=[]), r"layer 1, stroke 1: path_mm must have at least one point"),
+    (lambda d: _stroke(d).update(path_mm=[[1e308, 5.0]]), r"stroke 1: path_mm goes more than a wall's size off"),
+    (lambda d: _stroke(d).update(path_mm=[[float("nan"), 5.0]]), r"stroke 1: path_mm must be finite numbers"),
+    (lambda d: d.update(inventory=[{"name": "W", "containers_l": [0.01 * k for k in range(1, 20_001)]}]),
+     r"inventory paint 1: containers_l must list at most 8 sizes"),
+    (lambda d: d.update(inventory=[{"name": "W", "containers_l": [1e9]}]),
+     r"inventory paint 1: container sizes must be from 0.01 to 200 litres, got 1000000000.0"),
+])
+def test_a_hostile_plan_is_refused_naming_the_field_and_its_bound(change, message):
+    doc = json.loads(_plan().to_json())
+    change(doc)
+    with pytest.raises(ValueError, match=message) as info:
+        Plan.from_json(json.dumps(doc))
+    assert len(str(info.value)) < 400  # never the file back
+
+
+def test_json_nested_too_deep_or_with_a_number_of_thousands_of_digits_is_a_value_error():
+    with pytest.raises(ValueError, match=r"^plan.json is not a plan: arrays or objects nested too deep"):
+        Plan.from_json("[" * 100_000 + "]" * 100_000)
+    with pytest.raises(ValueError, match=r"^plan.json is not valid JSON: Exceeds the limit") as info:
+        Plan.from_json('{"format": ' + "9" * 100_000 + "}")
+    assert len(str(info.value)) < 400
+
+
+def test_the_plan_limits_are_the_planners_own():
+    from layerplan import coats, inventory, options
+    from layerplan.plan import LIMITS
+
+    assert LIMITS["coats"] == coats.MAX_COATS
+    assert (LIMITS["brush_min_mm"], LIMITS["brush_max_mm"]) == (options.MIN_BRUSH_MM, options.MAX_BRUSH_MM)
+    assert (LIMITS["inventory"], LIMITS["container_sizes"]) == (inventory.MAX_INVENTORY_PAINTS,
+                                                                inventory.MAX_CONTAINER_SIZES)
+    assert (LIMITS["container_min_l"], LIMITS["container_max_l"]) == (inventory.MIN_CONTAINER_L,
+                                                                      inventory.MAX_CONTAINER_L)

@@ -167,12 +167,12 @@ BAD_REQUESTS = [
     ("fractional parts", {"max_parts": "2.5"}, None, 400, r"^Max parts per mix must be a whole number .*got '2.5'"),
     ("negative tolerance", {"tolerance": "-1"}, None, 400, r"^Tolerance ΔE00 must be from 0 to 100, got -1"),
     ("tolerance not a number", {"tolerance": "close"}, None, 400, r"^Tolerance ΔE00 must be a number, got 'close'"),
-    ("negative stroke cost", {"stroke_cost": "-0.5"}, None, 400, r"^Stroke cost must be >= 0, got -0.5"),
+    ("negative stroke cost", {"stroke_cost": "-0.5"}, None, 400, r"^Stroke cost must be from 0 to 1000, got -0.5"),
     ("NaN stroke cost", {"stroke_cost": "nan"}, None, 400, r"^Stroke cost must be a finite number"),
     # quantity options (CLI --coverage, --ground-coats, --stroke-coats, --waste, --grid)
-    ("zero coverage", {"coverage": "0"}, None, 400, r"^Coverage m²/L must be > 0, got 0"),
-    ("negative ground coats", {"ground_coats": "-1"}, None, 400, r"^Ground coats must be a whole number >= 0, got -1"),
-    ("no stroke coats", {"stroke_coats": "0"}, None, 400, r"^Stroke coats must be a whole number >= 1, got 0"),
+    ("zero coverage", {"coverage": "0"}, None, 400, r"^Coverage m²/L must be from 0.5 to 100, got 0"),
+    ("negative ground coats", {"ground_coats": "-1"}, None, 400, r"^Ground coats must be a whole number from 0 to 10, got -1"),
+    ("no stroke coats", {"stroke_coats": "0"}, None, 400, r"^Stroke coats must be a whole number from 1 to 10, got 0"),
     # waste is read as on the command line: 15% or 0.15 (a plain 15 used to mean 15 % here and
     # 1500 % there, so it is now refused with the fix in the message)
     ("waste over 100 %", {"waste": "150%"}, None, 400, r"^Waste must be a fraction or a percentage .*got '150%'$"),
