@@ -459,13 +459,23 @@ class PlanStore:
         return iter(self.recent(limit=1_000_000))
 
 
+def _settings_of(text: str) -> dict[str, Any]:
+    """A record's settings; one that cannot be read back (a number past Python's digit limit, damage)
+    reads as empty, so listing plans never fails over one record."""
+    try:
+        value = json.loads(text)
+    except (ValueError, RecursionError):
+        return {}
+    return value if isinstance(value, dict) else {}
+
+
 def _record(row: sqlite3.Row) -> PlanRecord:
     return PlanRecord(
         id=row["id"],
         state=row["state"],
         progress=float(row["progress"]),
         message=row["message"],
-        settings=json.loads(row["settings"]),
+        settings=_settings_of(row["settings"]),
         source_name=row["source_name"],
         attempts=int(row["attempts"]),
         created_at=float(row["created_at"]),
