@@ -152,8 +152,21 @@ def lease_alive(pid: int | None, start: str, host: str) -> bool:
         return False
     except PermissionError:
         pass  # it exists, run by someone else
+    if _process_state(pid) in ("Z", "X"):
+        return False  # finished, only not yet reaped by its parent
     now = process_start(pid)
     return not start or not now or now == start
+
+
+def _process_state(pid: int) -> str:
+    """The kernel's one-letter state of a process (``R``, ``S``, ``Z``…; proc(5) field 3); "" if unknown."""
+    try:
+        with open(f"/proc/{int(pid)}/stat", "rb") as f:
+            stat = f.read().decode("ascii", "replace")
+    except OSError:
+        return ""
+    fields = stat[stat.rfind(")") + 2:].split()
+    return fields[0] if fields else ""
 
 
 def new_plan_id() -> str:
