@@ -56,7 +56,7 @@ def size_text(n_bytes: int) -> str:
 
 #: a run of characters this long in a message is someone's input: it is cut short
 LONGEST_SHOWN = 40
-_LONG_RUN = re.compile(r"[^\s,;:]{%d,}" % (LONGEST_SHOWN + 1))
+_LONG_RUN = re.compile(r"\S{%d,}" % (LONGEST_SHOWN + 1))
 
 
 def clip(message: str, *, longest: int = LONGEST_SHOWN, total: int = 600) -> str:

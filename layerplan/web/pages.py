@@ -36,6 +36,8 @@ OPTION_DEFAULTS = {k: v for k, v in options.form_defaults().items()
 FORM_DEFAULTS = {"wall_width": "3", "wall_height": "", "unit": "m", "paints": "8", "kit": forms.DEFAULT_KIT,
                  "brushes": "", "fit": "cover", "seed": "0", "pixel_mm": "", "inventory": "default",
                  "inventory_text": "", "free_palette": "", **OPTION_DEFAULTS}
+#: a typed value longer than this (characters) is not put back into the re-shown form
+MAX_REFILL = 1000
 #: mimetypes of the photo formats we accept, by Pillow format id
 _PHOTO_TYPES = {"JPEG": "image/jpeg", "MPO": "image/jpeg", "PNG": "image/png", "WEBP": "image/webp",
                 "TIFF": "image/tiff"}
@@ -45,7 +47,9 @@ def _start_page(values: dict[str, str] | None = None, error: str | None = None, 
                 error_field: str | None = None, kept: dict[str, str] | None = None):
     merged = dict(FORM_DEFAULTS)
     if values:
-        merged.update({k: v for k, v in values.items() if k in FORM_DEFAULTS})
+        # what was typed comes back for correcting, unless it is kilobytes no field needs
+        merged.update({k: v for k, v in values.items()
+                       if k in FORM_DEFAULTS and (len(v) <= MAX_REFILL or k == "inventory_text")})
     # options the painter changed open the "more options" part
     changed = any(merged.get(k, "").strip() != v for k, v in OPTION_DEFAULTS.items())
     changed = changed or merged["seed"] not in ("", "0") or bool(merged["pixel_mm"] or merged["free_palette"])
