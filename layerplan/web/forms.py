@@ -148,15 +148,7 @@ def parse_plan_request(form, files, *, photo: tuple[bytes, str] | None = None,
         output = options.output_kwargs(_values(form, options.form_options("output")))
     inventory_text, inventory_paints = _inventory(form, files)
     # the settings that need no photo are checked first, so a refused form costs no decode
-    _check_header(data, name, max_pixels)
-    if decoding is None:
-        decoding = contextlib.nullcontext()
-    elif not decoding.acquire(timeout=decode_wait_s):
-        raise DecodersBusy("the server is busy reading other photos; send the form again in a minute")
-    else:
-        decoding = _Release(decoding)
-    with decoding:
-        image = _decode(data, name, max_pixels)
+    image = decode_photo(data, name, max_pixels=max_pixels, decoding=decoding, decode_wait_s=decode_wait_s)
     with _blamed():
         size = options.check_plan(settings, output, image.shape, inventory_paints=inventory_paints)
     if max_work:
@@ -178,6 +170,32 @@ class _blamed:
             field = exc.field if exc.field in LABELS else OPTIONS[exc.option].field
             raise RequestError(exc.form_message(LABELS[field]), field=field) from None
         return False
+
+
+def decode_photo(data: bytes, name: str = "", *, max_pixels: int = DEFAULT_MAX_PIXELS, decoding=None,
+                 decode_wait_s: float = 30.0):
+    """Decode an uploaded photo within the server's limits: its pixel count checked from the header first,
+    then decoded while holding a slot of ``decoding`` (a semaphore; None: at once).
+
+    Returns
+    -------
+    image : (H, W, 3) uint8 array
+
+    Raises
+    ------
+    RequestError
+        413 over ``max_pixels``, 415 not an image we read, 400 damaged, 503 (:class:`DecodersBusy`)
+        when no slot came free within ``decode_wait_s``.
+    """
+    _check_header(data, name, max_pixels)
+    if decoding is None:
+        slot = contextlib.nullcontext()
+    elif not decoding.acquire(timeout=decode_wait_s):
+        raise DecodersBusy("the server is busy reading other photos; send the form again in a minute")
+    else:
+        slot = _Release(decoding)
+    with slot:
+        return _decode(data, name, max_pixels)
 
 
 class _Release:
