@@ -86,9 +86,13 @@ def visitor() -> Visitor:
 
 
 def owns(record: PlanRecord) -> bool:
-    """True when the current visitor may delete ``record`` or change it (its owner, or the admin)."""
+    """True when the current visitor may delete ``record`` or change it: its owner, or the admin.
+
+    A plan stored before plans had owners (``owner`` empty) is listed to no one but the admin,
+    and whoever has its id may still delete it, as anyone could when it was made.
+    """
     v = visitor()
-    return v.admin or (bool(record.owner) and hmac.compare_digest(record.owner, v.key))
+    return v.admin or not record.owner or hmac.compare_digest(record.owner, v.key)
 
 
 def can_see(record: PlanRecord) -> bool:
