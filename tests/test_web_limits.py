@@ -201,6 +201,19 @@ def _timed_target(data_dir: str, plan_id: str) -> None:
     store.mark_done(plan_id)
 
 
+def test_the_turn_goes_to_the_owner_served_least_recently(tmp_path):
+    from layerplan.web import jobs
+
+    runner = LocalProcessRunner.__new__(LocalProcessRunner)  # only the queue, no dispatcher thread
+    runner._queues, runner._served, runner._served_count = {}, {}, 0
+    for owner, plan_id in (("a", "a1"), ("a", "a2"), ("a", "a3")):
+        runner._queues.setdefault(owner, jobs.collections.deque()).append(plan_id)
+    assert runner._next_waiting() == "a1"  # a is served before b has sent anything
+    runner._queues.setdefault("b", jobs.collections.deque()).extend(["b1", "b2"])
+    runner._queues.setdefault("c", jobs.collections.deque()).append("c1")
+    assert [runner._next_waiting() for _ in range(6)] == ["b1", "c1", "a2", "b2", "a3", None]
+
+
 def test_the_queue_takes_owners_in_turn(tmp_path):
     store = PlanStore(tmp_path / "data")
     runner = LocalProcessRunner(store.data_dir, max_workers=1, target=_timed_target)
@@ -216,5 +229,5 @@ def test_the_queue_takes_owners_in_turn(tmp_path):
     finally:
         runner.shutdown()
     order = sorted(starts, key=starts.get)
-    # round robin: a, b, a, b, a (the first of a's may already be running when b's arrive)
+    # round robin: a, b, a, b, a, whether or not a's first plan started before b's arrived
     assert order == [a[0], b[0], a[1], b[1], a[2]], json.dumps(order)

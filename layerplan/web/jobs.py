@@ -45,6 +45,8 @@ POLL_S = 0.1
 RETRY_S = 1.0
 #: how often a worker checks that the server that started it still runs, seconds
 WATCH_PARENT_S = 0.5
+#: owners whose last turn the dispatcher remembers
+MAX_REMEMBERED_OWNERS = 10_000
 #: a worker's exit code when it could not record its plan's outcome (sysexits.h EX_TEMPFAIL)
 EXIT_NO_VERDICT = 75
 #: a worker's exit code when the server that started it is gone
@@ -375,6 +377,9 @@ class LocalProcessRunner(JobRunner):
         self._server = (os.getpid(), process_start(os.getpid()))
         #: owner -> that owner's waiting plan ids; the dict's order is the round-robin turn
         self._queues: dict[str, collections.deque[str]] = {}
+        #: owner -> when it was last served (a count of plans started), for the turn
+        self._served: dict[str, int] = {}
+        self._served_count = 0
         self._running: dict[str, tuple[Any, float]] = {}
         #: verdicts the store could not take yet (a full disk): plan id -> (kind, message), tried again
         self._unsettled: dict[str, tuple[str, str]] = {}
@@ -463,16 +468,22 @@ class LocalProcessRunner(JobRunner):
                 self._cv.wait(timeout=pause)
 
     def _next_waiting(self) -> str | None:
-        """The next plan in the round-robin turn over owners."""
-        while self._queues:
-            owner = next(iter(self._queues))
-            q = self._queues.pop(owner)
-            if q:
-                plan_id = q.popleft()
-                if q:
-                    self._queues[owner] = q  # to the back of the turn
-                return plan_id
-        return None
+        """The next plan in the round-robin turn over owners: the owner served least recently goes first
+        (one never served before anyone else), first in first out within one owner's plans."""
+        if not self._queues:
+            return None
+        order = {owner: n for n, owner in enumerate(self._queues)}
+        owner = min(self._queues, key=lambda o: (self._served.get(o, -1), order[o]))
+        q = self._queues.pop(owner)
+        plan_id = q.popleft()
+        if q:
+            self._queues[owner] = q
+        self._served_count += 1
+        self._served[owner] = self._served_count
+        if len(self._served) > MAX_REMEMBERED_OWNERS:  # forget the owners served longest ago
+            for old in sorted(self._served, key=self._served.get)[:len(self._served) // 2]:
+                del self._served[old]
+        return plan_id
 
     def _start_waiting(self) -> None:
         while not self._stopping and self._queues and len(self._running) < self.max_workers:
@@ -485,6 +496,8 @@ class LocalProcessRunner(JobRunner):
             except Exception:  # noqa: BLE001 - only a message; the plan still starts
                 pass
             try:
+                if self._ctx.get_start_method() == "forkserver":
+                    start_fork_server()  # a fork server that died is started again with the right path
                 proc = self._ctx.Process(target=_worker_main,
                                          args=(self._target, self.data_dir, plan_id, *self._server),
                                          name=f"layerplan-plan-{plan_id}", daemon=True)
