@@ -281,11 +281,12 @@ def test_bad_input_does_not_disturb_a_plan_in_progress(client):
     assert wait_for_plan(client, again)[-1]["state"] == "done"
 
 
-def test_queue_limit_answers_503(tmp_path):
+def test_queue_limit_answers_429(tmp_path):
+    # 429 Too Many Requests (RFC 6585, section 4) with Retry-After: the queue is full, the request was fine
     app = make_web_app(tmp_path / "data", MAX_QUEUED=0)
     try:
         r = app.test_client().post("/api/plans", data=plan_form(), content_type="multipart/form-data")
-        assert r.status_code == 503 and r.headers["Retry-After"] == "60"
+        assert r.status_code == 429 and r.headers["Retry-After"] == "60"
         assert re.search(r"0 plans are already waiting", r.get_json()["error"]), r.get_json()["error"]
     finally:
         app.extensions["layerplan"].close()
@@ -355,7 +356,7 @@ def test_start_page_has_the_form(client):
     for field in ('name="image"', 'name="wall_width"', 'name="wall_height"', 'name="unit"', 'name="paints"',
                   'name="kit"', 'name="brushes"', 'name="fit"'):
         assert field in html
-    assert "Recent plans" in html
+    assert "Your plans" in html  # the list shows this browser's own plans
 
 
 def test_form_error_rerenders_the_form_with_the_message(client):
@@ -527,7 +528,7 @@ def test_form_upload_too_large_rerenders_the_form(tmp_path):
         big = png_bytes(np.random.default_rng(2).integers(0, 255, (200, 200, 3), np.uint8))
         r = app.test_client().post("/plans", data=plan_form(image=big), content_type="multipart/form-data")
         assert r.status_code == 413
-        assert "the photo is too large" in r.get_data(as_text=True)
+        assert "the upload is too large: at most 50 kB in all" in r.get_data(as_text=True)
         assert 'id="plan-form"' in r.get_data(as_text=True)
     finally:
         app.extensions["layerplan"].close()

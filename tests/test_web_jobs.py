@@ -169,13 +169,38 @@ def test_stored_output_options_reach_the_export(store):
         runner.shutdown()
 
 
-def test_a_worker_that_dies_is_marked_failed(store):
-    runner = LocalProcessRunner(store.data_dir, max_workers=1, target=_crashing_target)
+def test_a_worker_that_dies_is_retried_then_marked_failed(store):
+    # a worker that dies without a word (killed, out of memory) gets its plan started again, up to the
+    # attempt limit; a worker that always dies ends as failed with the exit code and the count
+    runner = LocalProcessRunner(store.data_dir, max_workers=1, target=_crashing_target, max_attempts=2)
     try:
         plan_id = store.create(TINY_SETTINGS, b"x")
         runner.submit(plan_id)
         assert _wait_state(store, plan_id, ("failed",)) == "failed"
-        assert store.get(plan_id).message == "the planning process stopped unexpectedly (exit code 3)"
+        record = store.get(plan_id)
+        assert record.attempts == 2
+        assert record.message == ("the planning process stopped unexpectedly (exit code 3) on each of 2 attempts; "
+                                  "gave up")
+    finally:
+        runner.shutdown()
+
+
+def _crash_once_target(data_dir: str, plan_id: str) -> None:
+    """Dies on its plan's first attempt, succeeds on the next."""
+    store = PlanStore(data_dir)
+    store.mark_running(plan_id)
+    if store.get(plan_id).attempts == 1:
+        os._exit(9)
+    store.mark_done(plan_id)
+
+
+def test_a_worker_killed_alone_has_its_plan_retried(store):
+    runner = LocalProcessRunner(store.data_dir, max_workers=1, target=_crash_once_target)
+    try:
+        plan_id = store.create(TINY_SETTINGS, b"x")
+        runner.submit(plan_id)
+        assert _wait_state(store, plan_id, ("done", "failed")) == "done"
+        assert store.get(plan_id).attempts == 2
     finally:
         runner.shutdown()
 

@@ -3,7 +3,8 @@
 ``POST /api/plans``                     multipart form -> 202 {"id", "url", ...}
 ``GET /api/plans``                      {"plans": [status, ...]} newest first
 ``GET /api/plans/<id>``                 {"id", "state", "progress", "message", "files", ...}
-``DELETE /api/plans/<id>``              204
+``DELETE /api/plans/<id>``              204 (403 unless it is yours)
+``PATCH /api/plans/<id>``               {"private": true|false} -> the plan's status (403 unless it is yours)
 ``GET /api/plans/<id>/files/<name>``    one of the plan's output files
 ``GET /api/kits``                       the brush kits offered on the start page
 
@@ -16,6 +17,12 @@ Fields of ``POST /api/plans`` (multipart/form-data; the start page's form sends 
 ``wall``           instead of the three above: one text such as ``4x2.5m``
 ``kit``            instead of ``brushes``: a brush kit id from ``GET /api/kits``
 ``inventory``      default, upload (with file ``inventory_file``) or edit (with ``inventory_text``)
+``private``        1 to make the plan private at once (only its owner and the admin see it)
+
+Owners: every response to a client that sent no owner token carries a new one in the
+``X-Layerplan-Owner`` header (and a cookie); send it back in that header to list, delete
+and change your plans. ``GET /api/plans`` lists only your plans (all of them for the admin
+token). A plan that is not private can be viewed by anyone who has its id.
 
 The options, as ``layerplan plan`` takes them (made from :mod:`layerplan.options`; a blank or
 absent field takes the default). Shares are ``15%`` or ``0.15``; lengths carry a unit (plain
@@ -70,7 +77,9 @@ numbers are mm):
                   labour cost; >= 0 (``--labour-rate``, default none)
 <!-- end of options table -->
 
-Errors are ``{"error": "<message>"}`` with 400, 404, 405, 413, 415 or 503. A refused plan
+Errors are ``{"error": "<message>"}`` with 400, 403, 404, 405, 413, 415, 429 (too many plans
+waiting: yours or in all; ``Retry-After``), 503 (photos being read: try again) or 507 (the
+server's storage is full). A refused plan
 request also carries ``"field"``: the form field at fault (or null); its message names the
 field by the label the start page gives it (``Width``, ``Max parts per mix``, ...).
 """
@@ -91,10 +100,17 @@ def _error(message: str, status: int, **more):
 
 
 def _record_or_404(plan_id: str):
-    record = service.store().get(plan_id)
+    record = service.visible(plan_id)
     if record is None:
-        abort(404, description=f"no plan with id {plan_id!r}")
+        abort(404, description=f"no plan with id {forms.clip(repr(plan_id))}")
     return record
+
+
+def _refused(exc: service.Refused):
+    response = _error(str(exc), exc.status)
+    if exc.retry_after:
+        response.headers["Retry-After"] = str(exc.retry_after)
+    return response
 
 
 @bp.post("/plans")
@@ -102,11 +118,14 @@ def create_plan():
     try:
         plan_id = service.submit(request.form, request.files)
     except forms.RequestError as exc:
-        return _error(str(exc), exc.status, field=exc.field)
-    except service.Busy as exc:
-        response = _error(str(exc), 503)
-        response.headers["Retry-After"] = "60"
+        current_app.logger.info("plan request refused (%s): %s", exc.field or exc.status, exc)
+        response = _error(str(exc), exc.status, field=exc.field)
+        if exc.status == 503:
+            response.headers["Retry-After"] = "30"
         return response
+    except service.Refused as exc:
+        current_app.logger.info("plan request refused (%s): %s", exc.status, exc)
+        return _refused(exc)
     record = service.store().get(plan_id)
     body = service.status(record)
     response = jsonify(body)
@@ -118,7 +137,7 @@ def create_plan():
 @bp.get("/plans")
 def list_plans():
     limit = int(current_app.config["RECENT_PLANS"])
-    return jsonify(plans=[service.status(r) for r in service.store().recent(limit)])
+    return jsonify(plans=[service.status(r) for r in service.recent(limit)])
 
 
 @bp.get("/plans/<plan_id>")
@@ -130,9 +149,29 @@ def plan_status(plan_id: str):
 
 @bp.delete("/plans/<plan_id>")
 def delete_plan(plan_id: str):
-    if not service.delete(plan_id):
-        abort(404, description=f"no plan with id {plan_id!r}")
+    try:
+        gone = service.delete(plan_id)
+    except service.Forbidden as exc:
+        return _refused(exc)
+    if not gone:
+        abort(404, description=f"no plan with id {forms.clip(repr(plan_id))}")
     return "", 204
+
+
+@bp.patch("/plans/<plan_id>")
+def change_plan(plan_id: str):
+    body = request.get_json(silent=True) if request.is_json else request.form.to_dict()
+    if not isinstance(body, dict) or "private" not in body:
+        return _error('send {"private": true} or {"private": false}', 400, field="private")
+    value = body["private"]
+    private = value if isinstance(value, bool) else forms.switch_on({"private": str(value)}, "private")
+    try:
+        found = service.set_private(plan_id, private)
+    except service.Forbidden as exc:
+        return _refused(exc)
+    if not found:
+        abort(404, description=f"no plan with id {forms.clip(repr(plan_id))}")
+    return jsonify(service.status(service.store().get(plan_id)))
 
 
 @bp.get("/plans/<plan_id>/files/<path:name>")

@@ -8,15 +8,17 @@ and a message naming the field, and a worker only ever sees input the planner ac
 
 from __future__ import annotations
 
+import contextlib
 import io
 import math
+import re
 from dataclasses import dataclass, field
 from typing import Any
 
 from PIL import Image, UnidentifiedImageError
 
 from layerplan import options, units
-from layerplan.load import ACCEPTED_FORMATS, ImageError, load_image
+from layerplan.load import ACCEPTED_FORMATS, DEFAULT_MAX_PIXELS, ImageError, load_image
 from layerplan.options import OPTIONS, OptionError
 # the start page reads these limits from here (layerplan/web/pages.py)
 from layerplan.options import MAX_MIX_PAINTS, MAX_PARTS, MAX_SEED, MAX_TOLERANCE_DE  # noqa: F401
@@ -52,14 +54,38 @@ def size_text(n_bytes: int) -> str:
     return f"{n_bytes / 1e3:.3g} kB"
 
 
+#: a run of characters this long in a message is someone's input: it is cut short
+LONGEST_SHOWN = 40
+_LONG_RUN = re.compile(r"\S{%d,}" % (LONGEST_SHOWN + 1))
+
+
+def clip(message: str, *, longest: int = LONGEST_SHOWN, total: int = 600) -> str:
+    """``message`` with any run of more than ``longest`` non-space characters cut to its start and its
+    length (``'1234567…' (100,000 characters)``), and the whole kept under ``total`` characters: a refusal
+    names the bad value without sending kilobytes of it back."""
+    def cut(m: re.Match) -> str:
+        run = m.group(0)
+        return f"{run[:longest // 2]}… ({len(run):,} characters)"
+
+    message = _LONG_RUN.sub(cut, str(message))
+    return message if len(message) <= total else message[:total - 1] + "…"
+
+
 class RequestError(ValueError):
     """A request we refuse; ``status`` is the HTTP status to answer with, ``field`` the form
-    field at fault (None when no one field is)."""
+    field at fault (None when no one field is). The message is :func:`clip`-ped."""
 
     def __init__(self, message: str, status: int = 400, *, field: str | None = None):
-        super().__init__(message)
+        super().__init__(clip(message))
         self.status = status
         self.field = field
+
+
+class DecodersBusy(RequestError):
+    """Every decode slot stayed taken for the whole wait (503)."""
+
+    def __init__(self, message: str):
+        super().__init__(message, status=503, field=None)
 
 
 @dataclass
@@ -81,7 +107,9 @@ class PlanRequest:
     extra: dict[str, Any] = field(default_factory=dict)
 
 
-def parse_plan_request(form, files, *, photo: tuple[bytes, str] | None = None) -> PlanRequest:
+def parse_plan_request(form, files, *, photo: tuple[bytes, str] | None = None,
+                       max_pixels: int = DEFAULT_MAX_PIXELS, decoding=None, decode_wait_s: float = 30.0,
+                       max_work: int = 0) -> PlanRequest:
     """Check a submitted plan request.
 
     Parameters
@@ -96,21 +124,35 @@ def parse_plan_request(form, files, *, photo: tuple[bytes, str] | None = None) -
         ``image`` (unless ``photo`` is given), ``inventory_file``.
     photo : (bytes, str), optional, keyword-only
         The photo and its original name, already read (e.g. kept from an earlier try).
+    max_pixels : int, keyword-only
+        Largest photo (width × height), read from its header before it is decoded.
+    decoding : threading.Semaphore, optional, keyword-only
+        Held while the photo is decoded, so that at most so many photos are decoded at once
+        (a decoded photo takes about 3 bytes per pixel); None decodes at once.
+    decode_wait_s : float, keyword-only
+        How long to wait for ``decoding`` before answering 503.
+    max_work : int, keyword-only
+        Largest working pixels × paints × brushes of a plan (0: no limit), refused up front.
 
     Raises
     ------
     RequestError
-        415 when the upload is not an image in a format we read, 400 for everything
-        else, each naming the field by its label and the bad value.
+        415 when the upload is not an image in a format we read, 413 when the photo has
+        more than ``max_pixels`` pixels, 503 (:class:`DecodersBusy`) when no decode slot
+        came free in time, 400 for everything else, each naming the field by its label
+        and the bad value.
     """
     data, name = photo if photo is not None else read_photo(files)
     with _blamed():
         settings = _settings(form)
         output = options.output_kwargs(_values(form, options.form_options("output")))
     inventory_text, inventory_paints = _inventory(form, files)
-    image = _decode(data, name)
+    # the settings that need no photo are checked first, so a refused form costs no decode
+    image = decode_photo(data, name, max_pixels=max_pixels, decoding=decoding, decode_wait_s=decode_wait_s)
     with _blamed():
         size = options.check_plan(settings, output, image.shape, inventory_paints=inventory_paints)
+    if max_work:
+        check_work(size.width_px * size.height_px, settings.paints, len(settings.brushes_mm), max_work)
     return PlanRequest(image_bytes=data, source_name=name, settings=settings, image_shape=image.shape[:2],
                        raster_px=(size.width_px, size.height_px), mm_per_px=size.mm_per_px,
                        inventory_text=inventory_text, output_options=output,
@@ -128,6 +170,72 @@ class _blamed:
             field = exc.field if exc.field in LABELS else OPTIONS[exc.option].field
             raise RequestError(exc.form_message(LABELS[field]), field=field) from None
         return False
+
+
+def decode_photo(data: bytes, name: str = "", *, max_pixels: int = DEFAULT_MAX_PIXELS, decoding=None,
+                 decode_wait_s: float = 30.0):
+    """Decode an uploaded photo within the server's limits: its pixel count checked from the header first,
+    then decoded while holding a slot of ``decoding`` (a semaphore; None: at once).
+
+    Returns
+    -------
+    image : (H, W, 3) uint8 array
+
+    Raises
+    ------
+    RequestError
+        413 over ``max_pixels``, 415 not an image we read, 400 damaged, 503 (:class:`DecodersBusy`)
+        when no slot came free within ``decode_wait_s``.
+    """
+    _check_header(data, name, max_pixels)
+    if decoding is None:
+        slot = contextlib.nullcontext()
+    elif not decoding.acquire(timeout=decode_wait_s):
+        raise DecodersBusy("the server is busy reading other photos; send the form again in a minute")
+    else:
+        slot = _Release(decoding)
+    with slot:
+        return _decode(data, name, max_pixels)
+
+
+class _Release:
+    """Release an acquired semaphore on leaving the block."""
+
+    def __init__(self, semaphore):
+        self.semaphore = semaphore
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, *exc):
+        self.semaphore.release()
+        return False
+
+
+def check_work(pixels: int, paints: int, brushes: int, max_work: int) -> None:
+    """Refuse a plan whose working pixels × paints × brushes is over ``max_work``.
+
+    The placer's time grows with each of the three (every layer visits every pixel and
+    weighs every paint), so their product is the plan's size; the message says each factor
+    and what would bring it under the limit.
+
+    Raises
+    ------
+    RequestError
+        400, field ``pixel_mm``, when over the limit.
+    """
+    work = pixels * paints * brushes
+    if work > max_work:
+        raise RequestError(
+            f"this plan is too big for this server: {pixels / 1e6:.2g} megapixels × {paints} paints × "
+            f"{brushes} brushes = {work / 1e6:,.0f} million (its limit is {max_work / 1e6:,.0f} million); "
+            f"use a larger {LABELS.get('pixel_mm', 'pixel size')}, fewer paints or fewer brushes",
+            field="pixel_mm")
+
+
+def switch_on(form, name: str) -> bool:
+    """A checkbox or API flag: on for 1, true, yes, on (any case)."""
+    return _text(form, name).lower() in ("1", "true", "yes", "on")
 
 
 # ------------------------------------------------------------------------------ the photo
@@ -153,12 +261,26 @@ def looks_like_photo(data: bytes) -> bool:
     return not _unidentified(data)
 
 
-def _decode(data: bytes, name: str):
+def _check_header(data: bytes, name: str, max_pixels: int) -> None:
+    """Refuse a photo with more than ``max_pixels`` pixels from its header alone (Pillow's
+    :func:`PIL.Image.open` reads the header and decodes nothing until asked)."""
+    try:
+        with Image.open(io.BytesIO(data), formats=ACCEPTED_FORMATS) as im:
+            width, height = im.size
+    except Exception:  # noqa: BLE001 - not an image, or damaged: the decode says which, in its words
+        return
+    if width * height > max_pixels:
+        raise RequestError(f"the photo is {width} × {height} pixels ({width * height / 1e6:.1f} megapixels); "
+                           f"this server takes at most {max_pixels / 1e6:g} megapixels: send a smaller copy",
+                           status=413, field="image")
+
+
+def _decode(data: bytes, name: str, max_pixels: int = DEFAULT_MAX_PIXELS):
     source = io.BytesIO(data)
     if name:
         source.name = name  # only the messages use it ("image file 'x.png' is not an image")
     try:
-        return load_image(source)
+        return load_image(source, max_pixels=max_pixels)
     except ImageError as exc:
         raise RequestError(str(exc), status=415 if _unidentified(data) else 400, field="image") from None
 
@@ -215,6 +337,8 @@ def _inventory(form, files) -> tuple[str | None, int | None]:
         inventory = module.loads_inventory(text, source=source.strip())
     except ValueError as exc:
         raise RequestError(str(exc), field=where) from None
+    except RecursionError:  # tables nested hundreds deep: refused here whatever the reader's own limit
+        raise RequestError(f"{source.strip()} is nested too deeply to be an inventory", field=where) from None
     return text, len(inventory)
 
 
@@ -260,12 +384,17 @@ def _side(side: str, text: str, unit: str) -> float:
     try:
         value = float(text)
     except ValueError:
-        raise RequestError(f"{LABELS[name]} must be a number, got {text!r}", field=name) from None
+        raise RequestError(f"{LABELS[name]} must be a number, got {_shown(text)}", field=name) from None
     if not math.isfinite(value):
-        raise RequestError(f"{LABELS[name]} must be a finite number, got {text!r}", field=name)
+        raise RequestError(f"{LABELS[name]} must be a finite number, got {_shown(text)}", field=name)
     if value <= 0:  # before converting: the message repeats what was typed
-        raise RequestError(f"{LABELS[name]} must be > 0, got {text} {unit}", field=name)
-    return options.check_wall_side(side, units.to_mm(value, unit), field=name, shown=f"{text} {unit}")
+        raise RequestError(f"{LABELS[name]} must be > 0, got {clip(text)} {unit}", field=name)
+    return options.check_wall_side(side, units.to_mm(value, unit), field=name, shown=f"{clip(text)} {unit}")
+
+
+def _shown(text: str) -> str:
+    """What was typed, quoted, cut short when long."""
+    return repr(text) if len(text) <= LONGEST_SHOWN else clip(text)
 
 
 def _brushes(form) -> tuple[float, ...]:

@@ -13,15 +13,18 @@ from flask import (Blueprint, abort, current_app, redirect, render_template, req
 from PIL import Image
 from werkzeug.exceptions import RequestEntityTooLarge
 
+import logging
+
 from layerplan import caveats, options, quantities, wording
 from layerplan.export import EXPORTS
 from layerplan.plan import Plan
 from layerplan.settings import Settings
 
-from . import forms, service
+from . import forms, owners, service
 from .store import WEB_KEY
 
 bp = Blueprint("pages", __name__)
+log = logging.getLogger(__name__)
 
 _S = Settings()
 #: the recipe and quantity options the form starts with: each option's own default, from the one spec
@@ -33,6 +36,8 @@ OPTION_DEFAULTS = {k: v for k, v in options.form_defaults().items()
 FORM_DEFAULTS = {"wall_width": "3", "wall_height": "", "unit": "m", "paints": "8", "kit": forms.DEFAULT_KIT,
                  "brushes": "", "fit": "cover", "seed": "0", "pixel_mm": "", "inventory": "default",
                  "inventory_text": "", "free_palette": "", **OPTION_DEFAULTS}
+#: a typed value longer than this (characters) is not put back into the re-shown form
+MAX_REFILL = 1000
 #: mimetypes of the photo formats we accept, by Pillow format id
 _PHOTO_TYPES = {"JPEG": "image/jpeg", "MPO": "image/jpeg", "PNG": "image/png", "WEBP": "image/webp",
                 "TIFF": "image/tiff"}
@@ -42,16 +47,19 @@ def _start_page(values: dict[str, str] | None = None, error: str | None = None, 
                 error_field: str | None = None, kept: dict[str, str] | None = None):
     merged = dict(FORM_DEFAULTS)
     if values:
-        merged.update({k: v for k, v in values.items() if k in FORM_DEFAULTS})
+        # what was typed comes back for correcting, unless it is kilobytes no field needs
+        merged.update({k: v for k, v in values.items()
+                       if k in FORM_DEFAULTS and (len(v) <= MAX_REFILL or k == "inventory_text")})
     # options the painter changed open the "more options" part
     changed = any(merged.get(k, "").strip() != v for k, v in OPTION_DEFAULTS.items())
     changed = changed or merged["seed"] not in ("", "0") or bool(merged["pixel_mm"] or merged["free_palette"])
     limit = int(current_app.config["RECENT_PLANS"])
-    recent = [{"record": r, "summary": plan_summary(r.settings)} for r in service.store().recent(limit)]
+    recent = [{"record": r, "summary": plan_summary(r.settings)} for r in service.recent(limit)]
     limit = current_app.config.get("MAX_CONTENT_LENGTH")
     max_size = forms.size_text(limit) if limit else ""
     return render_template("start.html", values=merged, error=error, error_field=error_field, kept=kept,
                            more_open=changed or error_field in OPTION_DEFAULTS, recent=recent,
+                           admin=owners.visitor().admin,
                            kits=forms.BRUSH_KITS, labels=forms.LABELS, limits=_limits(),
                            units=forms.UNIT_CHOICES, max_size=max_size, inventory=_inventory_view()), status
 
@@ -81,8 +89,10 @@ def create():
     try:
         form, files = request.form, request.files
     except RequestEntityTooLarge:
-        limit = forms.size_text(current_app.config["MAX_CONTENT_LENGTH"])
-        return _start_page(None, f"the photo is too large: at most {limit}", 413, error_field="image")
+        from . import too_large_message
+
+        whole = request.content_length is None or request.content_length > (request.max_content_length or 0)
+        return _start_page(None, too_large_message(), 413, error_field="image" if whole else None)
     stash = service.uploads()
     token = (form.get("upload_token") or "").strip()
     upload = files.get("image")
@@ -101,17 +111,20 @@ def create():
         else:
             photo = forms.read_photo(files)
         plan_id = service.submit(form, files, photo=photo)
-    except (forms.RequestError, service.Busy) as exc:
-        status = exc.status if isinstance(exc, forms.RequestError) else 503
+    except (forms.RequestError, service.Refused) as exc:
+        status = exc.status
         field = getattr(exc, "field", None)
+        log.info("plan form refused (%s): %s", field or status, exc)
         kept = None
         if photo is not None and field != "image" and forms.looks_like_photo(photo[0]):
             token = token or stash.put(*photo)  # so the next try need not choose the photo again
-            kept = {"token": token, "name": photo[1] or "the photo",
-                    "url": url_for("pages.kept_photo", token=token)}
+            if token:
+                kept = {"token": token, "name": photo[1] or "the photo",
+                        "url": url_for("pages.kept_photo", token=token)}
         elif token:
             stash.discard(token)
-        return _start_page(form.to_dict(), str(exc), status, error_field=field, kept=kept)
+        response = _start_page(form.to_dict(), str(exc), status, error_field=field, kept=kept)
+        return response
     if token:
         stash.discard(token)
     return redirect(url_for("pages.plan_page", plan_id=plan_id), code=303)
@@ -126,11 +139,21 @@ def kept_photo(token: str):
     return _photo_response(kept[0], max_age=0)
 
 
+@bp.app_context_processor
+def _server_limits() -> dict[str, Any]:
+    days = current_app.config.get("RETENTION_DAYS") or 0
+    return {"retention_days": f"{float(days):g}" if days else None}
+
+
+def _no_plan(plan_id: str):
+    abort(404, description=f"there is no plan {forms.clip(repr(plan_id))} (it may have been deleted)")
+
+
 @bp.get("/plans/<plan_id>")
 def plan_page(plan_id: str):
-    record = service.store().get(plan_id)
+    record = service.visible(plan_id)
     if record is None:
-        abort(404, description=f"there is no plan {plan_id!r} (it may have been deleted)")
+        _no_plan(plan_id)
     view: dict[str, Any] = {"record": record, "status": service.status(record),
                             "summary": plan_summary(record.settings)}
     if record.state == "done":
@@ -138,25 +161,72 @@ def plan_page(plan_id: str):
             plan = service.stored_plan(plan_id)
             if plan is None:
                 raise ValueError("its plan.json is missing from the data directory")
-        except ValueError as exc:
+            view.update(_plan_view(plan, view["status"]["files"]))
+            return render_template("plan.html", **view)
+        except Exception as exc:  # noqa: BLE001 - a stored plan, whatever it holds, must not break its page
             # the plan's own files are broken, not the request: say so, and keep the page to delete it
-            view["plan_error"] = f"The stored plan cannot be shown: {exc}. Delete it and make it again."
+            log.warning("plan %s: its page cannot show the stored plan: %s: %s", plan_id, type(exc).__name__,
+                        forms.clip(str(exc), total=300))
+            reason = forms.clip(str(exc), total=300) if isinstance(exc, ValueError) else "it holds values out of range"
+            view = {k: view[k] for k in ("record", "status", "summary")}
+            view["plan_error"] = f"The stored plan cannot be shown: {reason}. Delete it and make it again."
             return render_template("plan.html", **view), 500
-        view.update(_plan_view(plan, view["status"]["files"]))
     return render_template("plan.html", **view)
 
 
 @bp.post("/plans/<plan_id>/delete")
 def delete(plan_id: str):
-    if not service.delete(plan_id):
-        abort(404, description=f"there is no plan {plan_id!r} (it may have been deleted already)")
+    try:
+        gone = service.delete(plan_id)
+    except service.Forbidden as exc:
+        abort(403, description=str(exc))
+    if not gone:
+        abort(404, description=f"there is no plan {forms.clip(repr(plan_id))} (it may have been deleted already)")
     return redirect(url_for("pages.start"), code=303)
+
+
+@bp.post("/plans/<plan_id>/private")
+def make_private(plan_id: str):
+    """The plan page's switch: private (only its owner sees it) or viewable by anyone with the link."""
+    try:
+        found = service.set_private(plan_id, forms.switch_on(request.form, "private"))
+    except service.Forbidden as exc:
+        abort(403, description=str(exc))
+    if not found:
+        _no_plan(plan_id)
+    return redirect(url_for("pages.plan_page", plan_id=plan_id), code=303)
+
+
+@bp.route("/admin", methods=["GET", "POST"])
+def admin():
+    """Signing in with the admin token (config ADMIN_TOKEN): this browser then sees and deletes every plan."""
+    from .owners import COOKIE
+
+    admin_token = current_app.config.get("ADMIN_TOKEN")
+    if not admin_token:
+        abort(404, description="this server has no admin token set (ADMIN_TOKEN)")
+    if request.method == "GET":
+        return render_template("admin.html", signed_in=owners.visitor().admin, error=None)
+    if forms.switch_on(request.form, "sign_out"):
+        response = redirect(url_for("pages.start"), code=303)
+        response.delete_cookie(COOKIE, path="/")
+        return response
+    import hmac
+
+    given = (request.form.get("token") or "").strip()
+    if not hmac.compare_digest(given.encode(), str(admin_token).encode()):
+        log.warning("admin sign-in refused from %s", request.remote_addr)
+        return render_template("admin.html", signed_in=False, error="that is not the admin token"), 403
+    response = redirect(url_for("pages.start"), code=303)
+    secure = bool(current_app.config.get("OWNER_COOKIE_SECURE")) or request.is_secure
+    response.set_cookie(COOKIE, given, max_age=12 * 3600, httponly=True, samesite="Strict", secure=secure, path="/")
+    return response
 
 
 @bp.get("/plans/<plan_id>/photo")
 def photo(plan_id: str):
-    if service.store().get(plan_id) is None:
-        abort(404, description=f"there is no plan {plan_id!r}")
+    if service.visible(plan_id) is None:
+        _no_plan(plan_id)
     path = service.store().upload_path(plan_id)
     try:
         data = path.read_bytes()
@@ -276,10 +346,42 @@ def _ground_text(paint: str, coats) -> str:
 def plan_summary(settings: dict[str, Any]) -> dict[str, Any]:
     """What a plan is being made with, for the plan list and the progress page.
 
-    Returns ``{"surface": "3 × 1.5 m", "paints": 8, "brushes": "100 / 50 / 25 / 12 mm",
+    Returns ``{"surface": "3 × 1.5 m", "paints": "8", "brushes": "100 / 50 / 25 / 12 mm",
     "facts": [(label, text), ...]}``: the main settings first, then the options that differ
-    from their defaults.
+    from their defaults. Every value is text. A stored record holding values no form would
+    give (a number too large to write, a list where a number belongs) still gets a summary:
+    what can be said is said, and the page never fails over it.
     """
+    try:
+        summary = _summary(settings if isinstance(settings, dict) else {})
+        summary["paints"] = _said(summary["paints"])
+        summary["seed"] = _said(summary["seed"])
+        summary["facts"] = [(label, _said(text)) for label, text in summary["facts"]]
+        return summary
+    except Exception as exc:  # noqa: BLE001 - a record the page cannot describe is shown without its facts
+        log.warning("a plan's settings cannot be summarised: %s: %s", type(exc).__name__,
+                    forms.clip(str(exc), total=200))
+        return {"surface": "", "paints": "", "brushes": "", "brush_count": 0, "seed": "", "facts": []}
+
+
+def _fmt(fmt: str, value, *, scale: float = 1) -> str:
+    """``fmt`` with a stored number (scaled, to 6 decimals); a number too large to write says so."""
+    try:
+        return fmt.format(round(float(value) * scale, 6))
+    except (OverflowError, ValueError):
+        return "a very large number"
+
+
+def _said(value) -> str:
+    """A value as short text ("" for none); huge numbers and long texts cut short."""
+    if value is None or value == "":
+        return ""
+    if isinstance(value, int) and not isinstance(value, bool) and abs(value) >= 10 ** 12:
+        return "a very large number"
+    return forms.clip(str(value), total=120)
+
+
+def _summary(settings: dict[str, Any]) -> dict[str, Any]:
     web = settings.get(WEB_KEY) or {}
     unit = settings.get("wall_unit", "m")
     wall = web.get("wall_mm") or [settings.get("wall_width_mm"), settings.get("wall_height_mm")]
@@ -300,7 +402,7 @@ def plan_summary(settings: dict[str, Any]) -> dict[str, Any]:
                             ("tolerance_de", "Tolerance ΔE00", "{:g}"), ("stroke_cost", "Stroke cost", "{:g}")):
         value, default = settings.get(key), getattr(_S, key)
         if isinstance(value, (int, float)) and value != default:
-            facts.append((label, fmt.format(value)))
+            facts.append((label, _fmt(fmt, value)))
     output = web.get("output") or {}
     shown = {"coverage_m2_per_litre": ("Coverage", "{:g} m²/L", quantities.COVERAGE_M2_PER_L),
              "ground_coats": ("Ground coats", "{:g}", quantities.GROUND_COATS),
@@ -309,8 +411,7 @@ def plan_summary(settings: dict[str, Any]) -> dict[str, Any]:
     for key, (label, fmt, default) in shown.items():
         value = output.get(key)
         if isinstance(value, (int, float)) and value != default:
-            value = value * 100 if key == "waste" else value / 10 if key == "grid_mm" else value
-            facts.append((label, fmt.format(round(value, 6))))
+            facts.append((label, _fmt(fmt, value, scale=100 if key == "waste" else 0.1 if key == "grid_mm" else 1)))
     return {"surface": surface, "paints": settings.get("paints"), "brushes": brushes_text,
             "brush_count": len(brushes), "seed": settings.get("seed", 0), "facts": facts}
 

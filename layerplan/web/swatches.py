@@ -12,9 +12,9 @@ rest of the API; nothing is stored.
 
 from __future__ import annotations
 
-from flask import Blueprint, Response, jsonify, render_template, request
+from flask import Blueprint, Response, current_app, jsonify, render_template, request
 
-from . import forms
+from . import forms, service
 
 bp = Blueprint("swatches", __name__)
 
@@ -56,14 +56,14 @@ def card():
         tint = (request.form.get("tint") or "").strip() or DEFAULT_TINT
         svg = card_svg(card_layout(inventory, white=white, tint=tint))
     except (forms.RequestError, SwatchError, ValueError) as exc:
-        return _error(str(exc), getattr(exc, "status", 400))
+        status = getattr(exc, "status", 400)
+        return _error(str(exc), 400 if status == 415 else status)  # this route has always said 400 for a non-image
     return Response(svg, mimetype="image/svg+xml",
                     headers={"Content-Disposition": 'attachment; filename="swatch-card.svg"'})
 
 
 @bp.post("/api/swatches/read")
 def read():
-    from layerplan.load import load_image
     from layerplan.swatches import SwatchError, inventory_toml, read_card
 
     try:
@@ -72,9 +72,13 @@ def read():
         if not data:
             raise SwatchError("no photo: send the photo of the painted card in the form field 'photo'")
         inventory = _inventory()
-        reading = read_card(load_image(data), inventory)
+        config = current_app.config
+        image = forms.decode_photo(data, max_pixels=int(config["MAX_PHOTO_PIXELS"]),
+                                   decoding=service.state().decodes, decode_wait_s=float(config["DECODE_WAIT_S"]))
+        reading = read_card(image, inventory)
         text = inventory_toml(reading, inventory)
     except (forms.RequestError, SwatchError, ValueError) as exc:  # ImageError is a ValueError
-        return _error(str(exc), getattr(exc, "status", 400))
+        status = getattr(exc, "status", 400)
+        return _error(str(exc), 400 if status == 415 else status)  # this route has always said 400 for a non-image
     return Response(text, mimetype="application/toml",
                     headers={"Content-Disposition": 'attachment; filename="my-paints.toml"'})
