@@ -98,6 +98,9 @@ def test_a_private_plan_is_not_found_by_others(shared):
     for url in (f"/api/plans/{plan_id}", f"/plans/{plan_id}", f"/plans/{plan_id}/photo"):
         assert b.get(url).status_code == 404, url
         assert a.get(url).status_code == 200, url
+    # nor its machine programs (the owner's answer depends on whether planning has finished)
+    assert b.get(f"/plans/{plan_id}/machine?format=svg").status_code == 404
+    assert a.get(f"/plans/{plan_id}/machine?format=svg").status_code != 404
     # others cannot even learn it exists by trying to delete it
     assert b.delete(f"/api/plans/{plan_id}").status_code == 404
     # the page's switch makes it shareable again

@@ -474,15 +474,16 @@ def machine_program(plan_id: str):
         response.status_code = status
         return response
 
-    record = service.store().get(plan_id)
+    # a private plan is not there for anyone but its owner, as on its page
+    record = service.visible(plan_id)
     if record is None:
-        return refuse(f"there is no plan {plan_id!r} (it may have been deleted)", 404)
+        return refuse(f"there is no plan {forms.clip(repr(plan_id))} (it may have been deleted)", 404)
     fmt = request.args.get("format", "gcode")
     name = request.args.get("profile", machine.DEFAULT_PROFILE)
     if fmt not in machine.FORMATS:
-        return refuse(f"format must be one of {', '.join(machine.FORMATS)}, got {fmt!r}", 400)
+        return refuse(f"format must be one of {', '.join(machine.FORMATS)}, got {forms.clip(repr(fmt))}", 400)
     if name not in machine.PROFILES:
-        return refuse(f"profile must be one of {', '.join(machine.PROFILES)}, got {name!r}", 400)
+        return refuse(f"profile must be one of {', '.join(machine.PROFILES)}, got {forms.clip(repr(name))}", 400)
     try:
         plan = service.stored_plan(plan_id)
     except ValueError as exc:
