@@ -36,9 +36,10 @@ _MARKER = "plan.json"
 
 
 def png_bytes(rgb: np.ndarray) -> bytes:
-    """Encode an (H, W, 3) uint8 image as PNG (deterministic bytes)."""
+    """Encode an (H, W, 3) uint8 image, or (H, W, 4) with alpha, as PNG (deterministic bytes)."""
     buf = io.BytesIO()
-    Image.fromarray(np.ascontiguousarray(rgb, dtype=np.uint8), "RGB").save(buf, format="PNG", optimize=False)
+    mode = "RGBA" if rgb.shape[-1] == 4 else "RGB"
+    Image.fromarray(np.ascontiguousarray(rgb, dtype=np.uint8), mode).save(buf, format="PNG", optimize=False)
     return buf.getvalue()
 
 
@@ -95,9 +96,10 @@ class ExportInputs:
 
     @cached_property
     def step_pngs(self) -> tuple[bytes, ...]:
-        """PNG of each of :attr:`steps`."""
-        rgb = self.plan.palette_rgb()
-        return tuple(png_bytes(rgb[canvas]) for canvas in self.steps)
+        """PNG of each of :attr:`steps` (openings transparent: :func:`layerplan.raster.picture`)."""
+        from .raster import picture
+
+        return tuple(png_bytes(picture(self.plan, canvas)) for canvas in self.steps)
 
     @cached_property
     def outlines(self) -> tuple[dict[str, Any], ...]:

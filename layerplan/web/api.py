@@ -58,6 +58,11 @@ numbers are mm):
                   (``--paper``, default a4)
 ``enlargements``  most enlargement sheets of one layer in the printed plan (the squares with the most areas
                   are kept); 0 for none; whole number from 0 to 400 (``--enlargements``, default 24)
+``openings``      a window, door or vent: the rectangle's top-left corner from the wall's top-left, then its
+                  width and height; not painted, not charged for; X,Y,W,H with a unit: 1.0,1.2,0.9,1.8m
+                  (repeat the flag; in the form one a line) (``--opening``, default none)
+``wall_colour``   the colour the wall is painted already: when a paint of the plan matches it, that paint's
+                  ground coats are not bought; #rrggbb, or CIELAB L,a,b (``--wall-colour``, default not known)
 <!-- end of options table -->
 
 Errors are ``{"error": "<message>"}`` with 400, 404, 405, 413, 415 or 503. A refused plan
