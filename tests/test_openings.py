@@ -173,3 +173,15 @@ def test_a_plan_without_openings_has_no_key_and_an_opaque_picture():
     assert "openings" not in plan.to_dict() and plan_mask(plan) is None
     canvas = np.zeros((plan.height_px, plan.width_px), np.int16)
     assert picture(plan, canvas).shape[2] == 3
+
+
+def test_web_form_takes_openings_and_names_the_field_when_one_is_past_the_wall(client):
+    from conftest import plan_form
+
+    bad = client.post("/api/plans", data=plan_form(wall_width="2", wall_height="1", unit="m",
+                                                   openings="0.2,0.2,0.5,0.5m\n1.8,0.2,0.5,0.5m"),
+                      content_type="multipart/form-data")
+    assert bad.status_code == 400
+    assert "Openings" in bad.get_json()["error"] and "opening 2" in bad.get_json()["error"]
+    page = client.get("/")
+    assert b'name="openings"' in page.data and b'name="wall_colour"' in page.data
