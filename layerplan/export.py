@@ -66,6 +66,8 @@ class ExportInputs:
         The paper plan.html is laid out for (a key of :data:`layerplan.sheets.PAPERS`).
     enlargements_per_layer : int, optional
         Most enlargement sheets of one layer in plan.html (default that of :func:`layerplan.sheets.build_sheets`).
+    site : (photo, corners), optional
+        A photo of the wall and its four corners in it, for the mock-ups (:mod:`layerplan.mockup`).
     """
 
     plan: Plan
@@ -73,6 +75,8 @@ class ExportInputs:
     grid_mm: float
     paper: str = "a4"
     enlargements_per_layer: int | None = None
+    #: a photo of the site, ``(H, W, 3)`` uint8, and the wall's corners in it ((4, 2)): see layerplan.mockup
+    site: tuple[np.ndarray, np.ndarray] | None = None
 
     @cached_property
     def canvases(self) -> tuple[np.ndarray, ...]:
@@ -166,6 +170,27 @@ def _plan_document(x: ExportInputs) -> dict[str, bytes]:
     return {"plan.json": written.to_json().encode("utf-8")}
 
 
+def _site_mockup(x: ExportInputs) -> dict[str, bytes]:
+    if x.site is None:
+        return {}
+    from .mockup import mockup
+    from .raster import picture
+
+    photo, corners = x.site
+    return {"mockup.png": png_bytes(mockup(picture(x.plan, x.steps[-1]), photo, corners))}
+
+
+def _step_mockups(x: ExportInputs) -> dict[str, bytes]:
+    if x.site is None:
+        return {}
+    from .mockup import mockup
+    from .raster import picture
+
+    photo, corners = x.site
+    return {f"mockups/{n:02d}.png": png_bytes(mockup(picture(x.plan, canvas), photo, corners))
+            for n, canvas in enumerate(x.steps)}
+
+
 # ------------------------------------------------------------------ the registry
 @dataclass(frozen=True)
 class Export:
@@ -216,6 +241,8 @@ EXPORTS: Mapping[str, Export] = MappingProxyType({e.name: e for e in (
     Export("step-pictures", "steps/NN.png", "The wall after each step (PNG)", "image/png", _step_pictures),
     Export("layer-overlays", "steps/NN.svg", "Each layer's strokes and outline map (SVG)", "image/svg+xml",
            _layer_overlays),
+    Export("mockup.png", "mockup.png", "The plan on the site photo (PNG)", "image/png", _site_mockup),
+    Export("step-mockups", "mockups/NN.png", "Each step on the site photo (PNG)", "image/png", _step_mockups),
 )})
 
 
@@ -225,7 +252,8 @@ def export_for(file_name: str) -> Export | None:
 
 
 def build_files(plan: Plan, *, grid_mm: float | None = None, paper: str | None = None,
-                enlargements_per_layer: int | None = None, **options) -> dict[str, bytes]:
+                enlargements_per_layer: int | None = None, site_photo=None, site_corners=None,
+                **options) -> dict[str, bytes]:
     """Every output file of a plan, as relative path -> bytes (one entry of :data:`EXPORTS` each).
 
     ``steps/NN.png`` is the wall after layer NN (``00``: the ground); ``steps/NN.svg`` holds
@@ -238,7 +266,9 @@ def build_files(plan: Plan, *, grid_mm: float | None = None, paper: str | None =
     exporters and written as plan.json's ``paint_use`` section; ``plan`` itself is not changed.
     ``grid_mm`` is the transfer-grid square (default 500 mm, or 2 ft for walls measured in ft
     or in). ``paper`` is the paper plan.html is laid out for: a4 (default), letter, a3 or tabloid;
-    ``enlargements_per_layer`` the most enlargement sheets of one layer there.
+    ``enlargements_per_layer`` the most enlargement sheets of one layer there. ``site_photo`` (a
+    path, bytes or an (H, W, 3) uint8 array) with ``site_corners`` (8 numbers or (4, 2): the wall's
+    corners in it) adds ``mockup.png`` and ``mockups/NN.png`` (:mod:`layerplan.mockup`).
 
     Raises
     ------
@@ -262,8 +292,9 @@ def build_files(plan: Plan, *, grid_mm: float | None = None, paper: str | None =
     if grid_mm is None:
         grid_mm = default_grid_mm(plan.wall_unit, shorter_side_mm=min(plan.wall_width_mm, plan.wall_height_mm))
     grid_mm = check_grid(plan, grid_mm)
+    site = check_site(site_photo, site_corners)
     inputs = ExportInputs(plan=plan, paint_use=MappingProxyType(paint_use(plan, **options)), grid_mm=grid_mm,
-                          paper=paper, enlargements_per_layer=enlargements_per_layer)
+                          paper=paper, enlargements_per_layer=enlargements_per_layer, site=site)
     files: dict[str, bytes] = {}
     for export in EXPORTS.values():
         built = export.build(inputs)
@@ -273,6 +304,26 @@ def build_files(plan: Plan, *, grid_mm: float | None = None, paper: str | None =
                                "or already written")
         files.update(built)
     return files
+
+
+def check_site(site_photo, site_corners) -> tuple[np.ndarray, np.ndarray] | None:
+    """The site photo (read when it is a path or bytes) and its corners, checked; None when neither is given.
+
+    Raises
+    ------
+    ValueError
+        One given without the other, a photo that cannot be read, or bad corners (the message says which).
+    """
+    if site_photo is None and site_corners is None:
+        return None
+    if site_photo is None or site_corners is None:
+        raise ValueError("a site photo needs its corners and the corners a site photo: give --site-photo with "
+                         "--corners x1,y1,...,x4,y4")
+    from .load import load_image
+    from .mockup import check_corners
+
+    photo = site_photo if isinstance(site_photo, np.ndarray) else load_image(site_photo)
+    return photo, check_corners(site_corners, photo.shape)
 
 
 def _folder_mode(private: Path) -> int:

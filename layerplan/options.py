@@ -382,6 +382,35 @@ def _check_colour(opt: "Option", value) -> str:
     return ",".join(f"{v:g}" for v in lab)
 
 
+def _read_photo(opt: "Option", text: str) -> str:
+    return _check_photo(opt, text)
+
+
+def _check_photo(opt: "Option", value) -> str:
+    if not isinstance(value, str) or not value.strip():
+        raise OptionError(opt.name, f"{{name}} must be the path of a photo (JPEG, PNG, WebP or TIFF), got {value!r}")
+    return value
+
+
+def _read_corners(opt: "Option", text: str) -> tuple[float, ...]:
+    try:
+        values = tuple(float(t) for t in text.split(","))
+    except ValueError:
+        values = ()
+    return _check_corners(opt, values, shown=text)
+
+
+def _check_corners(opt: "Option", value, *, shown=None) -> tuple[float, ...]:
+    try:
+        values = tuple(float(v) for v in value)
+    except (TypeError, ValueError):
+        values = ()
+    if len(values) != 8 or not all(math.isfinite(v) for v in values):
+        raise OptionError(opt.name, "{name} must be 8 numbers x1,y1,...,x4,y4: the wall's top-left, top-right, "
+                                    f"bottom-right and bottom-left in photo pixels, got {shown if shown else value!r}")
+    return values
+
+
 #: kind -> (reader of typed text, checker of a value already typed)
 _KINDS: dict[str, tuple[Callable, Callable]] = {
     "whole": (_read_whole, _check_whole), "number": (_read_number, _check_number),
@@ -389,6 +418,7 @@ _KINDS: dict[str, tuple[Callable, Callable]] = {
     "choice": (_read_choice, _check_choice), "switch": (_read_switch, _check_switch),
     "wall": (_read_wall, None), "brushes": (_read_brushes, _check_brushes), "file": (_read_file, _check_file),
     "openings": (_read_openings, _check_openings), "colour": (_read_colour, _check_colour),
+    "photo": (_read_photo, _check_photo), "corners": (_read_corners, _check_corners),
 }
 #: widest brush we accept, mm (a 1 m squeegee or roller is already more than any brush)
 MAX_BRUSH_MM = 1000.0
@@ -493,6 +523,8 @@ class Option:
             "file": "a TOML inventory file",
             "openings": "X,Y,W,H with a unit: 1.0,1.2,0.9,1.8m (repeat the flag; in the form one a line)",
             "colour": "#rrggbb, or CIELAB L,a,b",
+            "photo": "a JPEG, PNG, WebP or TIFF file",
+            "corners": "x1,y1,x2,y2,x3,y3,x4,y4 in photo pixels: top-left, top-right, bottom-right, bottom-left",
         }[self.kind]
 
     def default_words(self) -> str:
@@ -587,6 +619,13 @@ OPTIONS: dict[str, Option] = {o.name: o for o in (
     Option("wall_colour", "colour", None, "the colour the wall is painted already: when a paint of the plan "
            "matches it, that paint's ground coats are not bought", "--wall-colour", "Wall colour now",
            "wall colour", "wall_colour", "planning", metavar="COLOUR", default_text="not known"),
+    Option("site_photo", "photo", None, "a photo of the wall: the plan's pictures are laid into it inside "
+           "--corners (mockup.png, mockups/NN.png), for the client and the permit", "--site-photo",
+           "Site photo", "site photo", "site_photo", "quantities", _OUT, target="output", metavar="FILE",
+           default_text="none", form=False),
+    Option("corners", "corners", None, "the wall's four corners in the site photo", "--corners", "Wall corners",
+           "corners", "site_corners", "quantities", _OUT, target="output", metavar="X1,Y1,...,X4,Y4",
+           default_text="none", form=False),
 )}
 
 GROUP_TITLES = {"planning": "planning", "mixing": "paints and mix recipes", "quantities": "quantities and printing"}
