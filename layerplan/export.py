@@ -68,6 +68,8 @@ class ExportInputs:
         Most enlargement sheets of one layer in plan.html (default that of :func:`layerplan.sheets.build_sheets`).
     site : (photo, corners), optional
         A photo of the wall and its four corners in it, for the mock-ups (:mod:`layerplan.mockup`).
+    panels : tuple of layerplan.panels.Panel
+        Panels painted off the wall (none: no panels.html); ``panel_overlap_mm`` their overlap.
     """
 
     plan: Plan
@@ -77,6 +79,9 @@ class ExportInputs:
     enlargements_per_layer: int | None = None
     #: a photo of the site, ``(H, W, 3)`` uint8, and the wall's corners in it ((4, 2)): see layerplan.mockup
     site: tuple[np.ndarray, np.ndarray] | None = None
+    #: the panels the design is split into, and their overlap, mm (layerplan.panels); empty: none
+    panels: tuple = ()
+    panel_overlap_mm: float = 0.0
 
     @cached_property
     def canvases(self) -> tuple[np.ndarray, ...]:
@@ -191,6 +196,16 @@ def _step_mockups(x: ExportInputs) -> dict[str, bytes]:
             for n, canvas in enumerate(x.steps)}
 
 
+def _panel_sheets(x: ExportInputs) -> dict[str, bytes]:
+    if not x.panels:
+        return {}
+    from .panels import panels_html
+    from .sheets import panel_sheets
+
+    doc = panel_sheets(x.plan, x.steps[-1], x.panels, x.panel_overlap_mm, grid_mm=x.grid_mm, paper=x.paper)
+    return {"panels.html": panels_html(doc).encode("utf-8")}
+
+
 # ------------------------------------------------------------------ the registry
 @dataclass(frozen=True)
 class Export:
@@ -241,6 +256,8 @@ EXPORTS: Mapping[str, Export] = MappingProxyType({e.name: e for e in (
     Export("step-pictures", "steps/NN.png", "The wall after each step (PNG)", "image/png", _step_pictures),
     Export("layer-overlays", "steps/NN.svg", "Each layer's strokes and outline map (SVG)", "image/svg+xml",
            _layer_overlays),
+    Export("panels.html", "panels.html", "Panels: key map and one sheet each (open and print)", "text/html",
+           _panel_sheets, opens=True),
     Export("mockup.png", "mockup.png", "The plan on the site photo (PNG)", "image/png", _site_mockup),
     Export("step-mockups", "mockups/NN.png", "Each step on the site photo (PNG)", "image/png", _step_mockups),
 )})
@@ -253,7 +270,7 @@ def export_for(file_name: str) -> Export | None:
 
 def build_files(plan: Plan, *, grid_mm: float | None = None, paper: str | None = None,
                 enlargements_per_layer: int | None = None, site_photo=None, site_corners=None,
-                **options) -> dict[str, bytes]:
+                panels_mm=None, panel_overlap_mm: float | None = None, **options) -> dict[str, bytes]:
     """Every output file of a plan, as relative path -> bytes (one entry of :data:`EXPORTS` each).
 
     ``steps/NN.png`` is the wall after layer NN (``00``: the ground); ``steps/NN.svg`` holds
@@ -268,7 +285,8 @@ def build_files(plan: Plan, *, grid_mm: float | None = None, paper: str | None =
     or in). ``paper`` is the paper plan.html is laid out for: a4 (default), letter, a3 or tabloid;
     ``enlargements_per_layer`` the most enlargement sheets of one layer there. ``site_photo`` (a
     path, bytes or an (H, W, 3) uint8 array) with ``site_corners`` (8 numbers or (4, 2): the wall's
-    corners in it) adds ``mockup.png`` and ``mockups/NN.png`` (:mod:`layerplan.mockup`).
+    corners in it) adds ``mockup.png`` and ``mockups/NN.png`` (:mod:`layerplan.mockup`). ``panels_mm``
+    (width, height) with ``panel_overlap_mm`` (default 50) adds ``panels.html`` (:mod:`layerplan.panels`).
 
     Raises
     ------
@@ -293,8 +311,16 @@ def build_files(plan: Plan, *, grid_mm: float | None = None, paper: str | None =
         grid_mm = default_grid_mm(plan.wall_unit, shorter_side_mm=min(plan.wall_width_mm, plan.wall_height_mm))
     grid_mm = check_grid(plan, grid_mm)
     site = check_site(site_photo, site_corners)
+    panels, overlap = (), 0.0
+    if panels_mm is not None:
+        from .options import PANEL_OVERLAP_MM
+        from .panels import panel_layout
+
+        overlap = PANEL_OVERLAP_MM if panel_overlap_mm is None else float(panel_overlap_mm)
+        panels = panel_layout((plan.wall_width_mm, plan.wall_height_mm), tuple(panels_mm), overlap)
     inputs = ExportInputs(plan=plan, paint_use=MappingProxyType(paint_use(plan, **options)), grid_mm=grid_mm,
-                          paper=paper, enlargements_per_layer=enlargements_per_layer, site=site)
+                          paper=paper, enlargements_per_layer=enlargements_per_layer, site=site,
+                          panels=panels, panel_overlap_mm=overlap)
     files: dict[str, bytes] = {}
     for export in EXPORTS.values():
         built = export.build(inputs)

@@ -51,6 +51,9 @@ PAPERS, DEFAULT_PAPER = ("a4", "letter", "a3", "tabloid"), "a4"
 #: sheets.MAX_ENLARGEMENTS_PER_LAYER: most enlargement sheets of one layer by default; and the most we
 #: allow (about 30 KB of plan.html each: 400 is some 12 MB a layer)
 ENLARGEMENTS_PER_LAYER, MAX_ENLARGEMENTS_PER_LAYER = 24, 400
+#: overlap of neighbouring panels by default, mm: a band to glue or trim (our choice, from memory of cloth
+#: and board murals: a few centimetres)
+PANEL_OVERLAP_MM = 50.0
 #: upper bound on a seed, so it stays an ordinary integer everywhere
 MAX_SEED = 2**32 - 1
 
@@ -411,6 +414,24 @@ def _check_corners(opt: "Option", value, *, shown=None) -> tuple[float, ...]:
     return values
 
 
+def _read_panel_size(opt: "Option", text: str) -> tuple[float, float]:
+    try:
+        size = units.parse_lengths(text, 2, what="panel size", form="WIDTH,HEIGHT", example="1.5,1.2m")
+    except ValueError as exc:
+        raise OptionError(opt.name, "{name}: " + str(exc)) from None
+    return _check_panel_size(opt, size)
+
+
+def _check_panel_size(opt: "Option", value) -> tuple[float, float]:
+    try:
+        w, h = (float(v) for v in value)
+    except (TypeError, ValueError):
+        raise OptionError(opt.name, f"{{name}} must be a width and height in mm, got {value!r}") from None
+    if not (math.isfinite(w) and math.isfinite(h) and w > 0 and h > 0):
+        raise OptionError(opt.name, f"{{name}} must have a width and height > 0, got {value!r}")
+    return w, h
+
+
 #: kind -> (reader of typed text, checker of a value already typed)
 _KINDS: dict[str, tuple[Callable, Callable]] = {
     "whole": (_read_whole, _check_whole), "number": (_read_number, _check_number),
@@ -419,6 +440,7 @@ _KINDS: dict[str, tuple[Callable, Callable]] = {
     "wall": (_read_wall, None), "brushes": (_read_brushes, _check_brushes), "file": (_read_file, _check_file),
     "openings": (_read_openings, _check_openings), "colour": (_read_colour, _check_colour),
     "photo": (_read_photo, _check_photo), "corners": (_read_corners, _check_corners),
+    "panel_size": (_read_panel_size, _check_panel_size),
 }
 #: widest brush we accept, mm (a 1 m squeegee or roller is already more than any brush)
 MAX_BRUSH_MM = 1000.0
@@ -525,6 +547,7 @@ class Option:
             "colour": "#rrggbb, or CIELAB L,a,b",
             "photo": "a JPEG, PNG, WebP or TIFF file",
             "corners": "x1,y1,x2,y2,x3,y3,x4,y4 in photo pixels: top-left, top-right, bottom-right, bottom-left",
+            "panel_size": "W,H with a unit: 1.5,1.2m",
         }[self.kind]
 
     def default_words(self) -> str:
@@ -626,6 +649,13 @@ OPTIONS: dict[str, Option] = {o.name: o for o in (
     Option("corners", "corners", None, "the wall's four corners in the site photo", "--corners", "Wall corners",
            "corners", "site_corners", "quantities", _OUT, target="output", metavar="X1,Y1,...,X4,Y4",
            default_text="none", form=False),
+    Option("panels", "panel_size", None, "split the design into numbered panels or cloth strips of this size, "
+           "painted off the wall: panels.html gives each its sheet and a key map", "--panels", "Panel size",
+           "panel size", "panels_mm", "quantities", _OUT, target="output", unit="mm", metavar="W,H",
+           default_text="none (painted on the wall)"),
+    Option("panel_overlap", "length", PANEL_OVERLAP_MM, "overlap of neighbouring panels, to glue or trim",
+           "--panel-overlap", "Panel overlap", "panel overlap", "panel_overlap_mm", "quantities", _OUT,
+           target="output", unit="mm", metavar="LENGTH", default_text="5cm"),
 )}
 
 GROUP_TITLES = {"planning": "planning", "mixing": "paints and mix recipes", "quantities": "quantities and printing"}

@@ -45,7 +45,7 @@ from .batches import mix_batches
 from .quantities import TRACE_LITRES, US_UNITS
 from .quantities import paint_use as compute_paint_use
 from .raster import picture, render_steps
-from .svg import picture_svg
+from .svg import panel_key_svg, panel_svg, picture_svg
 from .svg import (LABEL_EM_PER_CHAR, check_grid, column_label, enlargement_svg, grid_over_image_svg, grid_part_svg,
                   label_box_mm, outline_map_svg, paint_key_svg, square_name_boxes, area_bounds, areas_meeting)
 
@@ -1091,3 +1091,69 @@ def build_sheets(
         enlargement_notes=tuple(notes),
         layer_keys=tuple(keys),
     )
+
+
+# ------------------------------------------------------------------------------ panels (panels.html)
+@dataclass(frozen=True)
+class PanelSheet:
+    """One panel's sheet: where it goes, its neighbours, its part of the picture and the key map."""
+
+    number: int
+    anchor: str
+    title: str
+    facts: tuple[tuple[str, str], ...]
+    figure: Figure
+    key: Figure
+
+
+@dataclass(frozen=True)
+class PanelDoc:
+    """panels.html: a key map of every panel, then one sheet per panel, then the safety sheet."""
+
+    title: str
+    paper: Paper
+    lead: str
+    key: Figure
+    panels: tuple[PanelSheet, ...]
+
+
+def panel_sheets(plan: Plan, final: np.ndarray, panels, overlap_mm: float, *, grid_mm: float,
+                 paper: str = DEFAULT_PAPER) -> PanelDoc:
+    """The sheets of panels.html (:mod:`layerplan.panels`), over the finished picture ``final`` ((H, W) palette
+    positions), with the transfer grid ``grid_mm`` drawn on each panel so its squares match the wall's."""
+    from .panels import overlaps_of
+
+    unit = wall_unit(plan)
+    pap = PAPERS[paper]
+    wall_rgb = picture(plan, final)
+    px = float(plan.mm_per_px)
+    key_w = _fit_box(plan, pap.print_w_mm, pap.print_h_mm * 0.6)
+    size = f"{w.length(max(p.width_mm for p in panels), unit)} × {w.length(max(p.height_mm for p in panels), unit)}"
+    lead = (f"{len(panels)} panels of up to {size}, in {max(p.row for p in panels)} rows, neighbours overlapping "
+            f"by {w.length(overlap_mm, unit)}. Number each panel on its back with an arrow to its top, paint it "
+            "flat in the studio, and put them up row by row from the top-left as the key map shows.")
+    key = Figure(key_w, "Key map: the wall seen from the front, panels numbered row by row from the top-left.",
+                 svg=_svg(panel_key_svg(plan, panels), "panel-key"))
+    sheets = []
+    for p in panels:
+        x0, y0, x1, y1 = p.box
+        i0, i1 = int(y0 / px), max(int(y0 / px) + 1, min(final.shape[0], math.ceil(y1 / px - 1e-9)))
+        j0, j1 = int(x0 / px), max(int(x0 / px) + 1, min(final.shape[1], math.ceil(x1 / px - 1e-9)))
+        shown = (j0 * px, i0 * px, j1 * px, i1 * px)
+        crop = png_uri(_png(wall_rgb[i0:i1, j0:j1]))
+        anchor = f"panel-{p.number:03d}"
+        shared = overlaps_of(p, panels)
+        fig_w = min(pap.print_w_mm, (pap.print_h_mm - 95.0) * p.width_mm / p.height_mm)
+        figure = Figure(fig_w, w.paper_scale(p.width_mm / fig_w, unit) + ". Dashed: the overlap with the panel "
+                        "numbered in it.", svg=_svg(panel_svg(plan, grid_mm, crop, p.box, image_box_mm=shown,
+                                                              overlaps=shared), anchor))
+        facts = (
+            ("size", f"{w.length(p.width_mm, unit)} wide × {w.length(p.height_mm, unit)} high"),
+            ("place", f"row {p.row}, column {p.column}: its top-left {w.length(x0, unit)} from the wall's left "
+                      f"edge and {w.length(y0, unit)} down from its top"),
+            ("overlaps", ", ".join(f"panel {n}" for n, _ in shared) or "none"),
+        )
+        small = Figure(min(60.0, key_w), "", svg=_svg(panel_key_svg(plan, panels, highlight=p.number), f"{anchor}-key"))
+        sheets.append(PanelSheet(p.number, anchor, f"Panel {p.number} of {len(panels)}", facts, figure, small))
+    title = str((plan.extra.get("source") or {}).get("image") or "Panels")
+    return PanelDoc(f"{title} — panels", pap, lead, key, tuple(sheets))

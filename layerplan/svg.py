@@ -719,3 +719,49 @@ def grid_part_svg(plan: Plan, grid_mm: float, image_href: str, box_mm: tuple[flo
     g.add(names)
     dwg.add(g)
     return dwg.tostring()
+
+
+# ------------------------------------------------------------------ panels painted off the wall
+def panel_key_svg(plan: Plan, panels, *, highlight: int | None = None) -> str:
+    """The key map of panels: the wall with every panel outlined and numbered (``highlight`` filled), the
+    openings hatched, sized to its container."""
+    dwg = _drawing(plan, responsive=True)
+    w, h = plan.wall_width_mm, plan.wall_height_mm
+    side = max(w, h)
+    dwg.add(dwg.rect(insert=(0, 0), size=(_f(w), _f(h)), fill="#ffffff", stroke=INK, stroke_width=_f(side / 300)))
+    _add_openings(dwg, plan)
+    g = dwg.g(id="panels", fill="none", stroke=INK, stroke_width=_f(side / 500))
+    labels = dwg.g(fill=INK, font_family="sans-serif", **{"text-anchor": "middle"})
+    for p in panels:
+        extra = {"class": "panel", "data-panel": str(p.number)}
+        if p.number == highlight:
+            extra.update({"fill": "#ffd54a", "fill-opacity": "0.6", "class": "panel this"})
+        g.add(dwg.rect(insert=(_f(p.x_mm), _f(p.y_mm)), size=(_f(p.width_mm), _f(p.height_mm)), **extra))
+        font = min(p.width_mm, p.height_mm) * 0.3
+        labels.add(dwg.text(str(p.number), insert=(_f(p.x_mm + p.width_mm / 2), _f(p.y_mm + p.height_mm / 2 + font * 0.35)),
+                            font_size=_f(font)))
+    dwg.add(g)
+    dwg.add(labels)
+    return dwg.tostring()
+
+
+def panel_svg(plan: Plan, grid_mm: float, image_href: str, box_mm: tuple[float, float, float, float], *,
+              image_box_mm: tuple[float, float, float, float], overlaps) -> str:
+    """One panel: its part of the picture under the transfer grid, the bands it shares with its neighbours
+    shaded and numbered with the neighbour's number, its openings hatched; sized to its container."""
+    x0, y0, x1, y1 = box_mm
+    w, h = x1 - x0, y1 - y0
+    side = max(w, h)
+    text = grid_part_svg(plan, grid_mm, image_href, box_mm, image_box_mm=image_box_mm)
+    extra = svgwrite.Drawing(profile="full", debug=False)
+    g = extra.g(id="overlaps", **{"class": "overlaps"})
+    for other, (a, b, c, d) in overlaps:
+        g.add(extra.rect(insert=(_f(a), _f(b)), size=(_f(c - a), _f(d - b)), fill="#ffffff", fill_opacity="0.55",
+                         stroke=INK, stroke_width=_f(side / 400), stroke_dasharray=f"{_f(side / 60)},{_f(side / 120)}",
+                         **{"class": "overlap", "data-neighbour": str(other)}))
+        font = min(c - a, d - b, side / 12) * 0.6
+        g.add(extra.text(f"→ {other}", insert=(_f((a + c) / 2), _f((b + d) / 2 + font * 0.35)), font_size=_f(font),
+                         fill=INK, font_family="sans-serif", **{"text-anchor": "middle"}))
+    g.add(extra.rect(insert=(_f(x0), _f(y0)), size=(_f(w), _f(h)), fill="none", stroke=INK,
+                     stroke_width=_f(side / 250)))
+    return text.replace("</svg>", g.tostring() + "</svg>")

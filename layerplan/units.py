@@ -204,22 +204,38 @@ def parse_rectangle(text: str) -> tuple[float, float, float, float]:
     """
     if not isinstance(text, str):
         raise TypeError(f"a rectangle must be text such as '1.0,1.2,0.9,1.8m', got {type(text).__name__}")
+    return parse_lengths(text, 4, what="rectangle", form="X,Y,WIDTH,HEIGHT", example="1.0,1.2,0.9,1.8m")
+
+
+def parse_lengths(text: str, count: int, *, what: str = "lengths", form: str = "", example: str = ""
+                  ) -> tuple[float, ...]:
+    """Parse ``count`` comma-separated lengths sharing the unit after the last (``1.5,1.2m``), in mm.
+
+    Each number may carry its own unit instead; the last must have one.
+
+    Raises
+    ------
+    ValueError
+        Naming ``what`` and the text: the wrong count, no unit, an unknown unit, or not a number.
+    """
+    if not isinstance(text, str):
+        raise TypeError(f"{what} must be text such as {example!r}, got {type(text).__name__}")
     items = [t.strip().lower() for t in text.split(",")]
-    if len(items) != 4:
-        raise ValueError(f"rectangle {text.strip()!r} must be four numbers X,Y,WIDTH,HEIGHT with a unit, "
-                         f"e.g. '1.0,1.2,0.9,1.8m' (decimals with a point)")
+    if len(items) != count:
+        raise ValueError(f"{what} {text.strip()!r} must be {count} numbers {form} with a unit, "
+                         f"e.g. {example!r} (decimals with a point)")
     found = []
     for item in items:
         m = _LENGTH_RE.match(item)
         value = _exact(m.group(1)) if m else None
         if value is None:
-            raise ValueError(f"rectangle {text.strip()!r}: {item!r} is not a number with an optional unit")
+            raise ValueError(f"{what} {text.strip()!r}: {item!r} is not a number with an optional unit")
         found.append((value, m.group(2)))
     last = found[-1][1]
     if last is None:
-        raise ValueError(f"rectangle {text.strip()!r} needs a unit, e.g. '{text.strip()}m' (units: {_VALID_UNITS})")
-    last = _unit_in(text, last, what="rectangle")
-    return tuple(float(v * _UNITS_MM_EXACT[last if u is None else _unit_in(text, u, what="rectangle")])
+        raise ValueError(f"{what} {text.strip()!r} needs a unit, e.g. '{text.strip()}m' (units: {_VALID_UNITS})")
+    last = _unit_in(text, last, what=what)
+    return tuple(float(v * _UNITS_MM_EXACT[last if u is None else _unit_in(text, u, what=what)])
                  for v, u in found)
 
 
