@@ -82,3 +82,30 @@ def test_cli_writes_the_mockups_and_refuses_corners_off_the_photo(tmp_path):
     assert sorted(p.name for p in (out / "mockups").iterdir()) == [f"{n:02d}.png" for n in range(layers + 1)]
     assert main([*args, "--corners", "20,20,380,30,270,180,30,190", "--out", str(tmp_path / "bad")]) == 2
     assert not (tmp_path / "bad").exists()
+
+
+def test_web_lays_a_finished_plan_into_an_uploaded_photo(client):
+    import io
+
+    from conftest import plan_form, png_bytes, wait_for_plan
+
+    plan_id = client.post("/api/plans", data=plan_form(), content_type="multipart/form-data").get_json()["id"]
+    assert wait_for_plan(client, plan_id)[-1]["state"] == "done"
+    assert b"/site" in client.get(f"/plans/{plan_id}").data  # linked from the plan page
+    site = np.zeros((120, 160, 3), np.uint8)
+
+    def post(corners, **extra):
+        return client.post(f"/plans/{plan_id}/site", content_type="multipart/form-data",
+                           data={"photo": (io.BytesIO(png_bytes(site)), "wall.png"), "corners": corners, **extra})
+
+    good = post("10,10,150,20,140,110,20,100")
+    assert good.status_code == 200 and good.mimetype == "image/png"
+    shot = np.asarray(Image.open(io.BytesIO(good.data)))
+    assert shot.shape == (120, 160, 3)
+    assert shot[60, 80].any() and not shot[2, 2].any()  # the plan inside the corners, the photo outside
+    assert post("10,10,150,20,140,110,20,100", step="0").status_code == 200
+    bad = post("10,10,150,20,140,110")
+    assert bad.status_code == 400 and "Wall corners" in bad.get_json()["error"]
+    crossed = post("10,10,140,110,150,20,20,100")
+    assert crossed.status_code == 400 and "in that order" in crossed.get_json()["error"]
+    assert client.get("/plans/nosuch/site").status_code == 404

@@ -104,3 +104,30 @@ def test_projector_page_of_a_missing_plan_is_404(planned):
     with pytest.raises(urllib.error.HTTPError) as err:
         urllib.request.urlopen(f"{srv.url}/plans/nosuchplan/project")
     assert err.value.code == 404
+
+
+def test_click_the_wall_corners_on_a_site_photo(browser, planned, tmp_path):
+    from PIL import Image
+    from skimage import data
+
+    srv, plan_id = planned
+    photo = tmp_path / "site.png"
+    Image.fromarray(data.coffee()).save(photo)  # scikit-image's test photo, 600 × 400 px, as the "site"
+    context = browser.new_context(viewport={"width": 1200, "height": 900})
+    page = context.new_page()
+    errors = []
+    page.on("pageerror", lambda exc: errors.append(str(exc)))
+    page.goto(f"{srv.url}/plans/{plan_id}/site")
+    page.set_input_files("#site-photo", str(photo))
+    page.wait_for_function("document.getElementById('site-image').naturalWidth === 600")
+    box = page.query_selector("#site-image").bounding_box()
+    scale = box["width"] / 600.0
+    for x, y in ((100, 80), (500, 60), (520, 330), (90, 350)):  # photo pixels
+        page.mouse.click(box["x"] + x * scale, box["y"] + y * scale)
+    page.wait_for_selector("#site-result:not([hidden])", timeout=60_000)
+    page.wait_for_function("document.getElementById('site-result').naturalWidth > 0")
+    assert page.evaluate("document.getElementById('site-result').naturalWidth") == 600
+    assert "Done" in page.text_content("#site-status")
+    assert page.get_attribute("#site-download", "href").startswith("blob:")
+    context.close()
+    assert not errors, errors

@@ -146,22 +146,6 @@ def plan_page(plan_id: str):
     return render_template("plan.html", **view)
 
 
-@bp.get("/plans/<plan_id>/project")
-def project(plan_id: str):
-    """Full-screen projector view: one layer at a time on black, its corners dragged onto the wall."""
-    record = service.store().get(plan_id)
-    if record is None or record.state != "done":
-        abort(404, description=f"there is no finished plan {plan_id!r}")
-    plan = service.stored_plan(plan_id)
-    if plan is None:
-        abort(404, description=f"plan {plan_id!r} has no plan.json")
-    files = service.status(record)["files"]
-    layers = [{"number": n, "svg": files.get(f"steps/{n:02d}.svg"), "brush_mm": layer.brush_width_mm,
-               "strokes": len(layer.strokes)} for n, layer in enumerate(plan.layers, start=1)]
-    return render_template("project.html", record=record, layers=[x for x in layers if x["svg"]],
-                           wall=(plan.wall_width_mm, plan.wall_height_mm))
-
-
 @bp.post("/plans/<plan_id>/delete")
 def delete(plan_id: str):
     if not service.delete(plan_id):
