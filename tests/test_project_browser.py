@@ -131,3 +131,27 @@ def test_click_the_wall_corners_on_a_site_photo(browser, planned, tmp_path):
     assert page.get_attribute("#site-download", "href").startswith("blob:")
     context.close()
     assert not errors, errors
+
+
+def test_openings_typed_on_the_start_page_are_drawn_on_the_preview(browser, planned, tmp_path):
+    from PIL import Image
+
+    srv, _ = planned
+    photo = tmp_path / "p.png"
+    Image.new("RGB", (400, 200), (120, 160, 200)).save(photo)  # 2:1, as the 4 × 2 m wall: no crop
+    context = browser.new_context(viewport={"width": 1200, "height": 900})
+    page = context.new_page()
+    page.goto(srv.url + "/")
+    page.set_input_files("#image", str(photo))
+    page.wait_for_function("document.getElementById('photo-preview').naturalWidth === 400")
+    page.fill("#wall_width", "4")
+    page.fill("#wall_height", "2")
+    page.fill("#openings", "1,0.5,1,1m\n3,1,0.5,1m")
+    rects = page.evaluate("""() => Array.from(document.querySelectorAll('#openings-preview rect.opening'))
+        .map(r => ['x', 'y', 'width', 'height'].map(k => parseFloat(r.getAttribute(k))))""")
+    # 100 photo px per metre of wall: the rectangles in the photo's own pixels
+    assert rects == [[100.0, 50.0, 100.0, 100.0], [300.0, 100.0, 50.0, 100.0]]
+    preview = page.query_selector("#photo-preview").bounding_box()
+    drawn = page.query_selector("#openings-preview").bounding_box()
+    assert abs(drawn["x"] - preview["x"]) < 1 and abs(drawn["width"] - preview["width"]) < 1
+    context.close()
