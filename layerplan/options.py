@@ -896,6 +896,11 @@ def check_plan(settings, output: Mapping[str, Any], image_shape, *, inventory_pa
     size = check_raster(settings, image_shape)
     check_grid(size.wall_width_mm, size.wall_height_mm, output.get("grid_mm"))
     check_openings_fit(size.wall_width_mm, size.wall_height_mm, getattr(settings, "openings", ()))
+    panels = output.get("panels_mm")
+    overlap = output.get("panel_overlap_mm", PANEL_OVERLAP_MM)
+    if panels is not None and overlap is not None and overlap >= min(panels):
+        raise OptionError("panel_overlap", f"{{name}} of {overlap:g} mm must be less than the panel's sides "
+                                           f"({min(panels):g} mm)")
     if inventory_paints is not None:
         check_mix_table(inventory_paints, settings.mix_paints, settings.max_parts)
     return size

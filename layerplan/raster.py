@@ -8,9 +8,10 @@ in file order, layer after layer. A pixel whose centre lies inside an opening (a
 window, door or vent, :mod:`layerplan.openings`, edges included) is not painted: no
 stroke covers it, and pictures of the wall (final.png, the step pictures) leave it
 transparent (`picture`). Index canvases still hold the ground there, so every
-canvas stays a plain array of palette positions. `paint_strokes` applies that test pixel by pixel (the reference); `footprint_runs`
-finds the same pixel set row by row, exactly and faster, for the placer and the
-stroke stack (`stack_tops`), so what is optimised is exactly what is rendered.
+canvas stays a plain array of palette positions. `paint_strokes` applies that test
+pixel by pixel (the reference); `footprint_runs` finds the same pixel set row by
+row, exactly and faster, for the placer and the stroke stack (`stack_tops`), so
+what is optimised is exactly what is rendered.
 """
 
 from __future__ import annotations

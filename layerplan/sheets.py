@@ -470,6 +470,8 @@ def _settings_rows(plan: Plan, unit: str) -> tuple[tuple[str, str], ...]:
     seed = st.pop("seed", None)
     if seed is not None:
         rows.append(("random seed", str(seed)))
+    for key in ("openings", "wall_colour"):  # the cover's own lines on the real wall say these (wall_facts)
+        st.pop(key, None)
     for key, value in st.items():  # anything newer than this page
         if isinstance(value, (list, tuple)):
             value = ", ".join(w.number(v) if isinstance(v, (int, float)) else str(v) for v in value)

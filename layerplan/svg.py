@@ -738,8 +738,8 @@ def panel_key_svg(plan: Plan, panels, *, highlight: int | None = None) -> str:
             extra.update({"fill": "#ffd54a", "fill-opacity": "0.6", "class": "panel this"})
         g.add(dwg.rect(insert=(_f(p.x_mm), _f(p.y_mm)), size=(_f(p.width_mm), _f(p.height_mm)), **extra))
         font = min(p.width_mm, p.height_mm) * 0.3
-        labels.add(dwg.text(str(p.number), insert=(_f(p.x_mm + p.width_mm / 2), _f(p.y_mm + p.height_mm / 2 + font * 0.35)),
-                            font_size=_f(font)))
+        at = (_f(p.x_mm + p.width_mm / 2), _f(p.y_mm + p.height_mm / 2 + font * 0.35))
+        labels.add(dwg.text(str(p.number), insert=at, font_size=_f(font)))
     dwg.add(g)
     dwg.add(labels)
     return dwg.tostring()

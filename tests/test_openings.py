@@ -49,7 +49,7 @@ def test_opening_option_reads_metres_and_own_units():
 
 @pytest.mark.parametrize("text,message", [
     ("1,1.2,0.9,1.8", "needs a unit"),
-    ("1,1.2,0.9m", "four numbers"),
+    ("1,1.2,0.9m", "must be 4 numbers"),
     ("1,1.2,0,1.8m", "width and height > 0"),
     ("-1,1.2,0.9,1.8m", "start inside the wall"),
     ("1,1.2,0.9,1.8parsecs", "unknown unit"),
