@@ -69,3 +69,19 @@ def test_cli_writes_panels_html_with_a_sheet_each(tmp_path):
     assert "Working at height" in html  # the safety sheet goes with the panels
     assert main(["plan", str(photo), "--wall", "1.2x0.8m", "--quiet", "--panels", "0.5m",
                  "--out", str(tmp_path / "bad")]) == 2
+
+
+def test_the_web_form_makes_panels_html(client):
+    from conftest import plan_form, wait_for_plan
+
+    page = client.get("/")
+    assert b'name="panels"' in page.data and b'name="panel_overlap"' in page.data
+    plan_id = client.post("/api/plans", data=plan_form(panels="0.5,0.4m", panel_overlap="5cm"),
+                          content_type="multipart/form-data").get_json()["id"]
+    assert wait_for_plan(client, plan_id)[-1]["state"] == "done"
+    html = client.get(f"/api/plans/{plan_id}/files/panels.html").get_data(as_text=True)
+    # hand-worked: the 0.8 × 0.6 m wall in 0.5 × 0.4 m panels, 5 cm overlap: 2 columns, 2 rows
+    assert html.count('class="sheet panel"') == 4
+    bad = client.post("/api/plans", data=plan_form(panels="0.5,0.4m", panel_overlap="50cm"),
+                      content_type="multipart/form-data")
+    assert bad.status_code == 400 and bad.get_json()["field"] == "panel_overlap"

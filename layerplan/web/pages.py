@@ -32,7 +32,8 @@ OPTION_DEFAULTS = {k: v for k, v in options.form_defaults().items()
 #: what the start page's form holds before anyone types
 FORM_DEFAULTS = {"wall_width": "3", "wall_height": "", "unit": "m", "paints": "8", "kit": forms.DEFAULT_KIT,
                  "brushes": "", "fit": "cover", "seed": "0", "pixel_mm": "", "inventory": "default",
-                 "inventory_text": "", "free_palette": "", "openings": "", "wall_colour": "", **OPTION_DEFAULTS}
+                 "inventory_text": "", "free_palette": "", "openings": "", "wall_colour": "",
+                 "panels": "", "panel_overlap": "5cm", **OPTION_DEFAULTS}
 #: mimetypes of the photo formats we accept, by Pillow format id
 _PHOTO_TYPES = {"JPEG": "image/jpeg", "MPO": "image/jpeg", "PNG": "image/png", "WEBP": "image/webp",
                 "TIFF": "image/tiff"}
