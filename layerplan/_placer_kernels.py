@@ -26,6 +26,19 @@ from .raster import MAX_POINTS, footprint_runs, footprint_scratch, push_pair
 
 
 
+#: the gain of a stroke that would cover a pixel inside an opening: less than any real one
+SHUT_GAIN = -1e30
+
+
+@njit(cache=True, nogil=True)
+def _touches(shut, pix_i, pix_j, n):
+    """Whether any of the n listed pixels is inside an opening."""
+    for c in range(n):
+        if shut[pix_i[c], pix_j[c]]:
+            return True
+    return False
+
+
 @njit(cache=True, nogil=True)
 def _round_grid(v):
     """v on the 0.1 mm grid of stroke points."""
@@ -69,7 +82,8 @@ def _footprint_gain(pts, n, width_mm, s, planes, err, toprank, allow, sums, runs
     A pixel counts for paint q only when no stroke of a later run of this layer covers it
     (``allow[max(toprank, 0), q]``): the stroke is slotted into q's run and shows only where
     nothing painted after that run lies on top. The pixels are `raster.footprint_runs`'s
-    (exactly the rendering rule's set), left in ``runs``.
+    (exactly the rendering rule's set), left in ``runs``. A footprint reaching a pixel marked
+    ``toprank == K`` (an opening of the wall) is worth :data:`SHUT_GAIN`.
     """
     h, w, k = planes.shape
     c = footprint_runs(pts, n, width_mm, s, h, w, runs, row_ab, row_n)
@@ -80,6 +94,8 @@ def _footprint_gain(pts, n, width_mm, s, planes, err, toprank, allow, sums, runs
         for j in range(runs[t, 1], runs[t, 2] + 1):
             e = np.float64(err[i, j])
             r = toprank[i, j]
+            if r >= k:
+                return SHUT_GAIN, 0, c  # an opening (above every run): no stroke may cover it
             if r <= 0:
                 for q in range(k):
                     sums[q] += e - planes[i, j, q]
@@ -471,7 +487,7 @@ def stroke_keys(layer_of, paints, ranks):
 
 @njit(cache=True, nogil=True)
 def relax_pass(planes, stack, all_pts, counts, paints, alive, layer_of, runs_of, thetas, brushes, costs, s, wall,
-               tries, seed, delete, moves, bend):
+               tries, seed, delete, moves, bend, shut):
     """One relaxation pass over every live stroke; returns the energy change (≤ 0).
 
     ``stack = (top_idx, top_paint, under_idx, under_paint, stale)`` is the per-pixel stroke stack
@@ -487,7 +503,8 @@ def relax_pass(planes, stack, all_pts, counts, paints, alive, layer_of, runs_of,
     except where the "under" became unknown (k uncovered a pixel, had been directly under the
     top, or went below the stroke under it): those are marked stale, and a candidate needing a
     stale "under" is refused (or kept from the paints of earlier runs) until the next pass
-    rebuilds the stack. Deleting k (energy change: the error it uncovers minus its cost) is
+    rebuilds the stack. A candidate covering a pixel of ``shut`` ((H, W) bool: inside an
+    opening of the wall) is refused. Deleting k (energy change: the error it uncovers minus its cost) is
     tried first.
     """
     np.random.seed(seed)
@@ -565,6 +582,8 @@ def relax_pass(planes, stack, all_pts, counts, paints, alive, layer_of, runs_of,
             stamp_id += 1
             new_id = stamp_id
             nnew = _footprint_px(cand, m, width, s, h, w, stamp, new_id, new_i, new_j, runs, row_ab, row_n)
+            if _touches(shut, new_i, new_j, nnew):
+                continue
             for q in range(k):
                 sums[q] = 0.0
             base = 0.0

@@ -74,7 +74,7 @@ def _parser() -> argparse.ArgumentParser:
 
 def cmd_plan(args) -> int:
     from .caveats import raster_warnings
-    from .export import check_destination, write_outputs
+    from .export import check_destination, check_site, write_outputs
     from .inventory import default_inventory, load_inventory
     from .load import load_image
     from .pipeline import make_plan
@@ -96,6 +96,10 @@ def cmd_plan(args) -> int:
         raise UsageError(f"--inventory: {exc}") from None
     image = load_image(args.image)
     size = options.check_plan(settings, output, image.shape, inventory_paints=len(inventory))
+    try:  # the site photo is read and its corners checked before the long work too
+        check_site(output.get("site_photo"), output.get("site_corners"))
+    except ValueError as exc:
+        raise UsageError(f"--site-photo / --corners: {exc}") from exc
     # said before the long work, so the painter can stop and fix it; the plan carries the same words
     _print_warnings(raster_warnings(size, settings.brushes_mm, pixel_given=settings.mm_per_px is not None))
     bar = None if args.quiet else TerminalBar(sys.stderr)

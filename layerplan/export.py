@@ -38,9 +38,10 @@ _MARKER = "plan.json"
 
 
 def png_bytes(rgb: np.ndarray) -> bytes:
-    """Encode an (H, W, 3) uint8 image as PNG (deterministic bytes)."""
+    """Encode an (H, W, 3) uint8 image, or (H, W, 4) with alpha, as PNG (deterministic bytes)."""
     buf = io.BytesIO()
-    Image.fromarray(np.ascontiguousarray(rgb, dtype=np.uint8), "RGB").save(buf, format="PNG", optimize=False)
+    mode = "RGBA" if rgb.shape[-1] == 4 else "RGB"
+    Image.fromarray(np.ascontiguousarray(rgb, dtype=np.uint8), mode).save(buf, format="PNG", optimize=False)
     return buf.getvalue()
 
 
@@ -72,6 +73,10 @@ class ExportInputs:
     schedule : mapping, optional
         :func:`layerplan.schedule.work_schedule` of the plan and its paint use: plan.json's ``schedule``
         section and the printed plan's day-by-day sheet (none without it).
+    site : (photo, corners), optional
+        A photo of the wall and its four corners in it, for the mock-ups (:mod:`layerplan.mockup`).
+    panels : tuple of layerplan.panels.Panel
+        Panels painted off the wall (none: no panels.html); ``panel_overlap_mm`` their overlap.
     """
 
     plan: Plan
@@ -80,6 +85,11 @@ class ExportInputs:
     paper: str = "a4"
     enlargements_per_layer: int | None = None
     schedule: Mapping[str, Any] | None = None
+    #: a photo of the site, ``(H, W, 3)`` uint8, and the wall's corners in it ((4, 2)): see layerplan.mockup
+    site: tuple[np.ndarray, np.ndarray] | None = None
+    #: the panels the design is split into, and their overlap, mm (layerplan.panels); empty: none
+    panels: tuple = ()
+    panel_overlap_mm: float = 0.0
 
     @cached_property
     def canvases(self) -> tuple[np.ndarray, ...]:
@@ -103,9 +113,10 @@ class ExportInputs:
 
     @cached_property
     def step_pngs(self) -> tuple[bytes, ...]:
-        """PNG of each of :attr:`steps`."""
-        rgb = self.plan.palette_rgb()
-        return tuple(png_bytes(rgb[canvas]) for canvas in self.steps)
+        """PNG of each of :attr:`steps` (openings transparent: :func:`layerplan.raster.picture`)."""
+        from .raster import picture
+
+        return tuple(png_bytes(picture(self.plan, canvas)) for canvas in self.steps)
 
     @cached_property
     def outlines(self) -> tuple[dict[str, Any], ...]:
@@ -175,6 +186,37 @@ def _plan_document(x: ExportInputs) -> dict[str, bytes]:
     return {"plan.json": written.to_json().encode("utf-8")}
 
 
+def _site_mockup(x: ExportInputs) -> dict[str, bytes]:
+    if x.site is None:
+        return {}
+    from .mockup import mockup
+    from .raster import picture
+
+    photo, corners = x.site
+    return {"mockup.png": png_bytes(mockup(picture(x.plan, x.steps[-1]), photo, corners))}
+
+
+def _step_mockups(x: ExportInputs) -> dict[str, bytes]:
+    if x.site is None:
+        return {}
+    from .mockup import mockup
+    from .raster import picture
+
+    photo, corners = x.site
+    return {f"mockups/{n:02d}.png": png_bytes(mockup(picture(x.plan, canvas), photo, corners))
+            for n, canvas in enumerate(x.steps)}
+
+
+def _panel_sheets(x: ExportInputs) -> dict[str, bytes]:
+    if not x.panels:
+        return {}
+    from .panels import panels_html
+    from .sheets import panel_sheets
+
+    doc = panel_sheets(x.plan, x.steps[-1], x.panels, x.panel_overlap_mm, grid_mm=x.grid_mm, paper=x.paper)
+    return {"panels.html": panels_html(doc).encode("utf-8")}
+
+
 # ------------------------------------------------------------------ the registry
 @dataclass(frozen=True)
 class Export:
@@ -225,6 +267,10 @@ EXPORTS: Mapping[str, Export] = MappingProxyType({e.name: e for e in (
     Export("step-pictures", "steps/NN.png", "The wall after each step (PNG)", "image/png", _step_pictures),
     Export("layer-overlays", "steps/NN.svg", "Each layer's strokes and outline map (SVG)", "image/svg+xml",
            _layer_overlays),
+    Export("panels.html", "panels.html", "Panels: key map and one sheet each (open and print)", "text/html",
+           _panel_sheets, opens=True),
+    Export("mockup.png", "mockup.png", "The plan on the site photo (PNG)", "image/png", _site_mockup),
+    Export("step-mockups", "mockups/NN.png", "Each step on the site photo (PNG)", "image/png", _step_mockups),
 )})
 
 
@@ -234,7 +280,8 @@ def export_for(file_name: str) -> Export | None:
 
 
 def build_files(plan: Plan, *, grid_mm: float | None = None, paper: str | None = None,
-                enlargements_per_layer: int | None = None, **options) -> dict[str, bytes]:
+                enlargements_per_layer: int | None = None, site_photo=None, site_corners=None,
+                panels_mm=None, panel_overlap_mm: float | None = None, **options) -> dict[str, bytes]:
     """Every output file of a plan, as relative path -> bytes (one entry of :data:`EXPORTS` each).
 
     ``steps/NN.png`` is the wall after layer NN (``00``: the ground); ``steps/NN.svg`` holds
@@ -249,7 +296,10 @@ def build_files(plan: Plan, *, grid_mm: float | None = None, paper: str | None =
     :func:`layerplan.schedule.work_schedule`, as ``schedule``; ``plan`` itself is not changed.
     ``grid_mm`` is the transfer-grid square (default 500 mm, or 2 ft for walls measured in ft
     or in). ``paper`` is the paper plan.html is laid out for: a4 (default), letter, a3 or tabloid;
-    ``enlargements_per_layer`` the most enlargement sheets of one layer there.
+    ``enlargements_per_layer`` the most enlargement sheets of one layer there. ``site_photo`` (a
+    path, bytes or an (H, W, 3) uint8 array) with ``site_corners`` (8 numbers or (4, 2): the wall's
+    corners in it) adds ``mockup.png`` and ``mockups/NN.png`` (:mod:`layerplan.mockup`). ``panels_mm``
+    (width, height) with ``panel_overlap_mm`` (default 50) adds ``panels.html`` (:mod:`layerplan.panels`).
 
     Raises
     ------
@@ -278,10 +328,19 @@ def build_files(plan: Plan, *, grid_mm: float | None = None, paper: str | None =
     from .schedule import check_options as check_schedule, work_schedule
 
     check_schedule(**timing)
+    site = check_site(site_photo, site_corners)
+    panels, overlap = (), 0.0
+    if panels_mm is not None:
+        from .options import PANEL_OVERLAP_MM
+        from .panels import panel_layout
+
+        overlap = PANEL_OVERLAP_MM if panel_overlap_mm is None else float(panel_overlap_mm)
+        panels = panel_layout((plan.wall_width_mm, plan.wall_height_mm), tuple(panels_mm), overlap)
     use = paint_use(plan, **options)
     inputs = ExportInputs(plan=plan, paint_use=MappingProxyType(use), grid_mm=grid_mm,
                           paper=paper, enlargements_per_layer=enlargements_per_layer,
-                          schedule=MappingProxyType(work_schedule(plan, use, **timing)))
+                          schedule=MappingProxyType(work_schedule(plan, use, **timing)), site=site,
+                          panels=panels, panel_overlap_mm=overlap)
     files: dict[str, bytes] = {}
     for export in EXPORTS.values():
         built = export.build(inputs)
@@ -291,6 +350,26 @@ def build_files(plan: Plan, *, grid_mm: float | None = None, paper: str | None =
                                "or already written")
         files.update(built)
     return files
+
+
+def check_site(site_photo, site_corners) -> tuple[np.ndarray, np.ndarray] | None:
+    """The site photo (read when it is a path or bytes) and its corners, checked; None when neither is given.
+
+    Raises
+    ------
+    ValueError
+        One given without the other, a photo that cannot be read, or bad corners (the message says which).
+    """
+    if site_photo is None and site_corners is None:
+        return None
+    if site_photo is None or site_corners is None:
+        raise ValueError("a site photo needs its corners and the corners a site photo: give --site-photo with "
+                         "--corners x1,y1,...,x4,y4")
+    from .load import load_image
+    from .mockup import check_corners
+
+    photo = site_photo if isinstance(site_photo, np.ndarray) else load_image(site_photo)
+    return photo, check_corners(site_corners, photo.shape)
 
 
 def _folder_mode(private: Path) -> int:

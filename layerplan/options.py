@@ -51,6 +51,9 @@ PAPERS, DEFAULT_PAPER = ("a4", "letter", "a3", "tabloid"), "a4"
 #: sheets.MAX_ENLARGEMENTS_PER_LAYER: most enlargement sheets of one layer by default; and the most we
 #: allow (about 30 KB of plan.html each: 400 is some 12 MB a layer)
 ENLARGEMENTS_PER_LAYER, MAX_ENLARGEMENTS_PER_LAYER = 24, 400
+#: overlap of neighbouring panels by default, mm: a band to glue or trim (our choice, from memory of cloth
+#: and board murals: a few centimetres)
+PANEL_OVERLAP_MM = 50.0
 #: upper bound on a seed, so it stays an ordinary integer everywhere
 MAX_SEED = 2**32 - 1
 #: most coats of the ground or of any stroke: two or three is the rule, a deep red on black may take
@@ -403,12 +406,143 @@ def _check_file(opt: "Option", value) -> str:
     return value
 
 
+#: most openings one wall takes (a wall with more windows than this is a facade: plan it in parts)
+MAX_OPENINGS = 50
+
+
+def _read_openings(opt: "Option", text: str) -> tuple[tuple[float, float, float, float], ...]:
+    # one flag gives one rectangle; the web form's field may hold several, one a line or ';'-separated
+    parts = [p for p in re.split(r"[;\n]", text) if p.strip()]
+    out = []
+    for part in parts:
+        try:
+            out.append(units.parse_rectangle(part))
+        except ValueError as exc:
+            raise OptionError(opt.name, "{name}: " + str(exc)) from None
+    return _check_openings(opt, tuple(out))
+
+
+def _check_openings(opt: "Option", value) -> tuple[tuple[float, float, float, float], ...]:
+    try:
+        rects = tuple(tuple(float(v) for v in r) for r in value)
+    except (TypeError, ValueError):
+        raise OptionError(opt.name, f"{{name}} must be rectangles (x, y, width, height) in mm, got {value!r}") \
+            from None
+    if len(rects) > MAX_OPENINGS:
+        raise OptionError(opt.name, f"{{name}}: at most {MAX_OPENINGS} openings, got {len(rects)}")
+    for x, y, w, h in (r if len(r) == 4 else (math.nan,) * 4 for r in rects):
+        if not all(math.isfinite(v) for v in (x, y, w, h)):
+            raise OptionError(opt.name, f"{{name}} must be four finite lengths x, y, width, height, got {value!r}")
+        if w <= 0 or h <= 0:
+            raise OptionError(opt.name, f"{{name}} must have a width and height > 0, got {w:g} x {h:g} mm")
+        if x < 0 or y < 0:
+            raise OptionError(opt.name, f"{{name}} must start inside the wall (x and y >= 0 from its top-left), "
+                                        f"got x {x:g} mm, y {y:g} mm")
+    return rects
+
+
+def check_openings_fit(wall_width_mm: float, wall_height_mm: float, openings) -> None:
+    """Check that every opening lies inside the wall and that they leave some wall to paint.
+
+    Raises
+    ------
+    OptionError
+        Naming the opening (by its number, as given) that reaches past the wall's edge, or
+        saying that the openings cover the whole wall.
+    """
+    for n, (x, y, w, h) in enumerate(openings, start=1):
+        if x + w > wall_width_mm + 1e-6 or y + h > wall_height_mm + 1e-6:
+            raise OptionError("openings", f"{{name}}: opening {n} ({x / 1000:g}, {y / 1000:g} m, "
+                                          f"{w / 1000:g} x {h / 1000:g} m) reaches past the "
+                                          f"{wall_width_mm / 1000:g} x {wall_height_mm / 1000:g} m wall")
+    # the union of the rectangles, on the grid of their edges (they may overlap)
+    xs = sorted({0.0, wall_width_mm, *(v for x, _, w, _ in openings for v in (x, x + w))})
+    ys = sorted({0.0, wall_height_mm, *(v for _, y, _, h in openings for v in (y, y + h))})
+    shut = sum((x1 - x0) * (y1 - y0) for x0, x1 in zip(xs, xs[1:]) for y0, y1 in zip(ys, ys[1:])
+               if any(x <= x0 and x1 <= x + w and y <= y0 and y1 <= y + h for x, y, w, h in openings))
+    if openings and shut >= wall_width_mm * wall_height_mm - 1e-6:
+        raise OptionError("openings", "{name} cover the whole wall: nothing is left to paint")
+
+
+def _read_colour(opt: "Option", text: str) -> str:
+    return _check_colour(opt, text.strip())
+
+
+def _check_colour(opt: "Option", value) -> str:
+    rule = "a colour #rrggbb or CIELAB L,a,b such as 92,0,3"
+    if not isinstance(value, str):
+        raise OptionError(opt.name, f"{{name}} must be {rule}, got {value!r}")
+    t = value.strip().lower()
+    if re.fullmatch(r"#[0-9a-f]{6}", t):
+        return t
+    parts = t.split(",")
+    try:
+        lab = [float(p) for p in parts]
+    except ValueError:
+        lab = []
+    if len(lab) != 3 or not all(math.isfinite(v) for v in lab):
+        raise OptionError(opt.name, f"{{name}} must be {rule}, got {value!r}")
+    if not 0 <= lab[0] <= 100 or abs(lab[1]) > 128 or abs(lab[2]) > 128:
+        raise OptionError(opt.name, f"{{name}}: CIELAB L* must be 0 to 100 and a*, b* within ±128, got {value!r}")
+    return ",".join(f"{v:g}" for v in lab)
+
+
+def _read_photo(opt: "Option", text: str) -> str:
+    return _check_photo(opt, text)
+
+
+def _check_photo(opt: "Option", value) -> str:
+    if not isinstance(value, str) or not value.strip():
+        raise OptionError(opt.name, f"{{name}} must be the path of a photo (JPEG, PNG, WebP or TIFF), got {value!r}")
+    return value
+
+
+def _read_corners(opt: "Option", text: str) -> tuple[float, ...]:
+    try:
+        values = tuple(float(t) for t in text.split(","))
+    except ValueError:
+        values = ()
+    return _check_corners(opt, values, shown=text)
+
+
+def _check_corners(opt: "Option", value, *, shown=None) -> tuple[float, ...]:
+    try:
+        values = tuple(float(v) for v in value)
+    except (TypeError, ValueError):
+        values = ()
+    if len(values) != 8 or not all(math.isfinite(v) for v in values):
+        raise OptionError(opt.name, "{name} must be 8 numbers x1,y1,...,x4,y4: the wall's top-left, top-right, "
+                                    f"bottom-right and bottom-left in photo pixels, got {shown if shown else value!r}")
+    return values
+
+
+def _read_panel_size(opt: "Option", text: str) -> tuple[float, float]:
+    try:
+        size = units.parse_lengths(text, 2, what="panel size", form="WIDTH,HEIGHT", example="1.5,1.2m")
+    except ValueError as exc:
+        raise OptionError(opt.name, "{name}: " + str(exc)) from None
+    return _check_panel_size(opt, size)
+
+
+def _check_panel_size(opt: "Option", value) -> tuple[float, float]:
+    try:
+        w, h = (float(v) for v in value)
+    except (TypeError, ValueError):
+        raise OptionError(opt.name, f"{{name}} must be a width and height in mm, got {value!r}") from None
+    if not (math.isfinite(w) and math.isfinite(h) and w > 0 and h > 0):
+        raise OptionError(opt.name, f"{{name}} must have a width and height > 0, got {value!r}")
+    return w, h
+
+
 #: kind -> (reader of typed text, checker of a value already typed)
 _KINDS: dict[str, tuple[Callable, Callable]] = {
     "whole": (_read_whole, _check_whole), "number": (_read_number, _check_number),
     "fraction": (_read_fraction, _check_fraction), "length": (_read_length, _check_length),
     "choice": (_read_choice, _check_choice), "switch": (_read_switch, _check_switch),
     "wall": (_read_wall, None), "brushes": (_read_brushes, _check_brushes), "file": (_read_file, _check_file),
+    "openings": (_read_openings, _check_openings), "colour": (_read_colour, _check_colour),
+    "photo": (_read_photo, _check_photo), "corners": (_read_corners, _check_corners),
+    "panel_size": (_read_panel_size, _check_panel_size),
 }
 #: widest brush we accept, mm (a 1 m squeegee or roller is already more than any brush)
 MAX_BRUSH_MM = 1000.0
@@ -524,6 +658,11 @@ class Option:
             "brushes": f"widths in mm, comma-separated, or with units (4in, 2in); at most {MAX_BRUSHES}, "
                        f"each from {MIN_BRUSH_MM:g} to {MAX_BRUSH_MM:g} mm",
             "file": "a TOML inventory file",
+            "openings": "X,Y,W,H with a unit: 1.0,1.2,0.9,1.8m (repeat the flag; in the form one a line)",
+            "colour": "#rrggbb, or CIELAB L,a,b",
+            "photo": "a JPEG, PNG, WebP or TIFF file",
+            "corners": "x1,y1,x2,y2,x3,y3,x4,y4 in photo pixels: top-left, top-right, bottom-right, bottom-left",
+            "panel_size": "W,H with a unit: 1.5,1.2m",
         }[self.kind]
 
     def default_words(self) -> str:
@@ -636,6 +775,27 @@ OPTIONS: dict[str, Option] = {o.name: o for o in (
     Option("strokes", "whole", None, "fit the plan to about this many strokes (instead of --hours)", "--strokes",
            "Stroke budget", "stroke budget", "strokes", "planning", target="budget", minimum=1, maximum=1_000_000,
            metavar="N", default_text="none", form=False),
+    # --- the real wall: openings, the colour it already has
+    Option("openings", "openings", (), "a window, door or vent: the rectangle's top-left corner from the wall's "
+           "top-left, then its width and height; not painted, not charged for", "--opening", "Openings",
+           "openings", "openings", "planning", unit="mm", metavar="X,Y,W,H", default_text="none"),
+    Option("wall_colour", "colour", None, "the colour the wall is painted already: when a paint of the plan "
+           "matches it, that paint's ground coats are not bought", "--wall-colour", "Wall colour now",
+           "wall colour", "wall_colour", "planning", metavar="COLOUR", default_text="not known"),
+    Option("site_photo", "photo", None, "a photo of the wall: the plan's pictures are laid into it inside "
+           "--corners (mockup.png, mockups/NN.png), for the client and the permit", "--site-photo",
+           "Site photo", "site photo", "site_photo", "quantities", _OUT, target="output", metavar="FILE",
+           default_text="none", form=False),
+    Option("corners", "corners", None, "the wall's four corners in the site photo", "--corners", "Wall corners",
+           "corners", "site_corners", "quantities", _OUT, target="output", metavar="X1,Y1,...,X4,Y4",
+           default_text="none", form=False),
+    Option("panels", "panel_size", None, "split the design into numbered panels or cloth strips of this size, "
+           "painted off the wall: panels.html gives each its sheet and a key map", "--panels", "Panel size",
+           "panel size", "panels_mm", "quantities", _OUT, target="output", unit="mm", metavar="W,H",
+           default_text="none (painted on the wall)"),
+    Option("panel_overlap", "length", PANEL_OVERLAP_MM, "overlap of neighbouring panels, to glue or trim",
+           "--panel-overlap", "Panel overlap", "panel overlap", "panel_overlap_mm", "quantities", _OUT,
+           target="output", unit="mm", metavar="LENGTH", default_text="5cm"),
 )}
 
 GROUP_TITLES = {"planning": "planning", "mixing": "paints and mix recipes", "quantities": "quantities and printing"}
@@ -655,7 +815,7 @@ def form_defaults() -> dict[str, str]:
     """What the start page's fields hold before anyone types: each option's default as text."""
     out = {}
     for o in form_options():
-        if o.default is None or o.kind in ("wall", "brushes"):
+        if o.default is None or o.kind in ("wall", "brushes", "openings"):
             out[o.field] = ""
         elif o.kind == "switch":
             out[o.field] = "1" if o.default else ""
@@ -679,6 +839,9 @@ def add_cli_options(parser, command: str, *, names: Iterable[str] | None = None)
         g = groups[o.group]
         if o.kind == "switch":
             g.add_argument(o.flag, dest=o.dest, action="store_true", help=o.help_text())
+        elif o.kind == "openings":  # repeatable: one rectangle per flag
+            g.add_argument(o.flag, dest=o.dest, type=_cli_reader(o), action="append", default=None,
+                           metavar=o.metavar, help=o.help_text())
         else:
             g.add_argument(o.flag, dest=o.dest, type=_cli_reader(o), default=o.default, metavar=o.metavar,
                            help=o.help_text())
@@ -710,7 +873,10 @@ def _cli_reader(o: Option) -> Callable[[str], Any]:
 
 def values_from_cli(args, command: str) -> dict[str, Any]:
     """Option name -> value, from parsed arguments of ``command``."""
-    return {o.name: getattr(args, o.dest) for o in for_command(command) if hasattr(args, o.dest)}
+    values = {o.name: getattr(args, o.dest) for o in for_command(command) if hasattr(args, o.dest)}
+    if values.get("openings") is not None:  # one tuple of rectangles per flag given
+        values["openings"] = OPTIONS["openings"].check(tuple(r for given in values["openings"] for r in given))
+    return values
 
 
 # ------------------------------------------------------------------------- settings
@@ -881,6 +1047,12 @@ def check_plan(settings, output: Mapping[str, Any], image_shape, *, inventory_pa
     check_output(output)
     size = check_raster(settings, image_shape)
     check_grid(size.wall_width_mm, size.wall_height_mm, output.get("grid_mm"))
+    check_openings_fit(size.wall_width_mm, size.wall_height_mm, getattr(settings, "openings", ()))
+    panels = output.get("panels_mm")
+    overlap = output.get("panel_overlap_mm", PANEL_OVERLAP_MM)
+    if panels is not None and overlap is not None and overlap >= min(panels):
+        raise OptionError("panel_overlap", f"{{name}} of {overlap:g} mm must be less than the panel's sides "
+                                           f"({min(panels):g} mm)")
     if inventory_paints is not None:
         check_mix_table(inventory_paints, settings.mix_paints, settings.max_parts)
     return size

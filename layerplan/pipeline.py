@@ -12,6 +12,7 @@ from .coats import with_coats
 from .colour import delta_e00, error_planes, srgb_to_lab
 from .fit import fit_to_wall
 from .ground import choose_ground
+from .openings import as_openings, colour_lab, opening_mask, wall_ground
 from .layers import DEFAULT_PAINT_RUNS, PAINT_RUNS, layer_specs, paint_runs
 from .order import painting_order, short_travel
 from .palette import lightest_first, palette_from_image
@@ -131,23 +132,41 @@ def make_plan(image: np.ndarray, settings: Settings, *, progress=None, runs: str
     report(0.0, "fitting the photo to the wall")
     target, inside = fit_to_wall(image, width_px, height_px, fit=settings.fit)
 
+    # windows, doors and vents: not painted, so they choose no paint and no stroke covers them
+    openings = as_openings(settings.openings)
+    shut = opening_mask(openings, (height_px, width_px), s) if openings else None
+    voting = inside if shut is None else inside & ~shut
+    if not voting.any():
+        raise ValueError("the openings leave no pixel of the photo on the wall to plan from")
+
     report(0.03, "choosing paints")
     target_lab = srgb_to_lab(target)
-    pal_rgb, pal_lab = palette_from_image(target_lab, inside, settings.paints, seed=settings.seed)
+    pal_rgb, pal_lab = palette_from_image(target_lab, voting, settings.paints, seed=settings.seed)
     report(0.045, "mixing recipes from the paints")
     pal_rgb, pal_lab, recipes, inventory = mix_palette(pal_rgb, pal_lab, settings)
 
     report(0.06, "measuring colour error")
     planes = error_planes(target_lab, pal_lab)
-    ground = choose_ground(planes, inside)
+    ground = choose_ground(planes, voting)
+    wall = None
+    if settings.wall_colour is not None:
+        # a wall already painted close to a paint of the palette is that paint's ground
+        ground, wall = wall_ground(pal_lab, ground, colour_lab(settings.wall_colour),
+                                   tolerance_de=settings.tolerance_de)
     if not inside.all():
         # contain bands are meant to stay ground: measure them against the ground paint
         planes[~inside] = delta_e00(pal_lab, pal_lab[ground][None, :]).astype(np.float32)
         target_lab[~inside] = pal_lab[ground]
+    if shut is not None:
+        planes[shut] = 0.0  # nothing to match in an opening: its error never counts
     canvas = np.full((height_px, width_px), ground, dtype=np.int16)
     err = np.ascontiguousarray(planes[:, :, ground])
-    stats = {"mean_delta_e_ground": round(float(err.mean()), 4),
-             "mean_delta_e_floor": round(float(planes.min(axis=2).mean()), 4)}
+
+    def wall_mean(a, **kw):  # the mean over the painted wall (openings are not painted)
+        return a.mean(**kw) if shut is None else a[~shut].mean(**kw)
+
+    stats = {"mean_delta_e_ground": round(float(wall_mean(err)), 4),
+             "mean_delta_e_floor": round(float(wall_mean(planes.min(axis=2))), 4)}
 
     ids = [f"P{i + 1}" for i in range(len(pal_rgb))]
     palette = [
@@ -174,7 +193,7 @@ def make_plan(image: np.ndarray, settings: Settings, *, progress=None, runs: str
         placed.append(place_layer(
             planes, canvas, err, theta, spec.limits, mm_per_px=s, wall_mm=(wall_w, wall_h),
             cost=spec.cost, seed=settings.seed * 7919 + spec.number, progress=sub,
-            tries=spec.tries, patience=spec.patience, ranks=ranks,
+            tries=spec.tries, patience=spec.patience, ranks=ranks, shut=shut,
         ))
     relax_label = "relaxing strokes against the finished picture"
     report(_P_PREP + _P_LAYERS, relax_label)
@@ -187,7 +206,7 @@ def make_plan(image: np.ndarray, settings: Settings, *, progress=None, runs: str
     all_points, all_paints, alive, _ = relax_strokes(
         planes, ground, [p for r in placed for p in r.points], layer_of, np.concatenate([r.paints for r in placed]),
         [spec.limits for spec in specs], [spec.cost for spec in specs], thetas, mm_per_px=s,
-        wall_mm=(wall_w, wall_h), seed=settings.seed * 7919, ranks=ranks_all, progress=relaxed,
+        wall_mm=(wall_w, wall_h), seed=settings.seed * 7919, ranks=ranks_all, shut=shut, progress=relaxed,
     )
     report(_P_PREP + _P_LAYERS + _P_RELAX, "taking away strokes later ones hid")
     # painting order: layer by layer, run by run (relaxation may have moved a stroke to another paint's run)
@@ -228,7 +247,7 @@ def make_plan(image: np.ndarray, settings: Settings, *, progress=None, runs: str
     # coats from what each stroke covers, once the painting order is fixed
     plan = with_coats(plan)
     # error after each layer, from the plan itself
-    steps = [np.take_along_axis(planes, c[..., None].astype(np.intp), axis=2)[..., 0].mean(dtype=np.float64)
+    steps = [wall_mean(np.take_along_axis(planes, c[..., None].astype(np.intp), axis=2)[..., 0], dtype=np.float64)
              for c in render_steps(plan)]
     stats["mean_delta_e_final"] = round(float(steps[-1]), 4)
     stats["layers"] = [
@@ -240,6 +259,9 @@ def make_plan(image: np.ndarray, settings: Settings, *, progress=None, runs: str
     warned = raster_warnings(size, settings.brushes_mm, pixel_given=settings.mm_per_px is not None)
     plan = dataclasses.replace(plan, extra={"generator": f"layerplan {__version__}", "settings": settings.to_dict(),
                                             "stats": stats, "inventory": inventory,
-                                            **({"warnings": warned} if warned else {})})
+                                            **({"warnings": warned} if warned else {}),
+                                            **({"openings": [o.to_dict() for o in openings]} if openings else {}),
+                                            **({"wall_colour": {**wall, "nearest_paint": ids[wall["nearest_paint"]]}}
+                                               if wall is not None else {})})
     report(1.0, "plan ready")
     return plan

@@ -22,6 +22,13 @@ runs already placed, and judged only by the pixels where it will show; relaxatio
 clean-up use the same painting order (`painting_keys`), so the picture optimised is the one
 painted run by run.
 
+Openings (windows, doors, vents; :mod:`layerplan.openings`) reach the placer as a mask of
+the pixels whose centre lies in one (``shut``). While a layer is placed they are marked as
+under a run later than every paint's (``toprank`` = K, whose row of the run table lets no
+paint through): their error never counts, no stroke is born there, and a candidate whose
+footprint reaches one is worth nothing, so it is refined away or not placed. Relaxation
+refuses any move onto one. So no stroke of a plan covers a pixel centre inside an opening.
+
 This module is the Python side: it checks and packs the inputs of the compiled kernels in
 :mod:`layerplan._placer_kernels`. A brush's limits reach them as one record
 (:data:`BRUSH_RECORD`, packed by :func:`brush_records`), so a new limit is a field of
@@ -59,6 +66,9 @@ RELAX_MOVES, RELAX_BEND = (0.5, 0.5, 0.5, 1.0, 1.0, 8.0), 0.5
 #: relaxation passes over all strokes after the last layer, and moves tried per stroke and pass; deleting
 #: strokes by their cost is off: on the bench it gave worse pictures for the same stroke count
 RELAX_PASSES, RELAX_TRIES, RELAX_DELETE = 3, 60, False
+#: gain taken off a coarse evaluation block per opening pixel in it (far more than any stroke can earn),
+#: so refinement on the coarse grid keeps wide brushes off openings; the exact check refuses the rest
+SHUT_PENALTY = 1e9
 #: the placement search's knobs as the compiled code reads them (see `place_layer`)
 SEARCH_RECORD = np.dtype([("cost", np.float64), ("tries", np.int64), ("patience", np.int64), ("probe", np.int64),
                           ("give_up", np.float64)])
@@ -215,7 +225,7 @@ class LayerResult:
 
 def place_layer(planes, canvas, err, theta, limits: BrushLimits, *, mm_per_px: float, wall_mm, cost: float,
                 seed: int, rounds: int = 10, tries: int = 300, patience: int = 80, ranks=None,
-                progress=None) -> LayerResult:
+                shut=None, progress=None) -> LayerResult:
     """Place one layer's strokes on the canvas, in place.
 
     Parameters
@@ -239,6 +249,8 @@ def place_layer(planes, canvas, err, theta, limits: BrushLimits, *, mm_per_px: f
         0 … K − 1), each paint's strokes together. Every new stroke goes into its paint's run,
         under the strokes of later runs placed before it, and is judged by what shows. None:
         no runs, each stroke painted after the ones placed before it.
+    shut : (H, W) bool array, optional
+        Pixels inside an opening: never counted, never covered by a stroke.
     progress : callable(fraction, message), optional
 
     Returns
@@ -259,12 +271,16 @@ def place_layer(planes, canvas, err, theta, limits: BrushLimits, *, mm_per_px: f
     ranks = check_ranks(ranks, k)
     allow = run_table(ranks)
     toprank = np.full((h, w), -1, dtype=np.int64)
+    if shut is not None:
+        toprank[shut] = k  # above every run: nothing shows there (see the module's notes on openings)
     rng = np.random.default_rng(seed)
     w_px = limits.width_mm / mm_per_px
     f = max(1, int(w_px // EVAL_BRUSH_PX))
     if f > 1:
         # the gain of each paint per block; no stroke of this layer yet, so every paint shows everywhere
         gain_c = block_sums(err, f).astype(np.float64)[..., None] - block_sums(planes, f).astype(np.float64)
+        if shut is not None:
+            gain_c -= SHUT_PENALTY * block_sums(shut.astype(np.float64), f)[..., None]
     else:
         gain_c = np.zeros((1, 1, k), dtype=np.float64)
     per_round = max(16, int(h * w / max(1.0, w_px * w_px)))
@@ -392,7 +408,7 @@ def prune_strokes(planes, ground: int, points, widths, paints, *, mm_per_px: flo
 
 def relax_strokes(planes, ground: int, points, layer_of, paints, limits, costs, thetas, *, mm_per_px: float,
                   wall_mm, seed: int, passes: int = RELAX_PASSES, tries: int = RELAX_TRIES, delete: bool = RELAX_DELETE,
-                  ranks=None, progress=None):
+                  ranks=None, shut=None, progress=None):
     """Revisit every stroke of the finished picture and keep local moves that lower its energy.
 
     After all layers are placed, each stroke in turn may be deleted, recoloured, shifted,
@@ -426,6 +442,8 @@ def relax_strokes(planes, ground: int, points, layer_of, paints, limits, costs, 
     ranks : (L, K) int array, optional
         The run of each paint per layer (see `place_layer`); None: no runs, strokes painted in
         the order given.
+    shut : (H, W) bool array, optional
+        Pixels inside an opening: no move may make a stroke cover one.
     progress : callable(fraction, message), optional
         Called after each pass.
 
@@ -460,6 +478,7 @@ def relax_strokes(planes, ground: int, points, layer_of, paints, limits, costs, 
     th = np.ascontiguousarray(np.stack(thetas), dtype=np.float64)
     costs = np.asarray(costs, dtype=np.float64)
     wall = (float(wall_mm[0]), float(wall_mm[1]))
+    shut = np.zeros((h, w), dtype=np.bool_) if shut is None else np.ascontiguousarray(shut, dtype=np.bool_)
     moves = _cumulative(RELAX_MOVES)
     change = 0.0
     for r in range(passes):
@@ -480,7 +499,7 @@ def relax_strokes(planes, ground: int, points, layer_of, paints, limits, costs, 
         stack = (top_idx, top_paint, under_idx, under_paint, stale)
         change += kernels.relax_pass(
             planes, stack, pts3, counts, paints, alive, layer_of, (ranks, allow, keys), th, brushes, costs,
-            float(mm_per_px), wall, int(tries), int(seed * 1000 + r), bool(delete), moves, RELAX_BEND)
+            float(mm_per_px), wall, int(tries), int(seed * 1000 + r), bool(delete), moves, RELAX_BEND, shut)
         if progress is not None:
             progress((r + 1) / passes, f"pass {r + 1} of {passes}")
     return [pts3[i, : counts[i]].copy() for i in range(n)], paints, alive, float(change)

@@ -53,6 +53,14 @@ megapixels that matches the wall at its pixel size, finite numbers, at most 32 p
 layers, strokes of a known paint with a brush of 1 to 1000 mm, 1 to 4 coats and finite points
 near the wall, and container sizes as an inventory allows them.
 
+An optional top-level ``openings`` list holds the wall's windows, doors and vents, each
+``{"x_mm", "y_mm", "width_mm", "height_mm"}`` (top-left corner from the wall's top-left):
+no ground and no stroke is painted there, and pictures leave them transparent
+(:mod:`layerplan.openings`). An optional ``wall_colour`` section says what colour the wall
+is already and what that means for the ground: ``{"lab", "nearest_paint", "delta_e00",
+"tolerance_de", "serves_as_ground", "ground_coats"}``. Both are absent on a plain wall, so
+its file is unchanged.
+
 A `Plan` and its parts are frozen: stages and exporters read them and never write
 into them. A changed plan is a new one, made with :func:`dataclasses.replace`
 (``replace(plan, extra={**plan.extra, "source": ...})``).

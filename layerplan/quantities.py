@@ -1,10 +1,16 @@
 """Paint quantities: how much of each paint the plan uses, and what to buy.
 
 A paint's area is what its strokes cover on the wall, overlaps counted (paint that a
-later stroke hides was still used), plus the whole surface for the ground paint::
+later stroke hides was still used), plus the ground's area for the ground paint: the
+whole surface less its openings (windows, doors, vents; the trade deducts every opening,
+common practice; :func:`layerplan.openings.ground_area_m2`)::
 
     litres = (ground area × ground_coats + Σ stroke area × max(stroke_coats, stroke.coats))
              / coverage_m2_per_litre × (1 + waste)
+
+The ground's coats are ``ground_coats``, except on a wall already painted (plan.json
+``wall_colour``, :func:`layerplan.openings.wall_ground`): none where the wall's colour serves as
+the ground, and at least the coats it takes to hide the wall's colour otherwise.
 
 Each stroke carries its own coats (:attr:`layerplan.plan.Stroke.coats`, from what it
 covers: :mod:`layerplan.coats`); ``stroke_coats`` is the least any stroke gets.
@@ -40,6 +46,7 @@ from typing import Any
 import numpy as np
 from numba import njit
 
+from .openings import ground_area_m2, wall_section
 from .plan import Plan
 from .raster import capsule_chord
 
@@ -433,7 +440,10 @@ def paint_use(
         ``{"coverage_m2_per_litre", "waste", "ground_coats", "stroke_coats",
         "wall_area_m2", "paints": [{"paint", "area_m2", "ground_area_m2",
         "stroke_area_m2", "stroke_coat_area_m2", "strokes", "litres", "containers"}, ...],
-        "stock": [{"paint", "litres", "for", "containers"}, ...]}``. For walls given
+        "stock": [{"paint", "litres", "for", "containers"}, ...], "ground_area_m2"}``;
+        the top-level ``ground_area_m2`` is the wall less its openings, what the ground is
+        painted on, and ``ground_coats`` the coats it gets (0 where the wall's colour serves
+        as the ground; with a ``ground_note`` then, or where the ground covers that colour). For walls given
         in ft or in, every paint and stock entry also has ``us_gallons`` and
         ``us_quarts``. ``stroke_coat_area_m2`` is the stroke area counted once per coat
         (what the litres are worked from). ``stock`` is empty when no palette entry has a recipe. Every
@@ -475,13 +485,20 @@ def paint_use(
             coat_m2[ids[s.paint]] += a / 1e6 * max(stroke_coats, s.coats)
             n_strokes[ids[s.paint]] += 1
     wall_m2 = plan.wall_width_mm * plan.wall_height_mm / 1e6
+    ground_area = ground_area_m2(plan)
+    wall = wall_section(plan)
+    note = None
+    if wall is not None and wall.get("serves_as_ground"):
+        ground_coats, note = 0, "serves"  # the wall is that paint already: no ground to buy
+    elif wall is not None:
+        ground_coats, note = max(ground_coats, int(wall.get("ground_coats", 0))), "covers"
     factor = (1.0 + waste) / coverage_m2_per_litre
 
     paints = []
     stock: dict[str, dict[str, Any]] = {}
     for p in plan.palette:
         k = ids[p.id]
-        ground_m2 = wall_m2 if p.id == plan.ground else 0.0
+        ground_m2 = ground_area if p.id == plan.ground else 0.0
         litres = (ground_m2 * ground_coats + coat_m2[k]) * factor
         entry = {
             "paint": p.id,
@@ -539,6 +556,8 @@ def paint_use(
         "paints": paints,
         "stock": stock_list,
         **cost,
+        "ground_area_m2": round(ground_area, 4),
+        **({"ground_note": note} if note else {}),
     }
 
 

@@ -3,10 +3,15 @@
 The raster pixel at row i, column j stands for the wall point
 ((j + 0.5)·mm_per_px, (i + 0.5)·mm_per_px). A stroke covers it when that point
 lies within width_mm / 2 of the stroke's polyline (round ends and joins). The
-ground covers every pixel; strokes are opaque and applied in file order, layer
-after layer. `paint_strokes` applies that test pixel by pixel (the reference); `footprint_runs`
-finds the same pixel set row by row, exactly and faster, for the placer and the
-stroke stack (`stack_tops`), so what is optimised is exactly what is rendered.
+ground covers every pixel but those of the openings; strokes are opaque and applied
+in file order, layer after layer. A pixel whose centre lies inside an opening (a
+window, door or vent, :mod:`layerplan.openings`, edges included) is not painted: no
+stroke covers it, and pictures of the wall (final.png, the step pictures) leave it
+transparent (`picture`). Index canvases still hold the ground there, so every
+canvas stays a plain array of palette positions. `paint_strokes` applies that test
+pixel by pixel (the reference); `footprint_runs` finds the same pixel set row by
+row, exactly and faster, for the placer and the stroke stack (`stack_tops`), so
+what is optimised is exactly what is rendered.
 """
 
 from __future__ import annotations
@@ -344,6 +349,25 @@ def render(plan: Plan, *, upto_layer: int | None = None) -> np.ndarray:
 def render_steps(plan: Plan) -> list[np.ndarray]:
     """Cumulative (H, W) index canvases: ground only, then after each layer."""
     return [canvas.copy() for canvas in _walls(plan, plan.layers)]
+
+
+def picture(plan: Plan, canvas: np.ndarray) -> np.ndarray:
+    """A canvas of palette positions as the wall shows it.
+
+    Returns
+    -------
+    image : (H, W, 3) uint8 array, or (H, W, 4) with alpha 0 inside the openings when the
+        plan has openings (they are not painted)
+    """
+    from .openings import plan_mask
+
+    rgb = plan.palette_rgb()[canvas]
+    shut = plan_mask(plan)
+    if shut is None:
+        return rgb
+    h, w = canvas.shape
+    alpha = np.where(shut[:h, :w], 0, 255).astype(np.uint8)
+    return np.concatenate([rgb, alpha[..., None]], axis=2)
 
 
 def stroke_mask(stroke_path_mm, width_mm: float, mm_per_px: float, shape) -> np.ndarray:

@@ -74,6 +74,12 @@ class Settings:
     reach_mm : float
         Side of a square work zone (one ladder or lift position): each paint's strokes in a
         layer are painted zone by zone (:func:`layerplan.order.short_travel`).
+    openings : tuple of (x_mm, y_mm, width_mm, height_mm)
+        Windows, doors and vents: rectangles of the wall, top-left corner from the wall's
+        top-left, that are not painted (:mod:`layerplan.openings`).
+    wall_colour : str or None
+        The colour the wall is already painted, ``#rrggbb`` or ``L,a,b`` (CIELAB); ``None``
+        when not known (:mod:`layerplan.openings`, :func:`~layerplan.openings.wall_ground`).
     """
 
     wall_width_mm: float = DEFAULT_WALL_WIDTH_MM
@@ -91,6 +97,8 @@ class Settings:
     max_parts: int = 10
     tolerance_de: float = 3.0
     reach_mm: float = DEFAULT_REACH_MM
+    openings: tuple[tuple[float, float, float, float], ...] = ()
+    wall_colour: str | None = None
     extra: dict[str, Any] = field(default_factory=dict, compare=False)
 
     def validated(self) -> "Settings":
@@ -112,6 +120,11 @@ class Settings:
     def to_dict(self) -> dict[str, Any]:
         d = asdict(self)
         d["brushes_mm"] = list(self.brushes_mm)
+        # a wall with no openings and no known colour writes the settings it always did
+        d["openings"] = [list(o) for o in self.openings]
+        for key in ("openings", "wall_colour"):
+            if not d[key]:
+                d.pop(key)
         extra = d.pop("extra")
         d.update(extra)
         return d

@@ -44,7 +44,8 @@ from .plan import Plan
 from .batches import mix_batches
 from .quantities import TRACE_LITRES, US_UNITS
 from .quantities import paint_use as compute_paint_use
-from .raster import render_steps
+from .raster import picture, render_steps
+from .svg import panel_key_svg, panel_svg, picture_svg
 from .svg import (LABEL_EM_PER_CHAR, check_grid, column_label, enlargement_svg, grid_over_image_svg, grid_part_svg,
                   label_box_mm, outline_map_svg, paint_key_svg, square_name_boxes, area_bounds, areas_meeting)
 
@@ -396,7 +397,8 @@ def _png(rgb: np.ndarray) -> bytes:
     from PIL import Image
 
     buf = io.BytesIO()
-    Image.fromarray(np.ascontiguousarray(rgb, dtype=np.uint8), "RGB").save(buf, format="PNG")
+    mode = "RGBA" if rgb.shape[-1] == 4 else "RGB"  # openings are transparent (raster.picture)
+    Image.fromarray(np.ascontiguousarray(rgb, dtype=np.uint8), mode).save(buf, format="PNG")
     return buf.getvalue()
 
 
@@ -420,10 +422,9 @@ def _load_images(plan: Plan, images: Mapping[str, Any] | None, steps: list[np.nd
         out[name] = data
     need = ["final"] + [f"steps/{n:02d}" for n in range(len(plan.layers) + 1)]
     if any(k not in out for k in need):
-        rgb = plan.palette_rgb()
         for n, canvas in enumerate(steps):
-            out.setdefault(f"steps/{n:02d}", _png(rgb[canvas]))
-        out.setdefault("final", _png(rgb[steps[-1]]))
+            out.setdefault(f"steps/{n:02d}", _png(picture(plan, canvas)))
+        out.setdefault("final", _png(picture(plan, steps[-1])))
     return out
 
 
@@ -499,6 +500,8 @@ def _settings_rows(plan: Plan, unit: str) -> tuple[tuple[str, str], ...]:
     seed = st.pop("seed", None)
     if seed is not None:
         rows.append(("random seed", str(seed)))
+    for key in ("openings", "wall_colour"):  # the cover's own lines on the real wall say these (wall_facts)
+        st.pop(key, None)
     for key, value in st.items():  # anything newer than this page
         if isinstance(value, (list, tuple)):
             value = ", ".join(w.number(v) if isinstance(v, (int, float)) else str(v) for v in value)
@@ -535,9 +538,46 @@ def _cover(plan: Plan, imgs, title: str, use: dict[str, Any], unit: str) -> Cove
                                             "(CIEDE2000; under about 2 reads as the same colour at a glance)"))
     total_l = sum(p["litres"] for p in use["paints"])
     facts.append(("paint in all", f"about {w.volume(total_l, w.is_us(unit), used=True)}"))
-    figure = Figure(fig_w, "The finished picture as planned, in the plan's paints.", png_uri(imgs["final"]),
-                    "the finished picture")
+    facts += wall_facts(plan, use, unit)
+    figure = wall_picture(plan, fig_w, "The finished picture as planned, in the plan's paints.", imgs["final"],
+                          "the finished picture", "cover-picture")
     return Cover(title, figure, tuple(facts), _settings_rows(plan, unit), warnings)
+
+
+def wall_picture(plan: Plan, width_mm: float, caption: str, png: bytes, alt: str, scope: str) -> Figure:
+    """A picture of the wall for a sheet: the PNG, with the openings hatched over it when there are any."""
+    from .openings import plan_openings
+
+    if not plan_openings(plan):
+        return Figure(width_mm, caption, png_uri(png), alt)
+    return Figure(width_mm, caption + " Hatched: openings, not painted.", alt=alt,
+                  svg=_svg(picture_svg(plan, png_uri(png)), scope))
+
+
+def wall_facts(plan: Plan, use: Mapping[str, Any], unit: str) -> list[tuple[str, str]]:
+    """The cover's lines on the real wall: its openings, and the colour it is painted already."""
+    from .openings import plan_openings, wall_section
+
+    out = []
+    found = plan_openings(plan)
+    if found:
+        shut = plan.wall_width_mm * plan.wall_height_mm / 1e6 - float(use.get("ground_area_m2", 0.0))
+        out.append(("openings", f"{len(found)} (hatched), not painted: "
+                                + ", ".join(f"{w.length(o.width_mm, unit)} × {w.length(o.height_mm, unit)}"
+                                            for o in found)
+                                + f"; the ground is charged on {w.area(use.get('ground_area_m2', 0.0), unit)}, "
+                                  f"the wall less {w.area(shut, unit)} of openings"))
+    wall = wall_section(plan)
+    if wall is not None:
+        lab = ", ".join(w.number(v, 0) for v in wall["lab"])
+        if wall.get("serves_as_ground"):
+            out.append(("wall colour now", f"CIELAB {lab}, within ΔE00 {w.number(wall['delta_e00'], 1)} of "
+                                           f"{plan.ground}: the wall serves as the ground, no ground coats bought"))
+        else:
+            out.append(("wall colour now", f"CIELAB {lab} (nearest paint {wall['nearest_paint']}, ΔE00 "
+                                           f"{w.number(wall['delta_e00'], 1)}): the ground {plan.ground} covers "
+                                           f"it in {use.get('ground_coats', wall['ground_coats'])} coats"))
+    return out
 
 
 def _name_lines(p, recipe: Mapping[str, Any] | None) -> tuple[Line, ...]:
@@ -781,7 +821,8 @@ def _layer(plan: Plan, n: int, imgs, outline: dict[str, Any], changed: float, *,
     anchor = f"layer-{n:02d}"
     title = f"Layer {n} of {len(plan.layers)} — {w.number(layer.brush_width_mm)} mm brush" + (
         f" (≈ {w.number(layer.brush_width_mm / w.MM_PER_INCH, 1)} in)" if w.is_us(unit) else "")
-    picture = Figure(pic_w, f"The wall after layer {n}.", png_uri(imgs[f"steps/{n:02d}"]), f"the wall after layer {n}")
+    picture = wall_picture(plan, pic_w, f"The wall after layer {n}.", imgs[f"steps/{n:02d}"],
+                           f"the wall after layer {n}", f"{anchor}-picture")
     map_svg = _svg(outline_map_svg(plan, labelled, grid_mm=grid_mm, paper_per_wall=map_w / plan.wall_width_mm),
                    anchor)
     return LayerSheet(n, anchor, title, lead, picture, tuple(paints), Figure(map_w, caption, svg=map_svg),
@@ -998,7 +1039,7 @@ def _grid_parts(plan: Plan, final: np.ndarray, grid_mm: float, unit: str, paper:
     rows = max(1, int((paper.print_h_mm - 30.0) // GRID_PART_SQUARE_MM))
     nx = math.ceil(plan.wall_width_mm / grid_mm - 1e-9)
     ny = math.ceil(plan.wall_height_mm / grid_mm - 1e-9)
-    rgb = plan.palette_rgb()
+    wall_rgb = picture(plan, final)
     px = float(plan.mm_per_px)
     parts = []
     blocks = [(bx, by) for by in range(0, ny, rows) for bx in range(0, nx, cols)]
@@ -1009,7 +1050,7 @@ def _grid_parts(plan: Plan, final: np.ndarray, grid_mm: float, unit: str, paper:
         j0, j1 = int(box[0] / px), max(int(box[0] / px) + 1, min(final.shape[1], round(box[2] / px)))
         # the picture's pixels of this block, drawn over exactly the wall they cover
         shown = (j0 * px, i0 * px, j1 * px, i1 * px)
-        crop = png_uri(_png(rgb[final[i0:i1, j0:j1]]))
+        crop = png_uri(_png(wall_rgb[i0:i1, j0:j1]))
         anchor = f"transfer-grid-part-{number:02d}"
         svg = _svg(grid_part_svg(plan, grid_mm, crop, box, image_box_mm=shown), anchor)
         names = _square_names(box, grid_mm, None)
@@ -1144,3 +1185,69 @@ def build_sheets(
         layer_keys=tuple(keys),
         schedule=None if schedule is None else schedule_sheet(schedule, unit),
     )
+
+
+# ------------------------------------------------------------------------------ panels (panels.html)
+@dataclass(frozen=True)
+class PanelSheet:
+    """One panel's sheet: where it goes, its neighbours, its part of the picture and the key map."""
+
+    number: int
+    anchor: str
+    title: str
+    facts: tuple[tuple[str, str], ...]
+    figure: Figure
+    key: Figure
+
+
+@dataclass(frozen=True)
+class PanelDoc:
+    """panels.html: a key map of every panel, then one sheet per panel, then the safety sheet."""
+
+    title: str
+    paper: Paper
+    lead: str
+    key: Figure
+    panels: tuple[PanelSheet, ...]
+
+
+def panel_sheets(plan: Plan, final: np.ndarray, panels, overlap_mm: float, *, grid_mm: float,
+                 paper: str = DEFAULT_PAPER) -> PanelDoc:
+    """The sheets of panels.html (:mod:`layerplan.panels`), over the finished picture ``final`` ((H, W) palette
+    positions), with the transfer grid ``grid_mm`` drawn on each panel so its squares match the wall's."""
+    from .panels import overlaps_of
+
+    unit = wall_unit(plan)
+    pap = PAPERS[paper]
+    wall_rgb = picture(plan, final)
+    px = float(plan.mm_per_px)
+    key_w = _fit_box(plan, pap.print_w_mm, pap.print_h_mm * 0.6)
+    size = f"{w.length(max(p.width_mm for p in panels), unit)} × {w.length(max(p.height_mm for p in panels), unit)}"
+    lead = (f"{len(panels)} panels of up to {size}, in {max(p.row for p in panels)} rows, neighbours overlapping "
+            f"by {w.length(overlap_mm, unit)}. Number each panel on its back with an arrow to its top, paint it "
+            "flat in the studio, and put them up row by row from the top-left as the key map shows.")
+    key = Figure(key_w, "Key map: the wall seen from the front, panels numbered row by row from the top-left.",
+                 svg=_svg(panel_key_svg(plan, panels), "panel-key"))
+    sheets = []
+    for p in panels:
+        x0, y0, x1, y1 = p.box
+        i0, i1 = int(y0 / px), max(int(y0 / px) + 1, min(final.shape[0], math.ceil(y1 / px - 1e-9)))
+        j0, j1 = int(x0 / px), max(int(x0 / px) + 1, min(final.shape[1], math.ceil(x1 / px - 1e-9)))
+        shown = (j0 * px, i0 * px, j1 * px, i1 * px)
+        crop = png_uri(_png(wall_rgb[i0:i1, j0:j1]))
+        anchor = f"panel-{p.number:03d}"
+        shared = overlaps_of(p, panels)
+        fig_w = min(pap.print_w_mm, (pap.print_h_mm - 95.0) * p.width_mm / p.height_mm)
+        figure = Figure(fig_w, w.paper_scale(p.width_mm / fig_w, unit) + ". Dashed: the overlap with the panel "
+                        "numbered in it.", svg=_svg(panel_svg(plan, grid_mm, crop, p.box, image_box_mm=shown,
+                                                              overlaps=shared), anchor))
+        facts = (
+            ("size", f"{w.length(p.width_mm, unit)} wide × {w.length(p.height_mm, unit)} high"),
+            ("place", f"row {p.row}, column {p.column}: its top-left {w.length(x0, unit)} from the wall's left "
+                      f"edge and {w.length(y0, unit)} down from its top"),
+            ("overlaps", ", ".join(f"panel {n}" for n, _ in shared) or "none"),
+        )
+        small = Figure(min(60.0, key_w), "", svg=_svg(panel_key_svg(plan, panels, highlight=p.number), f"{anchor}-key"))
+        sheets.append(PanelSheet(p.number, anchor, f"Panel {p.number} of {len(panels)}", facts, figure, small))
+    title = str((plan.extra.get("source") or {}).get("image") or "Panels")
+    return PanelDoc(f"{title} — panels", pap, lead, key, tuple(sheets))

@@ -115,11 +115,60 @@ def _drawing(plan: Plan, *, responsive: bool = False) -> svgwrite.Drawing:
 
 
 def _ground_group(dwg, plan: Plan):
+    from .openings import plan_openings
+
+    found = plan_openings(plan)
     g = dwg.g(id="ground", **{"data-paint": plan.ground})
-    g.set_desc(title=f"Ground: {plan.ground} over the whole surface")
-    g.add(dwg.rect(insert=(0, 0), size=(_f(plan.wall_width_mm), _f(plan.wall_height_mm)),
-                   fill=plan.paint(plan.ground).srgb))
+    g.set_desc(title=f"Ground: {plan.ground} over the whole surface" + (" but the openings" if found else ""))
+    rect = dwg.rect(insert=(0, 0), size=(_f(plan.wall_width_mm), _f(plan.wall_height_mm)),
+                    fill=plan.paint(plan.ground).srgb)
+    if found:  # the ground is not painted in an opening: masked out (openings may overlap)
+        mask = dwg.mask(id="wall-less-openings")
+        mask.add(dwg.rect(insert=(0, 0), size=(_f(plan.wall_width_mm), _f(plan.wall_height_mm)), fill="#ffffff"))
+        for o in found:
+            mask.add(dwg.rect(insert=(_f(o.x_mm), _f(o.y_mm)), size=(_f(o.width_mm), _f(o.height_mm)), fill="#000000"))
+        dwg.defs.add(mask)
+        rect["mask"] = "url(#wall-less-openings)"
+    g.add(rect)
     return g
+
+
+#: hatching of openings: line spacing and width as a share of the wall's longer side (our choice:
+#: reads as "not painted" at any print size, like the hatching of openings on a builder's drawing)
+OPENING_HATCH, OPENING_LINE = 1 / 120, 1 / 900
+
+
+def openings_group(dwg, plan: Plan, *, box_mm: tuple[float, float, float, float] | None = None):
+    """The plan's openings (windows, doors, vents) as hatched, outlined rectangles, each titled with
+    its size; ``None`` when it has none. ``box_mm`` sizes the hatching for a drawing of part of the wall."""
+    from .openings import plan_openings
+
+    found = plan_openings(plan)
+    if not found:
+        return None
+    x0, y0, x1, y1 = box_mm or (0.0, 0.0, plan.wall_width_mm, plan.wall_height_mm)
+    side = max(x1 - x0, y1 - y0)
+    t, lw = side * OPENING_HATCH, side * OPENING_LINE
+    pat = dwg.pattern(id="opening-hatch", insert=(0, 0), size=(_f(t), _f(t)), patternUnits="userSpaceOnUse",
+                      patternTransform="rotate(45)")
+    pat.add(dwg.rect(insert=(0, 0), size=(_f(t), _f(t)), fill="#ffffff"))
+    pat.add(dwg.line(start=(0, _f(t / 2)), end=(_f(t), _f(t / 2)), stroke=INK, stroke_width=_f(lw)))
+    dwg.defs.add(pat)
+    g = dwg.g(id="openings", **{"class": "openings"})
+    g.set_desc(title=f"Openings (not painted): {len(found)}")
+    for n, o in enumerate(found, start=1):
+        r = dwg.rect(insert=(_f(o.x_mm), _f(o.y_mm)), size=(_f(o.width_mm), _f(o.height_mm)),
+                     fill="url(#opening-hatch)", stroke=INK, stroke_width=_f(2 * lw),
+                     **{"class": "opening", "data-opening": str(n)})
+        r.set_desc(title=f"Opening {n}: {_f(o.width_mm)} × {_f(o.height_mm)} mm, not painted")
+        g.add(r)
+    return g
+
+
+def _add_openings(dwg, plan: Plan, **kw) -> None:
+    g = openings_group(dwg, plan, **kw)
+    if g is not None:
+        dwg.add(g)
 
 
 def _layer_group(dwg, plan: Plan, n: int):
@@ -280,6 +329,7 @@ def overlay_svg(plan: Plan, *, grid_mm: float | None = None,
     dwg.add(_ground_group(dwg, plan))
     for n in range(1, len(plan.layers) + 1):
         dwg.add(_layer_group(dwg, plan, n))
+    _add_openings(dwg, plan)
     if grid_mm is not None:
         dwg.add(_grid_group(dwg, plan, grid_mm))
     maps = _outline_list(outlines)
@@ -318,6 +368,7 @@ def layer_svg(plan: Plan, n: int, *, grid_mm: float | None = None,
     layer = plan.layers[n - 1]
     dwg.set_desc(title=f"layerplan layer {n} of {len(plan.layers)}: {_f(layer.brush_width_mm)} mm brush")
     dwg.add(_layer_group(dwg, plan, n))
+    _add_openings(dwg, plan)
     if grid_mm is not None:
         dwg.add(_grid_group(dwg, plan, grid_mm))
     if outline is not None:
@@ -341,7 +392,18 @@ def outline_map_svg(plan: Plan, outline: dict[str, Any], *, grid_mm: float | Non
         patterns = _pattern_defs(dwg, plan, paints, paper_per_wall=paper_per_wall)
     dwg.add(dwg.rect(insert=(0, 0), size=(_f(plan.wall_width_mm), _f(plan.wall_height_mm)), fill="#ffffff",
                      stroke=INK, stroke_width=_f(max(plan.wall_width_mm, plan.wall_height_mm) / 500)))
+    _add_openings(dwg, plan)
     dwg.add(_outline_group(dwg, plan, outline, grid_mm=grid_mm, patterns=patterns))
+    return dwg.tostring()
+
+
+def picture_svg(plan: Plan, image_href: str) -> str:
+    """The picture (a URL or data URI) with the plan's openings hatched over it, sized to its container."""
+    dwg = _drawing(plan, responsive=True)
+    dwg.add(dwg.image(href=image_href, insert=(0, 0),
+                      size=(_f(plan.wall_width_mm), _f(plan.wall_height_mm)),
+                      preserveAspectRatio="none"))
+    _add_openings(dwg, plan)
     return dwg.tostring()
 
 
@@ -351,6 +413,7 @@ def grid_over_image_svg(plan: Plan, grid_mm: float, image_href: str) -> str:
     dwg.add(dwg.image(href=image_href, insert=(0, 0),
                       size=(_f(plan.wall_width_mm), _f(plan.wall_height_mm)),
                       preserveAspectRatio="none"))
+    _add_openings(dwg, plan)
     dwg.add(_grid_group(dwg, plan, grid_mm))
     return dwg.tostring()
 
@@ -544,6 +607,7 @@ def enlargement_svg(plan: Plan, outline: dict[str, Any], *, box_mm: tuple[float,
     clip = dwg.defs.add(dwg.clipPath(id="clip"))
     clip.add(dwg.rect(insert=(_f(x0), _f(y0)), size=(_f(w), _f(h))))
     dwg.add(dwg.rect(insert=(_f(x0), _f(y0)), size=(_f(w), _f(h)), fill="#ffffff"))
+    _add_openings(dwg, plan, box_mm=box_mm)
     shapes = dwg.g(id=f"areas-{n:02d}", stroke=INK, stroke_width=_f(0.22 / s), stroke_linejoin="round",
                    clip_path="url(#clip)")
     for k in inside:
@@ -631,6 +695,7 @@ def grid_part_svg(plan: Plan, grid_mm: float, image_href: str, box_mm: tuple[flo
     dwg.attribs.pop("height", None)
     dwg.add(dwg.image(href=image_href, insert=(_f(ix0), _f(iy0)), size=(_f(ix1 - ix0), _f(iy1 - iy0)),
                       preserveAspectRatio="none"))
+    _add_openings(dwg, plan, box_mm=box_mm)
     g = dwg.g(id="grid", **{"data-spacing-mm": _f(grid_mm)})
     lines = dwg.g(stroke=INK, stroke_width=_f(max(w, h) / 500.0), stroke_opacity="0.85")
     i0, i1 = round(x0 / grid_mm), math.ceil(x1 / grid_mm - 1e-9)
@@ -654,3 +719,49 @@ def grid_part_svg(plan: Plan, grid_mm: float, image_href: str, box_mm: tuple[flo
     g.add(names)
     dwg.add(g)
     return dwg.tostring()
+
+
+# ------------------------------------------------------------------ panels painted off the wall
+def panel_key_svg(plan: Plan, panels, *, highlight: int | None = None) -> str:
+    """The key map of panels: the wall with every panel outlined and numbered (``highlight`` filled), the
+    openings hatched, sized to its container."""
+    dwg = _drawing(plan, responsive=True)
+    w, h = plan.wall_width_mm, plan.wall_height_mm
+    side = max(w, h)
+    dwg.add(dwg.rect(insert=(0, 0), size=(_f(w), _f(h)), fill="#ffffff", stroke=INK, stroke_width=_f(side / 300)))
+    _add_openings(dwg, plan)
+    g = dwg.g(id="panels", fill="none", stroke=INK, stroke_width=_f(side / 500))
+    labels = dwg.g(fill=INK, font_family="sans-serif", **{"text-anchor": "middle"})
+    for p in panels:
+        extra = {"class": "panel", "data-panel": str(p.number)}
+        if p.number == highlight:
+            extra.update({"fill": "#ffd54a", "fill-opacity": "0.6", "class": "panel this"})
+        g.add(dwg.rect(insert=(_f(p.x_mm), _f(p.y_mm)), size=(_f(p.width_mm), _f(p.height_mm)), **extra))
+        font = min(p.width_mm, p.height_mm) * 0.3
+        at = (_f(p.x_mm + p.width_mm / 2), _f(p.y_mm + p.height_mm / 2 + font * 0.35))
+        labels.add(dwg.text(str(p.number), insert=at, font_size=_f(font)))
+    dwg.add(g)
+    dwg.add(labels)
+    return dwg.tostring()
+
+
+def panel_svg(plan: Plan, grid_mm: float, image_href: str, box_mm: tuple[float, float, float, float], *,
+              image_box_mm: tuple[float, float, float, float], overlaps) -> str:
+    """One panel: its part of the picture under the transfer grid, the bands it shares with its neighbours
+    shaded and numbered with the neighbour's number, its openings hatched; sized to its container."""
+    x0, y0, x1, y1 = box_mm
+    w, h = x1 - x0, y1 - y0
+    side = max(w, h)
+    text = grid_part_svg(plan, grid_mm, image_href, box_mm, image_box_mm=image_box_mm)
+    extra = svgwrite.Drawing(profile="full", debug=False)
+    g = extra.g(id="overlaps", **{"class": "overlaps"})
+    for other, (a, b, c, d) in overlaps:
+        g.add(extra.rect(insert=(_f(a), _f(b)), size=(_f(c - a), _f(d - b)), fill="#ffffff", fill_opacity="0.55",
+                         stroke=INK, stroke_width=_f(side / 400), stroke_dasharray=f"{_f(side / 60)},{_f(side / 120)}",
+                         **{"class": "overlap", "data-neighbour": str(other)}))
+        font = min(c - a, d - b, side / 12) * 0.6
+        g.add(extra.text(f"→ {other}", insert=(_f((a + c) / 2), _f((b + d) / 2 + font * 0.35)), font_size=_f(font),
+                         fill=INK, font_family="sans-serif", **{"text-anchor": "middle"}))
+    g.add(extra.rect(insert=(_f(x0), _f(y0)), size=(_f(w), _f(h)), fill="none", stroke=INK,
+                     stroke_width=_f(side / 250)))
+    return text.replace("</svg>", g.tostring() + "</svg>")

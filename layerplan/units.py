@@ -180,6 +180,65 @@ def parse_length(text: str, *, default_unit: str = "mm") -> float:
     return float(value * _UNITS_MM_EXACT[key])
 
 
+def parse_rectangle(text: str) -> tuple[float, float, float, float]:
+    """Parse a rectangle of the wall such as ``1.0,1.2,0.9,1.8m``: x, y, width, height.
+
+    x and y place the top-left corner from the wall's top-left (y down). A unit is
+    required, as for the wall: one unit after the last number applies to all four
+    (``1,1.2,0.9,1.8m``), and each number may carry its own (``100cm,1.2m,90cm,1.8m``).
+    Commas separate the numbers, so decimals use a point.
+
+    Returns
+    -------
+    (x_mm, y_mm, width_mm, height_mm) : tuple of float
+
+    Raises
+    ------
+    ValueError
+        Naming the text: not four numbers, no unit, an unknown unit, or a number that is
+        not one.
+
+    References
+    ----------
+    NIST SP 811 (2008), Appendix B; international yard and pound agreement (1959).
+    """
+    if not isinstance(text, str):
+        raise TypeError(f"a rectangle must be text such as '1.0,1.2,0.9,1.8m', got {type(text).__name__}")
+    return parse_lengths(text, 4, what="rectangle", form="X,Y,WIDTH,HEIGHT", example="1.0,1.2,0.9,1.8m")
+
+
+def parse_lengths(text: str, count: int, *, what: str = "lengths", form: str = "", example: str = ""
+                  ) -> tuple[float, ...]:
+    """Parse ``count`` comma-separated lengths sharing the unit after the last (``1.5,1.2m``), in mm.
+
+    Each number may carry its own unit instead; the last must have one.
+
+    Raises
+    ------
+    ValueError
+        Naming ``what`` and the text: the wrong count, no unit, an unknown unit, or not a number.
+    """
+    if not isinstance(text, str):
+        raise TypeError(f"{what} must be text such as {example!r}, got {type(text).__name__}")
+    items = [t.strip().lower() for t in text.split(",")]
+    if len(items) != count:
+        raise ValueError(f"{what} {text.strip()!r} must be {count} numbers {form} with a unit, "
+                         f"e.g. {example!r} (decimals with a point)")
+    found = []
+    for item in items:
+        m = _LENGTH_RE.match(item)
+        value = _exact(m.group(1)) if m else None
+        if value is None:
+            raise ValueError(f"{what} {text.strip()!r}: {item!r} is not a number with an optional unit")
+        found.append((value, m.group(2)))
+    last = found[-1][1]
+    if last is None:
+        raise ValueError(f"{what} {text.strip()!r} needs a unit, e.g. '{text.strip()}m' (units: {_VALID_UNITS})")
+    last = _unit_in(text, last, what=what)
+    return tuple(float(v * _UNITS_MM_EXACT[last if u is None else _unit_in(text, u, what=what)])
+                 for v, u in found)
+
+
 def parse_brushes(text: str) -> tuple[float, ...]:
     """Parse a brush kit such as ``100,50,25,12`` (mm) or ``4in,2in,1in,1/2in``.
 

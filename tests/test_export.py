@@ -45,9 +45,16 @@ def _board() -> Plan:
     return Plan(600.0, 400.0, 120, 80, 5.0, palette, "P1", layers, extra)
 
 
+#: the exports written only when asked: a site photo and its corners (mock-ups), a panel size (panels.html)
+_ASKED = {"site_photo": np.full((90, 140, 3), 128, np.uint8), "site_corners": (10, 10, 130, 15, 125, 80, 15, 85),
+          "panels_mm": (300.0, 300.0), "panel_overlap_mm": 20.0}
+#: the exports whose pictures are not at raster size: the mock-ups are the site photo's size
+_PHOTO_SIZED = ("mockup.png", "step-mockups")
+
+
 @pytest.fixture(scope="module")
 def files():
-    return build_files(_board())
+    return build_files(_board(), **_ASKED)
 
 
 def _read(media_type: str, data: bytes):
@@ -94,7 +101,9 @@ def test_the_registry_covers_every_file_build_files_writes(files):
 def test_the_pictures_are_the_plan_at_raster_size(files):
     plan = _board()
     for name, data in files.items():
-        if export_for(name).media_type == "image/png":
+        if export_for(name).name in _PHOTO_SIZED:
+            assert _read("image/png", data) == (140, 90)
+        elif export_for(name).media_type == "image/png":
             assert _read("image/png", data) == (plan.width_px, plan.height_px)
     assert files["final.png"] == files[f"steps/{len(plan.layers):02d}.png"]
     ground = np.asarray(Image.open(io.BytesIO(files["steps/00.png"])).convert("RGB"))
@@ -200,7 +209,9 @@ def test_the_plan_page_lists_the_registry_downloads(app, client):
     files = app.extensions["layerplan"].store.output_files(plan_id)
     url = f"/api/plans/{plan_id}/files/"
     listed = [a for a in links if a.get("id", "").startswith("dl-")]
-    singles = [e for e in EXPORTS.values() if not e.per_step]
+    # every one the plan has (the mock-ups and panels.html are written only when asked for)
+    singles = [e for e in EXPORTS.values() if not e.per_step and e.files in files]
+    assert {"plan.html", "plan.json", "final.png", "overlay.svg"} <= {e.name for e in singles}
     assert [a["href"] for a in listed] == [url + e.files for e in singles]  # every one, in the registry's order
     for a, e in zip(listed, singles):
         assert a["text"].strip() == e.label and a["type"] == e.media_type

@@ -711,7 +711,9 @@ BAD_TEXT = {"paints": "1", "brushes": "50,50", "pixel_mm": "0", "seed": "-1", "s
             "fit": "stretch", "free_palette": "maybe", "mix_paints": "5", "max_parts": "0", "tolerance": "101",
             "coverage": "0", "ground_coats": "-1", "stroke_coats": "0", "waste": "15", "grid": "1mm",
             "wall": "0x1m", "reach": "0m", "paper": "b5", "enlargements": "-1",
-            "crew": "0", "day_hours": "25", "drying": "-1", "labour_rate": "-5"}
+            "crew": "0", "day_hours": "25", "drying": "-1", "labour_rate": "-5",
+            # the real wall: an opening past the 80 cm wall's edge, a colour that is none, a panel size of one side
+            "openings": "2,0,1,1m", "wall_colour": "#12345g", "panels": "0.5m", "panel_overlap": "0cm"}
 
 
 @pytest.mark.parametrize("name", sorted(BAD_TEXT))

@@ -100,6 +100,8 @@ def test_a_private_plan_is_not_found_by_others(shared):
         assert a.get(url).status_code == 200, url
     # nor its machine programs (the owner's answer depends on whether planning has finished)
     assert b.get(f"/plans/{plan_id}/machine?format=svg").status_code == 404
+    for url in (f"/plans/{plan_id}/project", f"/plans/{plan_id}/site"):
+        assert b.get(url).status_code == 404, url
     assert a.get(f"/plans/{plan_id}/machine?format=svg").status_code != 404
     # others cannot even learn it exists by trying to delete it
     assert b.delete(f"/api/plans/{plan_id}").status_code == 404

@@ -227,11 +227,12 @@ def create_app(test_config: dict | None = None, *, overrides: dict | None = None
     for plan_id in again:
         runner.submit(plan_id)
 
-    from . import api, pages, swatches
+    from . import api, pages, swatches, wall
 
     app.register_blueprint(api.bp)
     app.register_blueprint(pages.bp)
     app.register_blueprint(swatches.bp)
+    app.register_blueprint(wall.bp)
     _register_wording(app)
     app.register_error_handler(HTTPException, _http_error)
     app.register_error_handler(Exception, _unexpected_error)

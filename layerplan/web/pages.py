@@ -35,7 +35,8 @@ OPTION_DEFAULTS = {k: v for k, v in options.form_defaults().items()
 #: what the start page's form holds before anyone types
 FORM_DEFAULTS = {"wall_width": "3", "wall_height": "", "unit": "m", "paints": "8", "kit": forms.DEFAULT_KIT,
                  "brushes": "", "fit": "cover", "seed": "0", "pixel_mm": "", "inventory": "default",
-                 "inventory_text": "", "free_palette": "", **OPTION_DEFAULTS}
+                 "inventory_text": "", "free_palette": "", "openings": "", "wall_colour": "",
+                 "panels": "", "panel_overlap": "5cm", **OPTION_DEFAULTS}
 #: a typed value longer than this (characters) is not put back into the re-shown form
 MAX_REFILL = 1000
 #: mimetypes of the photo formats we accept, by Pillow format id
