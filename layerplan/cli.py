@@ -196,6 +196,10 @@ def cmd_serve(args) -> int:
         overrides["DATA_DIR"] = os.environ["LAYERPLAN_DATA_DIR"]
     if args.workers is not None:
         overrides["WORKERS"] = args.workers
+    import logging
+
+    # the server's one-line records (a refused request, a failed plan, a repair on start) reach stderr
+    logging.basicConfig(level=logging.INFO, format="%(asctime)s %(levelname)s %(name)s: %(message)s")
     try:
         app = create_app(None, overrides=overrides)
     except RuntimeError as exc:
