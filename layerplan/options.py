@@ -32,6 +32,7 @@ from pathlib import Path
 from typing import Any, Callable, Iterable, Mapping
 
 from . import units
+from .surfaces import MAX_VALUE_STEPS, PAINT_SETS, SIMPLE_MAX_PARTS, SURFACES
 from .settings import (DEFAULT_WALL_WIDTH_MM, FITS, HARD_MAX_RASTER_PX, MAX_BRUSHES, MAX_PAINTS, MAX_WALL_MM,
                        MIN_PAINTS, MIN_RASTER_SIDE_PX, Settings)
 
@@ -53,6 +54,9 @@ PAPERS, DEFAULT_PAPER = ("a4", "letter", "a3", "tabloid"), "a4"
 ENLARGEMENTS_PER_LAYER, MAX_ENLARGEMENTS_PER_LAYER = 24, 400
 #: upper bound on a seed, so it stays an ordinary integer everywhere
 MAX_SEED = 2**32 - 1
+#: most students of one class plan (a year group painting together; our bound), and the shortest and
+#: longest class period we plan for, minutes (our bounds)
+MAX_STUDENTS, MIN_PERIOD_MINUTES, MAX_PERIOD_MINUTES = 500, 10.0, 240.0
 
 #: first and last line of the generated tables in README.md and layerplan/web/api.py
 TABLE_START = "<!-- options table: made by `python -m layerplan.options --write`; edit layerplan/options.py -->"
@@ -205,7 +209,8 @@ def _check_length(opt: "Option", value) -> float:
 
 
 def _read_choice(opt: "Option", text: str) -> str:
-    return _check_choice(opt, text.strip())
+    typed = text.strip()  # case is ignored (--surface A3, --paper A4), the value is the choice's own spelling
+    return _check_choice(opt, next((c for c in opt.choices if c.lower() == typed.lower()), typed))
 
 
 def _check_choice(opt: "Option", value) -> str:
@@ -496,6 +501,31 @@ OPTIONS: dict[str, Option] = {o.name: o for o in (
            "plan (the squares with the most areas are kept); 0 for none", "--enlargements",
            "Enlargements per layer", "enlargements per layer", "enlargements_per_layer", "quantities", _OUT,
            target="output", minimum=0, maximum=MAX_ENLARGEMENTS_PER_LAYER, metavar="N"),
+    # --- classroom: sheet and board surfaces, a class, a limited set, value studies (layerplan.surfaces,
+    # layerplan.classroom); a class's figures are planned with the plan, so they are settings
+    Option("surface", "choice", None, "a named sheet or board instead of a wall size, turned to follow the "
+           "photo: small brushes, the classroom paint set and amounts in mL follow", "--surface",
+           "Sheet or board", "surface", "surface", "planning", choices=tuple(SURFACES), metavar="NAME",
+           default_text="none (the wall size)"),
+    Option("students", "whole", None, "students painting the plan, one sheet each: the plan adds a preparation "
+           "sheet, one step sheet per layer and a teacher's sheet", "--students", "Students", "students",
+           "students", "planning", minimum=1, maximum=MAX_STUDENTS, metavar="N", default_text="no class"),
+    Option("spares", "fraction", _S.spares, "spare sheets on top of one per student, for do-overs and "
+           "latecomers", "--spares", "Spare sheets", "spares", "spares", "planning", metavar="SHARE"),
+    Option("period_minutes", "number", _S.period_minutes, "length of a class period; the teacher's sheet "
+           "splits the layers into periods", "--period-minutes", "Class period (min)", "class period",
+           "period_minutes", "planning", minimum=MIN_PERIOD_MINUTES, maximum=MAX_PERIOD_MINUTES, unit="min",
+           metavar="MIN"),
+    Option("paint_set", "choice", None, "the built-in set to mix from when no inventory is given: classroom is a "
+           "primary triad with black and white", "--paint-set", "Paint set", "paint set", "paint_set", "mixing",
+           choices=tuple(PAINT_SETS), default_text="classroom on a sheet or board, else basic"),
+    Option("simple_mixes", "switch", _S.simple_mixes, "plan only with stock paints and two-paint mixes "
+           f"students can make (at most {SIMPLE_MAX_PARTS} parts)", "--simple-mixes", "Only simple mixes",
+           "simple_mixes", "simple_mixes", "mixing"),
+    Option("value_study", "whole", _S.value_study, "paint in this many greys mixed from the set's black and "
+           "white, evenly spaced in lightness, with a value scale to paint first; 0 for colour",
+           "--value-study", "Value study (greys)", "value study", "value_study", "planning", minimum=0,
+           maximum=MAX_VALUE_STEPS, metavar="N"),
 )}
 
 GROUP_TITLES = {"planning": "planning", "mixing": "paints and mix recipes", "quantities": "quantities and printing"}

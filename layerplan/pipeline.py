@@ -129,9 +129,16 @@ def make_plan(image: np.ndarray, settings: Settings, *, progress=None, runs: str
 
     report(0.03, "choosing paints")
     target_lab = srgb_to_lab(target)
-    pal_rgb, pal_lab = palette_from_image(target_lab, inside, settings.paints, seed=settings.seed)
-    report(0.045, "mixing recipes from the paints")
-    pal_rgb, pal_lab, recipes, inventory = mix_palette(pal_rgb, pal_lab, settings)
+    value_study = None
+    if settings.value_study:  # greys of the set's black and white, matched on lightness alone
+        from .value_study import mix_value_palette
+
+        pal_rgb, pal_lab, recipes, inventory, value_study = mix_value_palette(settings)
+        target_lab[..., 1:] = 0.0
+    else:
+        pal_rgb, pal_lab = palette_from_image(target_lab, inside, settings.paints, seed=settings.seed)
+        report(0.045, "mixing recipes from the paints")
+        pal_rgb, pal_lab, recipes, inventory = mix_palette(pal_rgb, pal_lab, settings)
 
     report(0.06, "measuring colour error")
     planes = error_planes(target_lab, pal_lab)
@@ -236,6 +243,7 @@ def make_plan(image: np.ndarray, settings: Settings, *, progress=None, runs: str
     warned = raster_warnings(size, settings.brushes_mm, pixel_given=settings.mm_per_px is not None)
     plan = dataclasses.replace(plan, extra={"generator": f"layerplan {__version__}", "settings": settings.to_dict(),
                                             "stats": stats, "inventory": inventory,
-                                            **({"warnings": warned} if warned else {})})
+                                            **({"warnings": warned} if warned else {}),
+                                            **({"value_study": value_study} if value_study else {})})
     report(1.0, "plan ready")
     return plan
