@@ -158,9 +158,13 @@ def _plan_document(x: ExportInputs) -> dict[str, bytes]:
     # (an existing paint_use section is replaced where it stands, a new one goes last); each
     # recipe carries its batch, the split of that paint's litres into stock paints
     from .batches import with_batches
+    from .classroom import classroom_section
 
+    # a class's paint, tables and periods go beside the quantities they are worked from
+    section = classroom_section(x.plan, x.paint_use)
     written = dataclasses.replace(with_batches(x.plan, x.paint_use),
-                                  extra={**x.plan.extra, "paint_use": dict(x.paint_use)})
+                                  extra={**x.plan.extra, "paint_use": dict(x.paint_use),
+                                         **({"classroom": section} if section else {})})
     return {"plan.json": written.to_json().encode("utf-8")}
 
 
