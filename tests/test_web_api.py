@@ -709,7 +709,10 @@ def test_the_same_settings_make_the_same_plan_through_the_cli_and_the_api(client
 BAD_TEXT = {"paints": "1", "brushes": "50,50", "pixel_mm": "0", "seed": "-1", "stroke_cost": "-1",
             "fit": "stretch", "free_palette": "maybe", "mix_paints": "5", "max_parts": "0", "tolerance": "101",
             "coverage": "0", "ground_coats": "-1", "stroke_coats": "0", "waste": "15", "grid": "1mm",
-            "wall": "0x1m", "reach": "0m", "paper": "b5", "enlargements": "-1"}
+            "wall": "0x1m", "reach": "0m", "paper": "b5", "enlargements": "-1",
+            # the classroom options
+            "surface": "a5", "students": "0", "spares": "15", "period_minutes": "5", "paint_set": "oils",
+            "simple_mixes": "maybe", "value_study": "2"}
 
 
 @pytest.mark.parametrize("name", sorted(BAD_TEXT))

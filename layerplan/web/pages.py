@@ -32,7 +32,7 @@ OPTION_DEFAULTS = {k: v for k, v in options.form_defaults().items()
 #: what the start page's form holds before anyone types
 FORM_DEFAULTS = {"wall_width": "3", "wall_height": "", "unit": "m", "paints": "8", "kit": forms.DEFAULT_KIT,
                  "brushes": "", "fit": "cover", "seed": "0", "pixel_mm": "", "inventory": "default",
-                 "inventory_text": "", "free_palette": "", **OPTION_DEFAULTS}
+                 "inventory_text": "", "free_palette": "", **OPTION_DEFAULTS, **forms.CLASSROOM_DEFAULTS}
 #: mimetypes of the photo formats we accept, by Pillow format id
 _PHOTO_TYPES = {"JPEG": "image/jpeg", "MPO": "image/jpeg", "PNG": "image/png", "WEBP": "image/webp",
                 "TIFF": "image/tiff"}
@@ -53,7 +53,8 @@ def _start_page(values: dict[str, str] | None = None, error: str | None = None, 
     return render_template("start.html", values=merged, error=error, error_field=error_field, kept=kept,
                            more_open=changed or error_field in OPTION_DEFAULTS, recent=recent,
                            kits=forms.BRUSH_KITS, labels=forms.LABELS, limits=_limits(),
-                           units=forms.UNIT_CHOICES, max_size=max_size, inventory=_inventory_view()), status
+                           units=forms.UNIT_CHOICES, max_size=max_size, inventory=_inventory_view(),
+                           classroom=forms.CLASSROOM_OPTIONS, choice_labels=forms.CHOICE_LABELS), status
 
 
 def _limits() -> dict[str, Any]:
