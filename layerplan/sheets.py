@@ -1065,6 +1065,8 @@ def build_sheets(
 STEP_HEADER_MM = 70.0
 #: width of the small "after this step" picture on a step sheet, mm (our layout)
 STEP_PICTURE_MM = 45.0
+#: width of a turned step sheet's side column (title, paints, picture, key), mm (our layout)
+STEP_SIDE_MM = 80.0
 #: who mixes a paint, in words (see :func:`layerplan.classroom.who_mixes`)
 WHO_MIXES = {"stock": "straight from the bottle", "students": "students mix it at the table",
              "teacher": "mix beforehand for the whole class"}
@@ -1124,6 +1126,8 @@ class StepSheet:
     key: Figure
     map: Figure
     labelled: int
+    #: the page is turned (landscape), the map beside a side column
+    landscape: bool = False
 
 
 @dataclass(frozen=True)
@@ -1179,17 +1183,28 @@ def _step_map(plan: Plan, n: int, outline: dict[str, Any], *, scale: float, grid
     return svg, len(labels)
 
 
+def step_layout(plan: Plan, paper: Paper) -> tuple[float, bool]:
+    """(scale, landscape) of a step sheet: paper mm per surface mm of its map, and whether the page is turned.
+
+    The map is full size (1) when the surface fits the paper upright under the sheet's header, or turned
+    (landscape) beside a side column of :data:`STEP_SIDE_MM`; else the largest scale either way allows.
+    """
+    upright = min(1.0, paper.print_w_mm / plan.wall_width_mm,
+                  (paper.print_h_mm - STEP_HEADER_MM) / plan.wall_height_mm)
+    turned = min(1.0, (paper.print_h_mm - STEP_SIDE_MM) / plan.wall_width_mm, paper.print_w_mm / plan.wall_height_mm)
+    return (turned, True) if turned > upright + 1e-9 else (upright, False)
+
+
 def step_scale(plan: Plan, paper: Paper) -> float:
-    """Paper mm per surface mm of a step sheet's map: 1 (full size) when the surface fits the paper's box
-    under the sheet's header, else the largest scale that fits."""
-    return min(1.0, paper.print_w_mm / plan.wall_width_mm,
-               (paper.print_h_mm - STEP_HEADER_MM) / plan.wall_height_mm)
+    """Paper mm per surface mm of a step sheet's map (:func:`step_layout`)."""
+    return step_layout(plan, paper)[0]
 
 
 def _step_sheets(plan: Plan, imgs, outlines, *, grid_mm: float, paper: Paper, noun: str) -> tuple[StepSheet, ...]:
     from .classroom import who_mixes
 
-    scale = step_scale(plan, paper)
+    scale, landscape = step_layout(plan, paper)
+    key_w = STEP_SIDE_MM - 4.0 if landscape else paper.print_w_mm
     order_ix = plan.paint_index()
     out = []
     for n, (layer, outline) in enumerate(zip(plan.layers, outlines), start=1):
@@ -1213,7 +1228,7 @@ def _step_sheets(plan: Plan, imgs, outlines, *, grid_mm: float, paper: Paper, no
                 + ("keep the ground." if n == 1 else f"keep what step {n - 1} painted.")
                 + " Let this step dry before the next.") if layer.strokes else "Nothing to paint in this step."
         paints_key = [pid for pid in ids if any(a["paint"] == pid for a in outline["areas"])]
-        key = Figure(paper.print_w_mm, "", svg=_svg(paint_key_svg(plan, paints_key, width_mm=paper.print_w_mm),
+        key = Figure(key_w, "", svg=_svg(paint_key_svg(plan, paints_key, width_mm=key_w),
                                                     f"{anchor}-key")) if paints_key else Figure(0.0)
         picture = Figure(STEP_PICTURE_MM, f"Your {noun} after step {n}.", png_uri(imgs[f"steps/{n:02d}"]),
                          f"the {noun} after step {n}")
@@ -1222,7 +1237,7 @@ def _step_sheets(plan: Plan, imgs, outlines, *, grid_mm: float, paper: Paper, no
                    "strokes run.")
         out.append(StepSheet(n, anchor, f"Step {n} of {len(plan.layers)} — {brush} brush", lead, scale_words,
                              tuple(paints), picture, key, Figure(plan.wall_width_mm * scale, caption, svg=svg),
-                             labelled))
+                             labelled, landscape))
     return tuple(out)
 
 
