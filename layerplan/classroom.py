@@ -149,9 +149,11 @@ def classroom_section(plan, use: Mapping[str, Any]) -> dict[str, Any] | None:
     -------
     dict
         ``{"students", "spares", "spare_share", "sheets", "table_size", "tables", "period_minutes",
-        "paints": [{"paint": stock name, "per_student_ml", "total_ml", "per_table_ml"}, ...],
+        "paints": [{"paint": stock name, "per_student_ml", "total_ml", "per_table_ml", "premix_ml"}, ...],
         "mixes": [{"paint": palette id, "who", "per_student_ml", "total_ml", "per_table_ml"}, ...],
-        "periods": [...]}``; totals are for every sheet, spares included (see :func:`class_periods`).
+        "periods": [...]}``; totals are for every sheet, spares included (see :func:`class_periods`). A
+        stock paint's ``premix_ml`` goes into the teacher's mixes beforehand and ``per_table_ml`` is the
+        rest, put out on each table; a mix's ``per_table_ml`` is its pot per table.
     """
     st = plan.extra.get("settings") or {}
     students = st.get("students")
@@ -168,10 +170,25 @@ def classroom_section(plan, use: Mapping[str, Any]) -> dict[str, Any] | None:
         return {"paint": paint, **more, "per_student_ml": round(per, 1), "total_ml": round(per * sheets, 1),
                 "per_table_ml": round(per * sheets / tables, 1)}
 
-    paints = [row(s["paint"], ml(s)) for s in use.get("stock") or []]
     by_id = {p.id: p for p in plan.palette}
     mixes = [row(e["paint"], ml(e), who=who_mixes(by_id[e["paint"]].extra.get("recipe")))
              for e in use["paints"] if ml(e) > 0]
+    # each stock paint's share of the mixes: what goes on the tables, and what the teacher mixes beforehand
+    premix: dict[str, float] = {}
+    for m in mixes:
+        recipe = by_id[m["paint"]].extra.get("recipe") or {}
+        parts = [(str(q["paint"]), float(q["parts"])) for q in recipe.get("parts") or [] if q.get("parts")]
+        total = sum(n for _, n in parts)
+        if m["who"] == "teacher" and total > 0:
+            for name, n in parts:
+                premix[name] = premix.get(name, 0.0) + m["per_student_ml"] * n / total
+    paints = []
+    for s in use.get("stock") or []:
+        entry = row(s["paint"], ml(s))
+        before = min(premix.get(s["paint"], 0.0), ml(s))
+        entry["premix_ml"] = round(before * sheets, 1)
+        entry["per_table_ml"] = round((ml(s) - before) * sheets / tables, 1)
+        paints.append(entry)
     stroke_coats = int(use.get("stroke_coats", 1))
     steps = ([("value scale", VALUE_SCALE_MINUTES)] if plan.extra.get("value_study") else []) + \
         [(f"layer {n}", layer_minutes(layer, stroke_coats=stroke_coats))

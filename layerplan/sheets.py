@@ -1078,7 +1078,7 @@ class ClassPaintRow:
 
     id: str
     srgb: str | None
-    mix: str
+    mix: str  # a mix's recipe; for a stock paint, what of it goes into the teacher's mixes
     who: str
     per_student: str
     per_table: str
@@ -1283,8 +1283,10 @@ def classroom_sheets(plan: Plan, use: Mapping[str, Any], imgs, outlines, *, grid
     tables = (f"{section['tables']} table{'s' if section['tables'] != 1 else ''} of up to {section['table_size']} "
               "(common practice): put out the amount per table in a lidded pot or a palette well per paint")
     inv = {e.get("name"): e.get("srgb") for e in (plan.extra.get("inventory") or []) if isinstance(e, Mapping)}
-    stock = tuple(ClassPaintRow(r["paint"], inv.get(r["paint"]), "", "", w.millilitres(r["per_student_ml"], us),
-                                w.millilitres(r["per_table_ml"], us), w.millilitres(r["total_ml"], us))
+    stock = tuple(ClassPaintRow(r["paint"], inv.get(r["paint"]), w.millilitres(r.get("premix_ml", 0.0), us)
+                                if r.get("premix_ml") else "—", "", w.millilitres(r["per_student_ml"], us),
+                                w.millilitres(r["per_table_ml"], us) if r["per_table_ml"] else "—",
+                                w.millilitres(r["total_ml"], us))
                   for r in section["paints"])
     mixes = []
     for r in section["mixes"]:

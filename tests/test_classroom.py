@@ -139,8 +139,9 @@ def test_class_quantities_scale_with_students_and_spares(class_plan):
         assert s["per_student_ml"] == b["per_student_ml"] == pytest.approx(one[s["paint"]], abs=0.05)
         assert s["total_ml"] == pytest.approx(one[s["paint"]] * 11, abs=0.1)
         assert b["total_ml"] == pytest.approx(one[s["paint"]] * 25, abs=0.1)
-        # per table of about six (common practice): the class's amount split over the tables
-        assert s["per_table_ml"] * small["tables"] == pytest.approx(s["total_ml"], abs=0.1 * small["tables"])
+        # per table of about six (common practice): what the teacher does not mix beforehand, split over the tables
+        assert s["per_table_ml"] * small["tables"] + s["premix_ml"] == \
+            pytest.approx(s["total_ml"], abs=0.1 * small["tables"] + 0.1)
     assert small["tables"] == 2 and big["tables"] == 4
 
 
@@ -243,3 +244,20 @@ def test_plan_json_carries_the_classroom_section(class_plan, tmp_path):
     assert (c["students"], c["sheets"]) == (25, 28)  # 25 and 10 % spares rounded up
     assert all({"paint", "per_student_ml", "total_ml"} <= set(r) for r in c["paints"])
     assert Plan.from_json(files["plan.json"].decode()).extra["classroom"] == c  # read back unchanged
+
+
+def test_what_the_teacher_mixes_beforehand_is_not_put_out_on_the_tables(value_plan):
+    from layerplan.quantities import paint_use
+
+    use = paint_use(value_plan)
+    c = classroom.classroom_section(value_plan, use)
+    by_id = {m["paint"]: m for m in c["mixes"]}
+    premixed = [m for m in c["mixes"] if m["who"] == "teacher"]
+    assert premixed  # a light grey of 1 part black to many of white is not a mix for the tables
+    black = next(r for r in c["paints"] if r["paint"] == "Black")
+    expected = 0.0
+    for m in premixed:
+        parts = {q["paint"]: q["parts"] for q in value_plan.paint(m["paint"]).extra["recipe"]["parts"]}
+        expected += m["per_student_ml"] * parts.get("Black", 0) / sum(parts.values())
+    assert black["premix_ml"] == pytest.approx(expected * c["sheets"], abs=0.2 + 0.05 * len(by_id))
+    assert black["per_table_ml"] * c["tables"] + black["premix_ml"] == pytest.approx(black["total_ml"], abs=0.6)
