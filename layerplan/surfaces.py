@@ -123,7 +123,7 @@ def with_classroom(settings):
     follow the photo), the unit it is sold in and, when the brushes are the wall defaults,
     :data:`SHEET_BRUSHES_MM`. With no inventory file, the paint set's file is used (the classroom
     set on a surface). Simple mixes cap the paints per mix at 2 and the parts at
-    :data:`SIMPLE_MAX_PARTS`. Applying it twice changes nothing.
+    :data:`SIMPLE_MAX_PARTS`; a value study of N greys plans with N paints. Applying it twice changes nothing.
 
     Raises
     ------
@@ -149,4 +149,6 @@ def with_classroom(settings):
     n = settings.value_study
     if n and not 3 <= n <= MAX_VALUE_STEPS:
         raise OptionError("value_study", f"{{name}} must be 0 (none) or from 3 to {MAX_VALUE_STEPS} greys, got {n}")
+    if n:  # a value study's paints are its greys
+        changes["paints"] = n
     return replace(settings, **changes) if changes else settings

@@ -261,3 +261,14 @@ def test_what_the_teacher_mixes_beforehand_is_not_put_out_on_the_tables(value_pl
         expected += m["per_student_ml"] * parts.get("Black", 0) / sum(parts.values())
     assert black["premix_ml"] == pytest.approx(expected * c["sheets"], abs=0.2 + 0.05 * len(by_id))
     assert black["per_table_ml"] * c["tables"] + black["premix_ml"] == pytest.approx(black["total_ml"], abs=0.6)
+
+
+def test_the_class_defaults_are_the_classroom_modules():
+    # one source for each trade figure: tables of about six, 10 % spares, 45-minute periods (common practice)
+    s = Settings()
+    assert (s.spares, s.period_minutes) == (classroom.SPARE_SHARE, classroom.PERIOD_MINUTES)
+    assert classroom.TABLE_SIZE == 6 and OPTIONS["spares"].default == classroom.SPARE_SHARE
+
+
+def test_a_value_study_plans_as_many_paints_as_greys():
+    assert Settings(value_study=7).validated().paints == 7
