@@ -1215,8 +1215,8 @@ def _step_sheets(plan: Plan, imgs, outlines, *, grid_mm: float, paper: Paper, no
         paints = []
         for pid in ids:
             recipe = plan.paint(pid).extra.get("recipe")
-            paints.append(StepPaint(pid, plan.paint(pid).srgb, _mix_words(recipe), WHO_MIXES[who_mixes(recipe)], count.get(pid, 0),
-                                    sum(1 for a in outline["areas"] if a["paint"] == pid)))
+            paints.append(StepPaint(pid, plan.paint(pid).srgb, _mix_words(recipe), WHO_MIXES[who_mixes(recipe)],
+                                    count.get(pid, 0), sum(1 for a in outline["areas"] if a["paint"] == pid)))
         svg, labelled = _step_map(plan, n, outline, scale=scale, grid_mm=grid_mm)
         anchor = f"step-{n:02d}"
         full = scale >= 1.0 - 1e-9
@@ -1275,7 +1275,8 @@ def classroom_sheets(plan: Plan, use: Mapping[str, Any], imgs, outlines, *, grid
     section = classroom_section(plan, use) or classroom_section(
         _with_settings(plan, students=1, spares=0.0), use)
     key = str(st.get("surface") or "")
-    label = SURFACES[key].label if key in SURFACES else f"{noun} of {w.wall_size(plan.wall_width_mm, plan.wall_height_mm, plan.wall_unit)}"
+    size = w.wall_size(plan.wall_width_mm, plan.wall_height_mm, plan.wall_unit)
+    label = SURFACES[key].label if key in SURFACES else f"{noun} of {size}"
     given = bool(st.get("students"))
     class_line = (f"{section['students']} students and {section['spares']} spare {noun}s "
                   f"({w.number(section['spare_share'] * 100, 0)} %): {section['sheets']} {noun}s in all"

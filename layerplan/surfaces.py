@@ -128,7 +128,7 @@ def with_classroom(settings):
     Raises
     ------
     layerplan.options.OptionError
-        A value study of 1 or 2 greys, or over :data:`MAX_VALUE_STEPS`.
+        A value study of 1 or 2 greys, or over :data:`MAX_VALUE_STEPS`; students without a surface.
     """
     from dataclasses import replace
 
@@ -149,6 +149,11 @@ def with_classroom(settings):
     n = settings.value_study
     if n and not 3 <= n <= MAX_VALUE_STEPS:
         raise OptionError("value_study", f"{{name}} must be 0 (none) or from 3 to {MAX_VALUE_STEPS} greys, got {n}")
+    if settings.students and not settings.surface:
+        # a class's figures are one sheet or board per student; a class painting one wall together is a wall plan
+        raise OptionError("students", "{name} plans one sheet or board per student: name the surface too (a4, a3, "
+                                      "letter, a board...), or leave the students out for a wall the class paints "
+                                      "together")
     if n:  # a value study's paints are its greys
         changes["paints"] = n
     return replace(settings, **changes) if changes else settings

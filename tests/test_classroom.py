@@ -272,3 +272,17 @@ def test_the_class_defaults_are_the_classroom_modules():
 
 def test_a_value_study_plans_as_many_paints_as_greys():
     assert Settings(value_study=7).validated().paints == 7
+
+
+def test_students_need_a_sheet_each(tmp_path, capsys):
+    from layerplan.cli import main
+
+    with pytest.raises(OptionError, match="students plans one sheet or board per student"):
+        Settings(students=25).validated()
+    photo = tmp_path / "coffee.png"
+    from PIL import Image
+
+    Image.fromarray(_photo()).save(photo)
+    assert main(["plan", str(photo), "--out", str(tmp_path / "never"), "--quiet", "--students", "25"]) == 2
+    assert capsys.readouterr().err.startswith("layerplan: error: --students plans one sheet or board")
+    assert not (tmp_path / "never").exists()
