@@ -445,7 +445,8 @@ def _settings_rows(plan: Plan, unit: str) -> tuple[tuple[str, str], ...]:
         rows.append(("paints", text))
     if "inventory" in st:
         inv = st.pop("inventory")
-        rows.append(("paints mixed from", "basic acrylic set (built in)" if inv is None else Path(str(inv)).name))
+        rows.append(("paints mixed from", "basic acrylic set (built in)" if inv is None else _built_in_set(inv)
+                     or Path(str(inv)).name))
     if free is not None:
         rows.append(("palette", "the photo's own colours" if free else "snapped to mixable colours"))
     mix, parts = st.pop("mix_paints", None), st.pop("max_parts", None)
@@ -478,6 +479,13 @@ def _settings_rows(plan: Plan, unit: str) -> tuple[tuple[str, str], ...]:
             value = w.number(value)
         rows.append((key.replace("_", " "), "automatic" if value is None else str(value)))
     return tuple(rows)
+
+
+def _built_in_set(path) -> str | None:
+    """The name of a built-in paint set given by its file (``--paint-set``), or None for the painter's own."""
+    from .surfaces import PAINT_SETS, paint_set_path
+
+    return next((f"{name} set (built in)" for name in PAINT_SETS if str(path) == paint_set_path(name)), None)
 
 
 def _cover(plan: Plan, imgs, title: str, use: dict[str, Any], unit: str) -> Cover:
@@ -1280,7 +1288,7 @@ def classroom_sheets(plan: Plan, use: Mapping[str, Any], imgs, outlines, *, grid
     given = bool(st.get("students"))
     class_line = (f"{section['students']} students and {section['spares']} spare {noun}s "
                   f"({w.number(section['spare_share'] * 100, 0)} %): {section['sheets']} {noun}s in all"
-                  if given else f"one {noun} (give the number of students for a class)")
+                  if given else f"one {noun}" + (" (give the number of students for a class)" if key else ""))
     tables = (f"{section['tables']} table{'s' if section['tables'] != 1 else ''} of up to {section['table_size']} "
               "(common practice): put out the amount per table in a lidded pot or a palette well per paint")
     inv = {e.get("name"): e.get("srgb") for e in (plan.extra.get("inventory") or []) if isinstance(e, Mapping)}

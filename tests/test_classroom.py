@@ -209,6 +209,7 @@ def test_a_classroom_plan_has_no_ladder_scaffold_or_roller(class_html):
     text = re.sub(r"<[^>]+>", " ", class_html)
     assert not re.search(r"ladder|scaffold|roller|lead paint", text, re.IGNORECASE)
     assert "ASTM D4236" in text and "No food or drink" in text and "school" in text
+    assert "classroom set (built in)" in text  # the paints it was mixed from, by the set's name
 
 
 def test_one_step_sheet_per_layer_full_size_when_it_fits(class_plan, class_html):

@@ -41,3 +41,11 @@ def test_a_bad_class_size_is_a_400_naming_the_field(client):
     assert r.status_code == 400
     body = r.get_json()
     assert body["field"] == "students" and "Students" in body["error"]
+
+
+def test_the_plan_list_says_the_sheet_and_the_class():
+    from layerplan.web.pages import plan_summary
+
+    facts = dict(plan_summary({"surface": "a3", "students": 25, "wall_width_mm": 420.0, "wall_height_mm": 297.0,
+                               "wall_unit": "mm", "brushes_mm": [25.0, 12.0, 6.0], "paints": 5})["facts"])
+    assert facts["Sheet or board"] == "A3 sheet (297 × 420 mm)" and facts["Students"] == "25"  # ISO 216 A3

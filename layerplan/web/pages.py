@@ -302,6 +302,7 @@ def plan_summary(settings: dict[str, Any]) -> dict[str, Any]:
         value, default = settings.get(key), getattr(_S, key)
         if isinstance(value, (int, float)) and value != default:
             facts.append((label, fmt.format(value)))
+    facts += _classroom_facts(settings)
     output = web.get("output") or {}
     shown = {"coverage_m2_per_litre": ("Coverage", "{:g} m²/L", quantities.COVERAGE_M2_PER_L),
              "ground_coats": ("Ground coats", "{:g}", quantities.GROUND_COATS),
@@ -314,6 +315,21 @@ def plan_summary(settings: dict[str, Any]) -> dict[str, Any]:
             facts.append((label, fmt.format(round(value, 6))))
     return {"surface": surface, "paints": settings.get("paints"), "brushes": brushes_text,
             "brush_count": len(brushes), "seed": settings.get("seed", 0), "facts": facts}
+
+
+def _classroom_facts(settings: dict[str, Any]) -> list[tuple[str, str]]:
+    """A classroom plan's sheet or board, class, value study and simple mixes, labelled as the start page labels them."""
+    facts = []
+    key = settings.get("surface")
+    if key in forms.CHOICE_LABELS:
+        facts.append((forms.LABELS["surface"], forms.CHOICE_LABELS[key]))
+    if settings.get("students"):
+        facts.append((forms.LABELS["students"], str(settings["students"])))
+    if settings.get("value_study"):
+        facts.append((forms.LABELS["value_study"], str(settings["value_study"])))
+    if settings.get("simple_mixes"):
+        facts.append((forms.LABELS["simple_mixes"], "yes"))
+    return facts
 
 
 def _width_text(width_mm, unit: str) -> str:
