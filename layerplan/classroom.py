@@ -159,8 +159,8 @@ def classroom_section(plan, use: Mapping[str, Any]) -> dict[str, Any] | None:
     students = st.get("students")
     if not students:
         return None
-    share = float(st.get("spares", SPARE_SHARE))
-    period = float(st.get("period_minutes", PERIOD_MINUTES))
+    share = float(SPARE_SHARE if st.get("spares") is None else st["spares"])
+    period = float(PERIOD_MINUTES if st.get("period_minutes") is None else st["period_minutes"])
     spares, sheets, tables = class_size(int(students), share)
 
     def ml(entry) -> float:
@@ -196,3 +196,31 @@ def classroom_section(plan, use: Mapping[str, Any]) -> dict[str, Any] | None:
     return {"students": int(students), "spares": spares, "spare_share": share, "sheets": sheets,
             "table_size": TABLE_SIZE, "tables": tables, "period_minutes": period,
             "paints": paints, "mixes": mixes, "periods": class_periods(steps, period)}
+
+
+#: the settings of a class that ``layerplan render`` may change without planning again
+CLASS_SETTINGS = ("students", "spares", "period_minutes")
+
+
+def with_class(plan, values: Mapping[str, Any]):
+    """The plan with its class changed (``students``, ``spares``, ``period_minutes``; None: unchanged).
+
+    The strokes stay as planned: only the class's figures follow. Returns a new Plan.
+
+    Raises
+    ------
+    layerplan.options.OptionError
+        A value out of its option's bounds, or students for a plan that is not of a sheet or board.
+    """
+    from dataclasses import replace
+
+    from .options import OPTIONS, OptionError
+
+    given = {k: OPTIONS[k].check(values[k]) for k in CLASS_SETTINGS if values.get(k) is not None}
+    if not given:
+        return plan
+    settings = {**(plan.extra.get("settings") or {}), **given}
+    if settings.get("students") and not settings.get("surface"):
+        raise OptionError("students", "{name}: this plan is of a wall, not of a sheet or board, so it has no "
+                                      "sheet per student; plan it again with a surface")
+    return replace(plan, extra={**plan.extra, "settings": settings})

@@ -32,6 +32,7 @@ from pathlib import Path
 from typing import Any, Callable, Iterable, Mapping
 
 from . import units
+from .classroom import PERIOD_MINUTES, SPARE_SHARE
 from .surfaces import MAX_VALUE_STEPS, PAINT_SETS, SIMPLE_MAX_PARTS, SURFACES
 from .settings import (DEFAULT_WALL_WIDTH_MM, FITS, HARD_MAX_RASTER_PX, MAX_BRUSHES, MAX_PAINTS, MAX_WALL_MM,
                        MIN_PAINTS, MIN_RASTER_SIDE_PX, Settings)
@@ -439,6 +440,8 @@ class Option:
 
 
 _MIX, _OUT = ("plan", "mix"), ("plan", "render")
+#: a class's options: set when planning, or changed when rendering (layerplan.classroom.with_class)
+_CLASS = ("plan", "render")
 #: the planning defaults are the library's own (a ``Settings()`` made with no arguments)
 _S = Settings()
 
@@ -507,15 +510,17 @@ OPTIONS: dict[str, Option] = {o.name: o for o in (
            "photo: small brushes, the classroom paint set and amounts in mL follow", "--surface",
            "Sheet or board", "surface", "surface", "planning", choices=tuple(SURFACES), metavar="NAME",
            default_text="none (the wall size)"),
+    # the class itself may change at render time too (`layerplan render --students 28`): no new strokes
     Option("students", "whole", None, "students painting the plan, one sheet each: the plan adds a preparation "
            "sheet, one step sheet per layer and a teacher's sheet", "--students", "Students", "students",
-           "students", "planning", minimum=1, maximum=MAX_STUDENTS, metavar="N", default_text="no class"),
-    Option("spares", "fraction", _S.spares, "spare sheets on top of one per student, for do-overs and "
-           "latecomers", "--spares", "Spare sheets", "spares", "spares", "planning", metavar="SHARE"),
-    Option("period_minutes", "number", _S.period_minutes, "length of a class period; the teacher's sheet "
+           "students", "planning", _CLASS, minimum=1, maximum=MAX_STUDENTS, metavar="N", default_text="no class"),
+    Option("spares", "fraction", None, "spare sheets on top of one per student, for do-overs and "
+           "latecomers", "--spares", "Spare sheets", "spares", "spares", "planning", _CLASS, metavar="SHARE",
+           default_text=f"{SPARE_SHARE * 100:g}%"),
+    Option("period_minutes", "number", None, "length of a class period; the teacher's sheet "
            "splits the layers into periods", "--period-minutes", "Class period (min)", "class period",
-           "period_minutes", "planning", minimum=MIN_PERIOD_MINUTES, maximum=MAX_PERIOD_MINUTES, unit="min",
-           metavar="MIN"),
+           "period_minutes", "planning", _CLASS, minimum=MIN_PERIOD_MINUTES, maximum=MAX_PERIOD_MINUTES,
+           unit="min", metavar="MIN", default_text=f"{PERIOD_MINUTES:g}"),
     Option("paint_set", "choice", None, "the built-in set to mix from when no inventory is given: classroom is a "
            "primary triad with black and white", "--paint-set", "Paint set", "paint set", "paint_set", "mixing",
            choices=tuple(PAINT_SETS), default_text="classroom on a sheet or board, else basic"),

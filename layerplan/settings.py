@@ -88,7 +88,8 @@ class Settings:
         0, or the number of greys (3–10) of a value study mixed from the set's black and white.
     students, spares, period_minutes
         A class: how many students paint it (None: no class), spare sheets as a share of
-        them, and the length of a class period in minutes (:mod:`layerplan.classroom`).
+        them, and the length of a class period in minutes (None: the defaults of
+        :mod:`layerplan.classroom`, 10 % and 45 minutes).
     """
 
     wall_width_mm: float = DEFAULT_WALL_WIDTH_MM
@@ -112,8 +113,8 @@ class Settings:
     simple_mixes: bool = False
     value_study: int = 0
     students: int | None = None
-    spares: float = 0.1
-    period_minutes: float = 45.0
+    spares: float | None = None  # None: layerplan.classroom.SPARE_SHARE
+    period_minutes: float | None = None  # None: layerplan.classroom.PERIOD_MINUTES
     extra: dict[str, Any] = field(default_factory=dict, compare=False)
 
     def validated(self) -> "Settings":

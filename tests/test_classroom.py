@@ -266,9 +266,11 @@ def test_what_the_teacher_mixes_beforehand_is_not_put_out_on_the_tables(value_pl
 
 def test_the_class_defaults_are_the_classroom_modules():
     # one source for each trade figure: tables of about six, 10 % spares, 45-minute periods (common practice)
-    s = Settings()
-    assert (s.spares, s.period_minutes) == (classroom.SPARE_SHARE, classroom.PERIOD_MINUTES)
-    assert classroom.TABLE_SIZE == 6 and OPTIONS["spares"].default == classroom.SPARE_SHARE
+    assert (classroom.SPARE_SHARE, classroom.PERIOD_MINUTES, classroom.TABLE_SIZE) == (0.1, 45.0, 6)
+    assert OPTIONS["spares"].parse(OPTIONS["spares"].default_words()) == classroom.SPARE_SHARE
+    assert OPTIONS["period_minutes"].parse(OPTIONS["period_minutes"].default_words()) == classroom.PERIOD_MINUTES
+    section = classroom.classroom_section(_plan_of(Settings(surface="a4", students=20)), _no_paint())
+    assert (section["spare_share"], section["period_minutes"], section["spares"]) == (0.1, 45.0, 2)
 
 
 def test_a_value_study_plans_as_many_paints_as_greys():
@@ -287,3 +289,49 @@ def test_students_need_a_sheet_each(tmp_path, capsys):
     assert main(["plan", str(photo), "--out", str(tmp_path / "never"), "--quiet", "--students", "25"]) == 2
     assert capsys.readouterr().err.startswith("layerplan: error: --students plans one sheet or board")
     assert not (tmp_path / "never").exists()
+
+
+def test_render_changes_the_class_and_keeps_the_strokes(class_plan, tmp_path, capsys):
+    import json
+
+    from layerplan.cli import main
+    from layerplan.export import write_outputs
+
+    write_outputs(class_plan, tmp_path / "plan")
+    src = tmp_path / "plan" / "plan.json"
+    assert main(["render", str(src), "--out", str(tmp_path / "again"), "--students", "30", "--spares", "0%"]) == 0
+    doc = json.loads((tmp_path / "again" / "plan.json").read_text())
+    before = json.loads(src.read_text())
+    assert (doc["classroom"]["students"], doc["classroom"]["sheets"]) == (30, 30)
+    assert doc["layers"] == before["layers"]  # the same strokes
+    assert "period_minutes" not in doc["settings"] and doc["classroom"]["period_minutes"] == 45.0  # not given
+    first = before["classroom"]["paints"][0]
+    again = doc["classroom"]["paints"][0]
+    assert again["total_ml"] == pytest.approx(first["per_student_ml"] * 30, abs=0.1)
+
+
+def test_render_refuses_a_class_for_a_wall(tmp_path, capsys):
+    from layerplan.cli import main
+    from layerplan.export import write_outputs
+    from layerplan.pipeline import make_plan
+
+    wall = make_plan(_photo(), Settings(wall_width_mm=800.0, brushes_mm=(80.0,), mm_per_px=20.0))
+    write_outputs(wall, tmp_path / "wall")
+    assert main(["render", str(tmp_path / "wall" / "plan.json"), "--out", str(tmp_path / "x"),
+                 "--students", "20"]) == 2
+    assert "--students: this plan is of a wall" in capsys.readouterr().err
+    assert not (tmp_path / "x").exists()
+
+
+def _plan_of(settings):
+    """A plan with no strokes made with ``settings`` (enough for a class's figures)."""
+    from layerplan.plan import Layer, Paint, Plan
+
+    st = settings.validated()
+    return Plan(wall_width_mm=st.wall_width_mm, wall_height_mm=st.wall_height_mm, width_px=10, height_px=10,
+                mm_per_px=st.wall_width_mm / 10, palette=[Paint(id="P1", srgb="#ffffff", lab=(100.0, 0.0, 0.0))],
+                ground="P1", layers=[Layer(brush_width_mm=25.0, strokes=[])], extra={"settings": st.to_dict()})
+
+
+def _no_paint():
+    return {"paints": [], "stock": [], "stroke_coats": 1}
