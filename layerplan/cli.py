@@ -169,6 +169,9 @@ def cmd_render(args) -> int:
     except ValueError as exc:
         raise UsageError(f"{src}: {exc}") from None
     options.check_grid(plan.wall_width_mm, plan.wall_height_mm, output.get("grid_mm"))
+    from .classroom import with_class  # a changed class: new figures, the same strokes
+
+    plan = with_class(plan, options.values_from_cli(args, "render"))
     write_outputs(plan, out, **output)
     print(f"outputs rebuilt in {out}/ ({plan.stroke_count()} strokes, {len(plan.palette)} paints)", file=sys.stderr)
     _print_warnings(plan_warnings(plan))  # what the plan said when it was made still holds

@@ -178,11 +178,15 @@ def _plan_document(x: ExportInputs) -> dict[str, bytes]:
     # (an existing paint_use section is replaced where it stands, a new one goes last); each
     # recipe carries its batch, the split of that paint's litres into stock paints
     from .batches import with_batches
+    from .classroom import classroom_section
 
-    # the schedule likewise: worked out once from the plan and its paint use, written beside them
+    # the schedule and a class's paint, tables and periods likewise: worked out once from the plan and its
+    # paint use, written beside the quantities they are worked from
+    section = classroom_section(x.plan, x.paint_use)
     written = dataclasses.replace(with_batches(x.plan, x.paint_use),
                                   extra={**x.plan.extra, "paint_use": dict(x.paint_use),
-                                         **({"schedule": dict(x.schedule)} if x.schedule is not None else {})})
+                                         **({"schedule": dict(x.schedule)} if x.schedule is not None else {}),
+                                         **({"classroom": section} if section else {})})
     return {"plan.json": written.to_json().encode("utf-8")}
 
 

@@ -32,6 +32,8 @@ from pathlib import Path
 from typing import Any, Callable, Iterable, Mapping
 
 from . import units
+from .classroom import PERIOD_MINUTES, SPARE_SHARE
+from .surfaces import MAX_VALUE_STEPS, PAINT_SETS, SIMPLE_MAX_PARTS, SURFACES
 from .settings import (DEFAULT_WALL_WIDTH_MM, FITS, HARD_MAX_RASTER_PX, MAX_BRUSHES, MAX_PAINTS, MAX_WALL_MM,
                        MIN_PAINTS, MIN_RASTER_SIDE_PX, Settings)
 
@@ -77,6 +79,9 @@ MAX_TEXT_CHARS = 200
 MAX_PATH_CHARS = 4096
 #: longest value a message repeats whole; longer ones are cut and measured (see :func:`shown`)
 SHOWN_CHARS = 40
+#: most students of one class plan (a year group painting together; our bound), and the shortest and
+#: longest class period we plan for, minutes (our bounds)
+MAX_STUDENTS, MIN_PERIOD_MINUTES, MAX_PERIOD_MINUTES = 500, 10.0, 240.0
 
 #: first and last line of the generated tables in README.md and layerplan/web/api.py
 TABLE_START = "<!-- options table: made by `python -m layerplan.options --write`; edit layerplan/options.py -->"
@@ -291,7 +296,8 @@ def _check_length(opt: "Option", value) -> float:
 
 
 def _read_choice(opt: "Option", text: str) -> str:
-    return _check_choice(opt, text.strip())
+    typed = text.strip()  # case is ignored (--surface A3, --paper A4), the value is the choice's own spelling
+    return _check_choice(opt, next((c for c in opt.choices if c.lower() == typed.lower()), typed))
 
 
 def _check_choice(opt: "Option", value) -> str:
@@ -688,6 +694,8 @@ class Option:
 
 
 _MIX, _OUT = ("plan", "mix"), ("plan", "render")
+#: a class's options: set when planning, or changed when rendering (layerplan.classroom.with_class)
+_CLASS = ("plan", "render")
 #: the planning defaults are the library's own (a ``Settings()`` made with no arguments)
 _S = Settings()
 
@@ -796,6 +804,33 @@ OPTIONS: dict[str, Option] = {o.name: o for o in (
     Option("panel_overlap", "length", PANEL_OVERLAP_MM, "overlap of neighbouring panels, to glue or trim",
            "--panel-overlap", "Panel overlap", "panel overlap", "panel_overlap_mm", "quantities", _OUT,
            target="output", unit="mm", metavar="LENGTH", default_text="5cm"),
+    # --- classroom: sheet and board surfaces, a class, a limited set, value studies (layerplan.surfaces,
+    # layerplan.classroom); a class's figures are planned with the plan, so they are settings
+    Option("surface", "choice", None, "a named sheet or board instead of a wall size, turned to follow the "
+           "photo: small brushes, the classroom paint set and amounts in mL follow", "--surface",
+           "Sheet or board", "surface", "surface", "planning", choices=tuple(SURFACES), metavar="NAME",
+           default_text="none (the wall size)"),
+    # the class itself may change at render time too (`layerplan render --students 28`): no new strokes
+    Option("students", "whole", None, "students painting the plan, one sheet each: the plan adds a preparation "
+           "sheet, one step sheet per layer and a teacher's sheet", "--students", "Students", "students",
+           "students", "planning", _CLASS, minimum=1, maximum=MAX_STUDENTS, metavar="N", default_text="no class"),
+    Option("spares", "fraction", None, "spare sheets on top of one per student, for do-overs and "
+           "latecomers", "--spares", "Spare sheets", "spares", "spares", "planning", _CLASS, metavar="SHARE",
+           default_text=f"{SPARE_SHARE * 100:g}%"),
+    Option("period_minutes", "number", None, "length of a class period; the teacher's sheet "
+           "splits the layers into periods", "--period-minutes", "Class period (min)", "class period",
+           "period_minutes", "planning", _CLASS, minimum=MIN_PERIOD_MINUTES, maximum=MAX_PERIOD_MINUTES,
+           unit="min", metavar="MIN", default_text=f"{PERIOD_MINUTES:g}"),
+    Option("paint_set", "choice", None, "the built-in set to mix from when no inventory is given: classroom is a "
+           "primary triad with black and white", "--paint-set", "Paint set", "paint set", "paint_set", "mixing",
+           choices=tuple(PAINT_SETS), default_text="classroom on a sheet or board, else basic"),
+    Option("simple_mixes", "switch", _S.simple_mixes, "plan only with stock paints and two-paint mixes "
+           f"students can make (at most {SIMPLE_MAX_PARTS} parts)", "--simple-mixes", "Only simple mixes",
+           "simple_mixes", "simple_mixes", "mixing"),
+    Option("value_study", "whole", _S.value_study, "paint in this many greys mixed from the set's black and "
+           "white, evenly spaced in lightness, with a value scale to paint first; 0 for colour",
+           "--value-study", "Value study (greys)", "value study", "value_study", "planning", minimum=0,
+           maximum=MAX_VALUE_STEPS, metavar="N"),
 )}
 
 GROUP_TITLES = {"planning": "planning", "mixing": "paints and mix recipes", "quantities": "quantities and printing"}

@@ -141,9 +141,16 @@ def make_plan(image: np.ndarray, settings: Settings, *, progress=None, runs: str
 
     report(0.03, "choosing paints")
     target_lab = srgb_to_lab(target)
-    pal_rgb, pal_lab = palette_from_image(target_lab, voting, settings.paints, seed=settings.seed)
-    report(0.045, "mixing recipes from the paints")
-    pal_rgb, pal_lab, recipes, inventory = mix_palette(pal_rgb, pal_lab, settings)
+    value_study = None
+    if settings.value_study:  # greys of the set's black and white, matched on lightness alone
+        from .value_study import mix_value_palette
+
+        pal_rgb, pal_lab, recipes, inventory, value_study = mix_value_palette(settings)
+        target_lab[..., 1:] = 0.0
+    else:
+        pal_rgb, pal_lab = palette_from_image(target_lab, voting, settings.paints, seed=settings.seed)
+        report(0.045, "mixing recipes from the paints")
+        pal_rgb, pal_lab, recipes, inventory = mix_palette(pal_rgb, pal_lab, settings)
 
     report(0.06, "measuring colour error")
     planes = error_planes(target_lab, pal_lab)
@@ -262,6 +269,7 @@ def make_plan(image: np.ndarray, settings: Settings, *, progress=None, runs: str
                                             **({"warnings": warned} if warned else {}),
                                             **({"openings": [o.to_dict() for o in openings]} if openings else {}),
                                             **({"wall_colour": {**wall, "nearest_paint": ids[wall["nearest_paint"]]}}
-                                               if wall is not None else {})})
+                                               if wall is not None else {}),
+                                            **({"value_study": value_study} if value_study else {})})
     report(1.0, "plan ready")
     return plan

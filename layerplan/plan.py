@@ -61,6 +61,25 @@ is already and what that means for the ground: ``{"lab", "nearest_paint", "delta
 "tolerance_de", "serves_as_ground", "ground_coats"}``. Both are absent on a plain wall, so
 its file is unchanged.
 
+Classroom plans (a named sheet or board, a class, a value study; :mod:`layerplan.classroom`) may carry
+two more optional top-level sections, absent otherwise::
+
+    "classroom": {"students": 25, "spares": 3, "spare_share": 0.1, "sheets": 28, "table_size": 6,
+                  "tables": 5, "period_minutes": 45.0,
+                  "paints": [{"paint": "White", "per_student_ml": 35.4, "total_ml": 991.2,
+                              "per_table_ml": 198.2}, ...],
+                  "mixes": [{"paint": "P2", "who": "teacher", "per_student_ml": 4.3, ...}, ...],
+                  "periods": [{"period": 1, "steps": [{"step": "layer 1", "minutes": 5.3}, ...],
+                               "minutes": 34.2}, ...]}
+    "value_study": {"steps": 5, "black": "Black", "white": "White",
+                    "greys": [{"paint": "P1", "target_l": 96.16, "l": 96.165,
+                               "parts": {"black": 0, "white": 1}}, ...]}
+
+``classroom.paints`` are the stock paints put out (by name), ``mixes`` the plan's paints (by id)
+with who mixes each (``stock``, ``students`` or ``teacher``); totals include the spare sheets.
+``classroom`` is written with ``paint_use`` (it is worked from it); ``value_study`` by the planner.
+A sheet's ``paint_use`` then has ``"scale": "ml"`` and each entry an ``ml`` amount and no containers.
+
 A `Plan` and its parts are frozen: stages and exporters read them and never write
 into them. A changed plan is a new one, made with :func:`dataclasses.replace`
 (``replace(plan, extra={**plan.extra, "source": ...})``).

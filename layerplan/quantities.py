@@ -414,6 +414,7 @@ def paint_use(
     ground_coats: int = GROUND_COATS,
     stroke_coats: int = STROKE_COATS,
     containers: Sequence[float] | Mapping[str, Sequence[float]] | None = None,
+    ml_scale: bool | None = None,
 ) -> dict[str, Any]:
     """How much of each paint the plan uses, and the stock paints and containers to buy.
 
@@ -433,6 +434,10 @@ def paint_use(
         from paint name (stock paint or palette id) to its list. Default: the sizes in
         ``plan.extra["inventory"]`` (entries ``{"name", "containers_l"}``) where given,
         else :data:`COMMON_CONTAINERS_L` (:data:`US_CONTAINERS_L` for walls in ft/in).
+    ml_scale : bool, optional
+        Millilitre amounts, measured out from bottles already in the room rather than bought:
+        every entry gets ``ml`` (to 0.1 mL), no containers and no trace flag. Default: on for
+        plans of a named sheet or board (``settings.surface`` in ``plan.extra``).
 
     Returns
     -------
@@ -472,6 +477,8 @@ def paint_use(
         raise ValueError(f"ground paint {plan.ground!r} is not in the palette")
     unit = plan.wall_unit
     us = unit in US_UNITS
+    if ml_scale is None:
+        ml_scale = bool((plan.extra.get("settings") or {}).get("surface"))
     default_sizes = US_CONTAINERS_L if us else COMMON_CONTAINERS_L
 
     stroke_m2 = np.zeros(len(plan.palette))
@@ -513,6 +520,8 @@ def paint_use(
         }
         if us:
             entry.update(_us(litres))
+        if ml_scale:
+            _measured(entry, litres)
         paints.append(entry)
         recipe = p.extra.get("recipe")
         if recipe and litres > 0:
@@ -538,9 +547,12 @@ def paint_use(
         elif s["containers"]:
             unpriced.append(name)
         s["trace"] = bool(0.0 < s["litres"] < TRACE_LITRES)
-        s["litres"] = round(s["litres"], 3)
+        litres = s["litres"]
+        s["litres"] = round(litres, 3)
         if us:
             s.update(_us(s["litres"]))
+        if ml_scale:
+            _measured(s, litres)
         stock_list.append(s)
     if len(currencies) > 1:
         raise ValueError(f"the inventory prices paints in more than one currency ({', '.join(sorted(currencies))})")
@@ -558,7 +570,15 @@ def paint_use(
         **cost,
         "ground_area_m2": round(ground_area, 4),
         **({"ground_note": note} if note else {}),
+        **({"scale": "ml"} if ml_scale else {}),
     }
+
+
+def _measured(entry: dict[str, Any], litres: float) -> None:
+    """A sheet's amount: millilitres measured out of bottles in the room, nothing to buy for it."""
+    entry["ml"] = round(litres * 1000.0, 1)
+    entry["containers"] = []
+    entry["trace"] = False
 
 
 def _recipe_parts(paint_id: str, recipe) -> list[tuple[str, float]]:

@@ -47,6 +47,8 @@ from .plan import Plan
 
 #: the printed plan's template, under :func:`layerplan.resources.template_dir`
 TEMPLATE = "sheets/plan.html"
+#: the printed plan of a sheet or board for a class (layerplan.sheets.ClassroomSheets)
+CLASSROOM_TEMPLATE = "sheets/classroom_plan.html"
 #: its style sheet, under :func:`layerplan.resources.static_dir`, inlined into every plan.html
 STYLESHEET = "sheet.css"
 
@@ -66,7 +68,8 @@ def render_sheets(sheets: Sheets) -> str:
     from markupsafe import Markup
 
     css = (static_dir() / STYLESHEET).read_text(encoding="utf-8")
-    return environment().get_template(TEMPLATE).render(sheets=sheets, css=Markup(css))
+    template = CLASSROOM_TEMPLATE if getattr(sheets, "classroom", None) is not None else TEMPLATE
+    return environment().get_template(template).render(sheets=sheets, css=Markup(css))
 
 
 def plan_html(

@@ -80,6 +80,22 @@ class Settings:
     wall_colour : str or None
         The colour the wall is already painted, ``#rrggbb`` or ``L,a,b`` (CIELAB); ``None``
         when not known (:mod:`layerplan.openings`, :func:`~layerplan.openings.wall_ground`).
+    surface : str or None
+        A named sheet or board (a key of :data:`layerplan.surfaces.SURFACES`): sets the size
+        (turned to follow the photo), small brushes unless others are given, the classroom
+        paint set unless an inventory is given, and millilitre amounts.
+    paint_set : {"basic", "classroom"} or None
+        The built-in set recipes are mixed from when no inventory is given; ``None``: the
+        classroom set on a sheet or board, the basic set otherwise.
+    simple_mixes : bool
+        Plan only with stock paints and two-paint mixes of at most
+        :data:`layerplan.surfaces.SIMPLE_MAX_PARTS` parts, which students mix themselves.
+    value_study : int
+        0, or the number of greys (3–10) of a value study mixed from the set's black and white.
+    students, spares, period_minutes
+        A class: how many students paint it (None: no class), spare sheets as a share of
+        them, and the length of a class period in minutes (None: the defaults of
+        :mod:`layerplan.classroom`, 10 % and 45 minutes).
     """
 
     wall_width_mm: float = DEFAULT_WALL_WIDTH_MM
@@ -99,6 +115,14 @@ class Settings:
     reach_mm: float = DEFAULT_REACH_MM
     openings: tuple[tuple[float, float, float, float], ...] = ()
     wall_colour: str | None = None
+    # --- classroom: sheet surfaces, a class, a limited set, value studies (layerplan.surfaces, .classroom)
+    surface: str | None = None
+    paint_set: str | None = None
+    simple_mixes: bool = False
+    value_study: int = 0
+    students: int | None = None
+    spares: float | None = None  # None: layerplan.classroom.SPARE_SHARE
+    period_minutes: float | None = None  # None: layerplan.classroom.PERIOD_MINUTES
     extra: dict[str, Any] = field(default_factory=dict, compare=False)
 
     def validated(self) -> "Settings":
@@ -114,8 +138,10 @@ class Settings:
         """
         from .options import OPTIONS, check_settings  # late: options imports this module
 
+        from .surfaces import with_classroom  # late: keeps this module free of the surface table
+
         check_settings(self)
-        return replace(self, brushes_mm=OPTIONS["brushes"].check(self.brushes_mm))
+        return with_classroom(replace(self, brushes_mm=OPTIONS["brushes"].check(self.brushes_mm)))
 
     def to_dict(self) -> dict[str, Any]:
         d = asdict(self)
@@ -126,8 +152,16 @@ class Settings:
             if not d[key]:
                 d.pop(key)
         extra = d.pop("extra")
+        # the classroom fields are written only when used, so a wall plan's file is as before
+        for key in _CLASSROOM_FIELDS:
+            if d[key] == getattr(Settings, key):
+                del d[key]
         d.update(extra)
         return d
+
+
+#: the classroom fields of :class:`Settings`, left out of :meth:`Settings.to_dict` at their defaults
+_CLASSROOM_FIELDS = ("surface", "paint_set", "simple_mixes", "value_study", "students", "spares", "period_minutes")
 
 
 def choose_mm_per_px(wall_width_mm: float, wall_height_mm: float, narrowest_brush_mm: float,
@@ -157,6 +191,10 @@ def working_raster(settings: Settings, image_shape) -> tuple[float, float, float
     h, w = image_shape[:2]
     wall_w = float(settings.wall_width_mm)
     wall_h = float(settings.wall_height_mm) if settings.wall_height_mm is not None else wall_w * h / w
+    if getattr(settings, "surface", None):  # a named sheet or board turns to follow the photo
+        from .surfaces import surface
+
+        wall_w, wall_h = surface(settings.surface).oriented(image_shape)
     s = settings.mm_per_px or choose_mm_per_px(wall_w, wall_h, min(settings.brushes_mm))
     width_px, height_px = raster_size(wall_w, wall_h, s)
     return wall_w, wall_h, s, width_px, height_px

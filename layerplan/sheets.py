@@ -340,6 +340,8 @@ class Sheets:
     layer_keys: tuple[tuple[int, Figure], ...] = ()
     #: the day-by-day sheet, when the plan was given a schedule
     schedule: ScheduleSheet | None = None
+    #: a class's sheets (preparation, value scale, periods, step sheets), for a sheet or board; None for a wall
+    classroom: "ClassroomSheets | None" = None
 
     def enlargements_of(self, n: int) -> tuple[Enlargement, ...]:
         """The enlargement sheets of layer ``n``, in print order."""
@@ -358,6 +360,13 @@ class Sheets:
 def wall_unit(plan: Plan) -> str:
     """The unit the wall was measured in (the one place the sheets read it)."""
     return plan.wall_unit
+
+
+def _built_in_set(path) -> str | None:
+    """The name of a built-in paint set given by its file (``--paint-set``), or None for the painter's own."""
+    from .surfaces import PAINT_SETS, paint_set_path
+
+    return next((f"{name} set (built in)" for name in PAINT_SETS if str(path) == paint_set_path(name)), None)
 
 
 def default_grid_mm(unit: str, *, shorter_side_mm: float | None = None) -> float:
@@ -474,7 +483,8 @@ def _settings_rows(plan: Plan, unit: str) -> tuple[tuple[str, str], ...]:
         rows.append(("paints", text))
     if "inventory" in st:
         inv = st.pop("inventory")
-        rows.append(("paints mixed from", "basic acrylic set (built in)" if inv is None else Path(str(inv)).name))
+        rows.append(("paints mixed from", "basic acrylic set (built in)" if inv is None else _built_in_set(inv)
+                     or Path(str(inv)).name))
     if free is not None:
         rows.append(("palette", "the photo's own colours" if free else "snapped to mixable colours"))
     mix, parts = st.pop("mix_paints", None), st.pop("max_parts", None)
@@ -1147,7 +1157,8 @@ def build_sheets(
     us = w.is_us(unit)
     if title is None:
         source = (plan.extra.get("source") or {}).get("image")
-        title = f"Wall painting plan — {Path(source).stem}" if source else "Wall painting plan"
+        kind = "Classroom painting plan" if is_classroom(plan) else "Wall painting plan"
+        title = f"{kind} — {Path(source).stem}" if source else kind
     changed = [float(np.mean(steps[n] != steps[n - 1])) for n in range(1, len(steps))]
     coats_by_layer = coat_notes(plan, minimum=use.get("stroke_coats", 1))
     if canvases is None:
@@ -1157,7 +1168,8 @@ def build_sheets(
     enlargements, notes, keys = [], [], []
     for n in range(1, len(plan.layers) + 1):
         more, note, key = _enlargements(plan, n, outlines[n - 1], labelled[n - 1], np.asarray(canvases[n - 1]),
-                                        grid_mm=grid_mm, unit=unit, paper=sheet, limit=enlargements_per_layer,
+                                        grid_mm=grid_mm, unit=unit, paper=sheet,
+                                        limit=0 if is_classroom(plan) else enlargements_per_layer,
                                         reserve_mm=reserve[n - 1])
         enlargements += more
         if note:
@@ -1184,6 +1196,8 @@ def build_sheets(
         enlargement_notes=tuple(notes),
         layer_keys=tuple(keys),
         schedule=None if schedule is None else schedule_sheet(schedule, unit),
+        classroom=classroom_sheets(plan, use, imgs, outlines, grid_mm=grid_mm, paper=sheet)
+        if is_classroom(plan) else None,
     )
 
 
@@ -1251,3 +1265,274 @@ def panel_sheets(plan: Plan, final: np.ndarray, panels, overlap_mm: float, *, gr
         sheets.append(PanelSheet(p.number, anchor, f"Panel {p.number} of {len(panels)}", facts, figure, small))
     title = str((plan.extra.get("source") or {}).get("image") or "Panels")
     return PanelDoc(f"{title} — panels", pap, lead, key, tuple(sheets))
+
+
+# --------------------------------------------------------------------------------- classroom
+#: paper height a step sheet keeps for its title, lead, paints, small picture and key, mm (our layout)
+STEP_HEADER_MM = 70.0
+#: width of the small "after this step" picture on a step sheet, mm (our layout)
+STEP_PICTURE_MM = 45.0
+#: width of a turned step sheet's side column (title, paints, picture, key), mm (our layout)
+STEP_SIDE_MM = 80.0
+#: who mixes a paint, in words (see :func:`layerplan.classroom.who_mixes`)
+WHO_MIXES = {"stock": "straight from the bottle", "students": "students mix it at the table",
+             "teacher": "mix beforehand for the whole class"}
+
+
+@dataclass(frozen=True)
+class ClassPaintRow:
+    """A stock paint or a mix on the preparation sheet: how much per table and for the class."""
+
+    id: str
+    srgb: str | None
+    mix: str  # a mix's recipe; for a stock paint, what of it goes into the teacher's mixes
+    who: str
+    per_student: str
+    per_table: str
+    total: str
+
+
+@dataclass(frozen=True)
+class ValueStepRow:
+    """One grey of a value scale: its paint id, colour, lightness and mix."""
+
+    id: str
+    srgb: str
+    lightness: str
+    mix: str
+
+
+@dataclass(frozen=True)
+class PeriodRow:
+    period: int
+    steps: str
+    minutes: str
+
+
+@dataclass(frozen=True)
+class StepPaint:
+    id: str
+    srgb: str
+    mix: str
+    who: str
+    strokes: int
+    areas: int
+
+
+@dataclass(frozen=True)
+class StepSheet:
+    """A student's sheet for one layer: that step's areas outlined and labelled, at the largest scale that fits."""
+
+    number: int
+    anchor: str
+    title: str
+    lead: str
+    scale: str
+    paints: tuple[StepPaint, ...]
+    picture: Figure
+    key: Figure
+    map: Figure
+    labelled: int
+    #: the page is turned (landscape), the map beside a side column
+    landscape: bool = False
+
+
+@dataclass(frozen=True)
+class ClassroomSheets:
+    """The printed plan of a sheet or board for a class (:func:`classroom_sheets`); plan.html lays it out
+    with ``templates/sheets/classroom_plan.html`` in place of the wall's shopping, brush, grid and layer sheets."""
+
+    noun: str
+    surface: str
+    class_line: str
+    tables: str
+    stock: tuple[ClassPaintRow, ...]
+    mixes: tuple[ClassPaintRow, ...]
+    value_scale: tuple[ValueStepRow, ...]
+    value_note: str
+    periods: tuple[PeriodRow, ...]
+    timing: str
+    steps: tuple[StepSheet, ...]
+
+
+def is_classroom(plan: Plan) -> bool:
+    """Whether a plan is printed for a class: a named sheet or board, a number of students, or a value study."""
+    st = plan.extra.get("settings") or {}
+    return bool(st.get("surface") or st.get("students") or st.get("value_study"))
+
+
+def _mix_words(recipe: Mapping[str, Any] | None) -> str:
+    if not recipe:
+        return "mix by eye to the swatch"
+    parts = recipe.get("parts") or []
+    if len(parts) == 1:
+        return str(parts[0]["paint"])
+    return " + ".join(f"{w.number(p['parts'])} {p['paint']}" for p in parts)
+
+
+def _step_map(plan: Plan, n: int, outline: dict[str, Any], *, scale: float, grid_mm: float) -> tuple[Markup, int]:
+    """Layer ``n``'s outline map of the whole surface at ``scale`` (paper mm per surface mm), every area labelled."""
+    areas = outline["areas"]
+    box = (0.0, 0.0, float(plan.wall_width_mm), float(plan.wall_height_mm))
+    font = ENLARGEMENT_LABEL_MM / scale
+    order = sorted(range(len(areas)), key=lambda i: -areas[i]["area_mm2"])
+    items = []
+    for i in order:
+        a = areas[i]
+        hw, hh = 0.5 * LABEL_EM_PER_CHAR * font * len(str(a["paint"])), 0.5 * font
+        items.append({"x": a["label_mm"][0], "y": a["label_mm"][1], "half_w": hw, "half_h": hh,
+                      "fits": a["label_room_mm"] >= 0.6 * font and a["area_mm2"] >= 4 * hw * hh})
+    placed = place_labels_around(items, bounds=box, fixed=square_name_boxes(box, grid_mm, scale))
+    labels = [{"area": i, "x": p["x"], "y": p["y"], "moved": p["moved"], "font_mm": font,
+               "half_w_mm": it["half_w"], "half_h_mm": it["half_h"]} for i, it, p in zip(order, items, placed)]
+    svg = _svg(enlargement_svg(plan, outline, box_mm=box, paper_per_wall=scale, grid_mm=grid_mm, labels=labels,
+                               bounds=area_bounds(outline)), f"step-{n:02d}")
+    return svg, len(labels)
+
+
+def step_layout(plan: Plan, paper: Paper) -> tuple[float, bool]:
+    """(scale, landscape) of a step sheet: paper mm per surface mm of its map, and whether the page is turned.
+
+    The map is full size (1) when the surface fits the paper upright under the sheet's header, or turned
+    (landscape) beside a side column of :data:`STEP_SIDE_MM`; else the largest scale either way allows.
+    """
+    upright = min(1.0, paper.print_w_mm / plan.wall_width_mm,
+                  (paper.print_h_mm - STEP_HEADER_MM) / plan.wall_height_mm)
+    turned = min(1.0, (paper.print_h_mm - STEP_SIDE_MM) / plan.wall_width_mm, paper.print_w_mm / plan.wall_height_mm)
+    return (turned, True) if turned > upright + 1e-9 else (upright, False)
+
+
+def step_scale(plan: Plan, paper: Paper) -> float:
+    """Paper mm per surface mm of a step sheet's map (:func:`step_layout`)."""
+    return step_layout(plan, paper)[0]
+
+
+def _step_sheets(plan: Plan, imgs, outlines, *, grid_mm: float, paper: Paper, noun: str) -> tuple[StepSheet, ...]:
+    from .classroom import who_mixes
+
+    scale, landscape = step_layout(plan, paper)
+    key_w = STEP_SIDE_MM - 4.0 if landscape else paper.print_w_mm
+    order_ix = plan.paint_index()
+    out = []
+    for n, (layer, outline) in enumerate(zip(plan.layers, outlines), start=1):
+        count: dict[str, int] = {}
+        for s in layer.strokes:
+            count[s.paint] = count.get(s.paint, 0) + 1
+        ids = sorted(set(count) | {a["paint"] for a in outline["areas"]}, key=order_ix.get)
+        paints = []
+        for pid in ids:
+            recipe = plan.paint(pid).extra.get("recipe")
+            paints.append(StepPaint(pid, plan.paint(pid).srgb, _mix_words(recipe), WHO_MIXES[who_mixes(recipe)],
+                                    count.get(pid, 0), sum(1 for a in outline["areas"] if a["paint"] == pid)))
+        svg, labelled = _step_map(plan, n, outline, scale=scale, grid_mm=grid_mm)
+        anchor = f"step-{n:02d}"
+        full = scale >= 1.0 - 1e-9
+        scale_words = "full size (1:1): lay it under a thin sheet or trace it across" if full else (
+            f"scale {_scale_text(scale)}, the largest that fits this paper "
+            f"({w.paper_scale(1.0 / scale, plan.wall_unit).replace('wall', noun)})")
+        brush = w.brush(layer.brush_width_mm, w.is_us(plan.wall_unit))
+        lead = (f"With the {brush} brush, paint each outlined area in the paint written in it. Areas left blank "
+                + ("keep the ground." if n == 1 else f"keep what step {n - 1} painted.")
+                + " Let this step dry before the next.") if layer.strokes else "Nothing to paint in this step."
+        paints_key = [pid for pid in ids if any(a["paint"] == pid for a in outline["areas"])]
+        key = Figure(key_w, "", svg=_svg(paint_key_svg(plan, paints_key, width_mm=key_w),
+                                                    f"{anchor}-key")) if paints_key else Figure(0.0)
+        picture = Figure(STEP_PICTURE_MM, f"Your {noun} after step {n}.", png_uri(imgs[f"steps/{n:02d}"]),
+                         f"the {noun} after step {n}")
+        caption = (f"Step {n}'s areas, outlined and hatched per paint (key above), each labelled with its paint id; "
+                   "a dot and a thin line lead from a small area to its label. Short lines show which way the "
+                   "strokes run.")
+        out.append(StepSheet(n, anchor, f"Step {n} of {len(plan.layers)} — {brush} brush", lead, scale_words,
+                             tuple(paints), picture, key, Figure(plan.wall_width_mm * scale, caption, svg=svg),
+                             labelled, landscape))
+    return tuple(out)
+
+
+def classroom_sheets(plan: Plan, use: Mapping[str, Any], imgs, outlines, *, grid_mm: float,
+                     paper: Paper) -> ClassroomSheets:
+    """The classroom sheets of a plan: preparation, value scale, teacher's periods, one step sheet per layer.
+
+    Parameters
+    ----------
+    plan : Plan
+    use : mapping
+        Its paint use (:func:`layerplan.quantities.paint_use`): one sheet's amounts.
+    imgs : mapping
+        PNG pictures, ``"steps/NN"`` for each layer.
+    outlines : list of dict
+        Each layer's outline map (:func:`layerplan.outlines.outline_maps`).
+    grid_mm : float
+    paper : Paper
+
+    Returns
+    -------
+    ClassroomSheets
+        Without ``settings.students`` the class figures are for one student and no spares.
+
+    References
+    ----------
+    ISO 216 (A sizes); ANSI/ASME Y14.1 (Letter, Tabloid); see :mod:`layerplan.classroom` for the figures.
+    """
+    from .classroom import classroom_section
+    from .surfaces import SURFACES, noun as surface_noun
+
+    st = plan.extra.get("settings") or {}
+    noun = surface_noun(st)
+    us = w.is_us(plan.wall_unit)
+    section = classroom_section(plan, use) or classroom_section(
+        _with_settings(plan, students=1, spares=0.0), use)
+    key = str(st.get("surface") or "")
+    size = w.wall_size(plan.wall_width_mm, plan.wall_height_mm, plan.wall_unit)
+    label = SURFACES[key].label if key in SURFACES else f"{noun} of {size}"
+    given = bool(st.get("students"))
+    class_line = (f"{section['students']} students and {section['spares']} spare {noun}s "
+                  f"({w.number(section['spare_share'] * 100, 0)} %): {section['sheets']} {noun}s in all"
+                  if given else f"one {noun}" + (" (give the number of students for a class)" if key else ""))
+    tables = (f"{section['tables']} table{'s' if section['tables'] != 1 else ''} of up to {section['table_size']} "
+              "(common practice): put out the amount per table in a lidded pot or a palette well per paint")
+    inv = {e.get("name"): e.get("srgb") for e in (plan.extra.get("inventory") or []) if isinstance(e, Mapping)}
+    stock = tuple(ClassPaintRow(r["paint"], inv.get(r["paint"]), w.millilitres(r.get("premix_ml", 0.0), us)
+                                if r.get("premix_ml") else "—", "", w.millilitres(r["per_student_ml"], us),
+                                w.millilitres(r["per_table_ml"], us) if r["per_table_ml"] else "—",
+                                w.millilitres(r["total_ml"], us))
+                  for r in section["paints"])
+    mixes = []
+    for r in section["mixes"]:
+        p = plan.paint(r["paint"])
+        mixes.append(ClassPaintRow(r["paint"], p.srgb, _mix_words(p.extra.get("recipe")), WHO_MIXES[r["who"]],
+                                   w.millilitres(r["per_student_ml"], us), w.millilitres(r["per_table_ml"], us),
+                                   w.millilitres(r["total_ml"], us)))
+    vs = plan.extra.get("value_study") or {}
+    value_rows = tuple(ValueStepRow(g["paint"], plan.paint(g["paint"]).srgb, f"L* {w.number(g['l'], 1)}",
+                                    (f"{g['parts']['black']} {vs.get('black', 'black')} + "
+                                     f"{g['parts']['white']} {vs.get('white', 'white')}"
+                                     if g["parts"]["black"] and g["parts"]["white"] else
+                                     vs.get("black", "black") if g["parts"]["black"] else vs.get("white", "white")))
+                       for g in vs.get("greys") or [] if g.get("paint") in plan.paint_index())
+    value_note = ""
+    if value_rows:
+        steps_l = [g["l"] for g in vs["greys"]]
+        gap = (steps_l[0] - steps_l[-1]) / max(1, len(steps_l) - 1)
+        value_note = (f"{len(value_rows)} greys from {vs.get('white')} to {vs.get('black')}, about {w.number(gap, 1)} "
+                      "apart in lightness (CIELAB L*), mixed in the parts given (from the paint model: black is "
+                      "strong, so the light greys need only a touch of it). Paint each box of the strip below in "
+                      "its grey, lightest first, before the picture.")
+    periods = tuple(PeriodRow(p["period"], "; ".join(
+        f"{s['step']}{' (continued)' if s.get('continued') else ''}" + ("" if s["step"] == "drying" else
+                                                                         f" {w.number(s['minutes'], 0)} min")
+        if s["step"] != "drying" else f"let it dry {w.number(s['minutes'], 0)} min" for s in p["steps"]),
+        w.duration(p["minutes"] * 60)) for p in section["periods"])
+    from .classroom import CLASS_PAINT_CHANGE_SECONDS, CLASS_SECONDS_PER_STROKE, DRYING_MINUTES, SETUP_MINUTES
+
+    timing = (f"Periods of {w.number(section['period_minutes'], 0)} min, {w.number(SETUP_MINUTES, 0)} min of each "
+              "going to setting out and clearing away. A rough guide (from memory; time your own class): about "
+              f"{w.number(CLASS_SECONDS_PER_STROKE, 0)} s per stroke and {w.number(CLASS_PAINT_CHANGE_SECONDS, 0)} s "
+              f"to rinse and reload at each change of paint; a layer needs about {w.number(DRYING_MINUTES, 0)} min "
+              f"to dry before the next (longer in a cold or damp room), or dries between periods.")
+    return ClassroomSheets(noun, label, class_line, tables, stock, tuple(mixes), value_rows, value_note, periods,
+                           timing, _step_sheets(plan, imgs, outlines, grid_mm=grid_mm, paper=paper, noun=noun))
+
+
+def _with_settings(plan: Plan, **settings) -> Plan:
+    """The plan with some of its recorded settings changed (a new Plan; the given one is untouched)."""
+    return replace(plan, extra={**plan.extra, "settings": {**(plan.extra.get("settings") or {}), **settings}})

@@ -125,10 +125,29 @@ def volume(litres: float, us: bool, *, used: bool = False) -> str:
     return text
 
 
+def millilitres(ml: float, us: bool = False) -> str:
+    """A measured-out amount for sheets and classes: "3.5 mL", "40 mL", "1.25 L" from a litre up (never
+    a container); "under 0.5 mL" for a touch; US fluid ounces beside when ``us``."""
+    ml = float(ml)
+    if ml >= 1000.0:
+        text = f"{number(ml / 1000.0, 2)} L"
+    elif ml <= 0:
+        text = "0 mL"
+    elif ml < 0.5:
+        text = "under 0.5 mL"
+    else:
+        text = f"{number(ml, 1 if ml < 10 else 0)} mL"
+    if us and ml > 0:
+        text += f" ({number(ml / 1000.0 / LITRES_PER_US_GALLON * US_FL_OZ_PER_GALLON, 1)} fl oz)"
+    return text
+
+
 def amount(entry: Mapping[str, Any], us: bool) -> str:
     """The volume of a paint or stock entry of :func:`layerplan.quantities.paint_use`; an entry that is
     used at all (strokes, ground, a recipe) never reads "0 L"."""
     used = bool(entry.get("trace") or entry.get("for") or entry.get("strokes") or entry.get("ground_area_m2"))
+    if "ml" in entry:  # a sheet's amount, measured out rather than bought
+        return millilitres(entry["ml"], us) if entry["ml"] or not used else "under 0.5 mL"
     return volume(entry["litres"], us, used=used)
 
 
@@ -168,6 +187,8 @@ def containers(items: Iterable[Mapping[str, Any]], us: bool, *, trace: bool = Fa
 
 def buy(entry: Mapping[str, Any], us: bool) -> str:
     """What to buy for a paint or stock entry of :func:`layerplan.quantities.paint_use`."""
+    if "ml" in entry:  # a sheet's amount: measured out of bottles in the room, never a new tin
+        return "measure out from the bottles you have"
     return containers(entry.get("containers") or [], us, trace=is_trace(entry))
 
 

@@ -713,7 +713,10 @@ BAD_TEXT = {"paints": "1", "brushes": "50,50", "pixel_mm": "0", "seed": "-1", "s
             "wall": "0x1m", "reach": "0m", "paper": "b5", "enlargements": "-1",
             "crew": "0", "day_hours": "25", "drying": "-1", "labour_rate": "-5",
             # the real wall: an opening past the 80 cm wall's edge, a colour that is none, a panel size of one side
-            "openings": "2,0,1,1m", "wall_colour": "#12345g", "panels": "0.5m", "panel_overlap": "0cm"}
+            "openings": "2,0,1,1m", "wall_colour": "#12345g", "panels": "0.5m", "panel_overlap": "0cm",
+            # the classroom options
+            "surface": "a5", "students": "0", "spares": "15", "period_minutes": "5", "paint_set": "oils",
+            "simple_mixes": "maybe", "value_study": "2"}
 
 
 @pytest.mark.parametrize("name", sorted(BAD_TEXT))

@@ -29,64 +29,84 @@ absent field takes the default). Shares are ``15%`` or ``0.15``; lengths carry a
 numbers are mm):
 
 <!-- options table: made by `python -m layerplan.options --write`; edit layerplan/options.py -->
-``wall``           size of the painted surface; WxH with a unit (m, cm, mm, ft, in): 4x2.5m, 12x8ft; or the
-                   width alone (``--wall``, default 3 m wide, height from the photo)
-``fit``            cover fills the surface and crops the overhang; contain fits the whole photo inside and
-                   pads with the ground paint; cover or contain (``--fit``, default cover)
-``paints``         number of paints; whole number from 2 to 32 (``--paints``, default 8)
-``brushes``        brush widths, one layer each, widest first; widths in mm, comma-separated, or with units
-                   (4in, 2in); at most 8, each from 1 to 1000 mm (``--brushes``, default 100,50,25,12)
-``pixel_mm``       wall size of one working pixel; > 0 mm (``--pixel-mm``, default the narrowest brush spans 3
-                   px, at most 2 megapixels)
-``seed``           seed for every random choice: same inputs and seed, same plan; whole number from 0 to
-                   4294967295 (``--seed``, default 0)
-``stroke_cost``    colour error (ΔE00 per brush-width square) a stroke must remove to be painted; lower for
-                   more detail, higher for fewer strokes; from 0 to 1000 (``--stroke-cost``, default 5.5)
-``reach``          side of a work zone, what you paint from one ladder or lift position: each paint's strokes
-                   are ordered zone by zone, top of the wall first; a length with a unit: 50cm, 2ft, 1/2m
-                   (plain numbers are mm); from 100 mm to 100 m (``--reach``, default 2m)
-``free_palette``   keep the photo's own colours instead of the colours the recipes will mix to; on or off
-                   (``--free-palette``, default off)
-``mix_paints``     most inventory paints in one mix; whole number from 1 to 4 (``--mix-paints``, default 3)
-``max_parts``      whole parts of a mix add up to at most this; whole number from 1 to 30 (``--max-parts``,
-                   default 10)
-``tolerance``      a colour counts as mixable within this CIEDE2000; from 0 to 100 (``--tolerance``, default
-                   3)
-``coverage``       spreading rate of one coat (check your tins); from 0.5 to 100 m²/L (``--coverage``, default
-                   10)
-``ground_coats``   coats of the ground; whole number from 0 to 10 (``--ground-coats``, default 2)
-``stroke_coats``   least coats of any stroke; light over dark, and bright reds and yellows, get more by
-                   themselves; whole number from 1 to 10 (``--stroke-coats``, default 1)
-``waste``          extra paint to buy for spills and touch-ups; 0.15 or 15% (a fraction or a percentage)
-                   (``--waste``, default 15%)
-``grid``           transfer-grid square, drawn on the print and the overlay; a length with a unit: 50cm, 2ft,
-                   1/2m (plain numbers are mm); from 1 mm to 100 m (``--grid``, default 50cm, or 2ft for walls
-                   in ft or in; 10cm or 4in on small boards; at most 200 squares along the longest side)
-``paper``          paper the printed plan is laid out for; a4 and letter give sheets that print on either, as
-                   do a3 and tabloid (bigger enlargements, fewer sheets); a4 or letter or a3 or tabloid
-                   (``--paper``, default a4)
-``enlargements``   most enlargement sheets of one layer in the printed plan (the squares with the most areas
-                   are kept); 0 for none; whole number from 0 to 400 (``--enlargements``, default 24)
-``crew``           painters sharing the work; each takes whole columns of work zones, so no two share a ladder
-                   (the schedule sheet says who paints where); whole number from 1 to 50 (``--crew``, default
-                   1)
-``day_hours``      painting hours a painter puts in a day at the wall; > 0 and at most 24 h (``--day-hours``,
-                   default 6)
-``drying``         hours each ground coat and layer dries before the next goes on (acrylics: 2-4 h at 20 °C,
-                   longer when cold or damp); from 0 to 336 h (``--drying-hours``, default 4)
-``labour_rate``    pay for one painter-hour at the wall, in the inventory's currency: the schedule adds the
-                   labour cost; >= 0 (``--labour-rate``, default none)
-``openings``       a window, door or vent: the rectangle's top-left corner from the wall's top-left, then its
-                   width and height; not painted, not charged for; X,Y,W,H with a unit: 1.0,1.2,0.9,1.8m
-                   (repeat the flag; in the form one a line) (``--opening``, default none)
-``wall_colour``    the colour the wall is painted already: when a paint of the plan matches it, that paint's
-                   ground coats are not bought; #rrggbb, or CIELAB L,a,b (``--wall-colour``, default not
-                   known)
-``panels``         split the design into numbered panels or cloth strips of this size, painted off the wall:
-                   panels.html gives each its sheet and a key map; W,H with a unit: 1.5,1.2m (``--panels``,
-                   default none (painted on the wall))
-``panel_overlap``  overlap of neighbouring panels, to glue or trim; a length with a unit: 50cm, 2ft, 1/2m
-                   (plain numbers are mm) (``--panel-overlap``, default 5cm)
+``wall``            size of the painted surface; WxH with a unit (m, cm, mm, ft, in): 4x2.5m, 12x8ft; or the
+                    width alone (``--wall``, default 3 m wide, height from the photo)
+``fit``             cover fills the surface and crops the overhang; contain fits the whole photo inside and
+                    pads with the ground paint; cover or contain (``--fit``, default cover)
+``paints``          number of paints; whole number from 2 to 32 (``--paints``, default 8)
+``brushes``         brush widths, one layer each, widest first; widths in mm, comma-separated, or with units
+                    (4in, 2in); at most 8, each from 1 to 1000 mm (``--brushes``, default 100,50,25,12)
+``pixel_mm``        wall size of one working pixel; > 0 mm (``--pixel-mm``, default the narrowest brush spans
+                    3 px, at most 2 megapixels)
+``seed``            seed for every random choice: same inputs and seed, same plan; whole number from 0 to
+                    4294967295 (``--seed``, default 0)
+``stroke_cost``     colour error (ΔE00 per brush-width square) a stroke must remove to be painted; lower for
+                    more detail, higher for fewer strokes; from 0 to 1000 (``--stroke-cost``, default 5.5)
+``reach``           side of a work zone, what you paint from one ladder or lift position: each paint's strokes
+                    are ordered zone by zone, top of the wall first; a length with a unit: 50cm, 2ft, 1/2m
+                    (plain numbers are mm); from 100 mm to 100 m (``--reach``, default 2m)
+``free_palette``    keep the photo's own colours instead of the colours the recipes will mix to; on or off
+                    (``--free-palette``, default off)
+``mix_paints``      most inventory paints in one mix; whole number from 1 to 4 (``--mix-paints``, default 3)
+``max_parts``       whole parts of a mix add up to at most this; whole number from 1 to 30 (``--max-parts``,
+                    default 10)
+``tolerance``       a colour counts as mixable within this CIEDE2000; from 0 to 100 (``--tolerance``, default
+                    3)
+``coverage``        spreading rate of one coat (check your tins); from 0.5 to 100 m²/L (``--coverage``,
+                    default 10)
+``ground_coats``    coats of the ground; whole number from 0 to 10 (``--ground-coats``, default 2)
+``stroke_coats``    least coats of any stroke; light over dark, and bright reds and yellows, get more by
+                    themselves; whole number from 1 to 10 (``--stroke-coats``, default 1)
+``waste``           extra paint to buy for spills and touch-ups; 0.15 or 15% (a fraction or a percentage)
+                    (``--waste``, default 15%)
+``grid``            transfer-grid square, drawn on the print and the overlay; a length with a unit: 50cm, 2ft,
+                    1/2m (plain numbers are mm); from 1 mm to 100 m (``--grid``, default 50cm, or 2ft for
+                    walls in ft or in; 10cm or 4in on small boards; at most 200 squares along the longest
+                    side)
+``paper``           paper the printed plan is laid out for; a4 and letter give sheets that print on either, as
+                    do a3 and tabloid (bigger enlargements, fewer sheets); a4 or letter or a3 or tabloid
+                    (``--paper``, default a4)
+``enlargements``    most enlargement sheets of one layer in the printed plan (the squares with the most areas
+                    are kept); 0 for none; whole number from 0 to 400 (``--enlargements``, default 24)
+``crew``            painters sharing the work; each takes whole columns of work zones, so no two share a
+                    ladder (the schedule sheet says who paints where); whole number from 1 to 50 (``--crew``,
+                    default 1)
+``day_hours``       painting hours a painter puts in a day at the wall; > 0 and at most 24 h (``--day-hours``,
+                    default 6)
+``drying``          hours each ground coat and layer dries before the next goes on (acrylics: 2-4 h at 20 °C,
+                    longer when cold or damp); from 0 to 336 h (``--drying-hours``, default 4)
+``labour_rate``     pay for one painter-hour at the wall, in the inventory's currency: the schedule adds the
+                    labour cost; >= 0 (``--labour-rate``, default none)
+``openings``        a window, door or vent: the rectangle's top-left corner from the wall's top-left, then its
+                    width and height; not painted, not charged for; X,Y,W,H with a unit: 1.0,1.2,0.9,1.8m
+                    (repeat the flag; in the form one a line) (``--opening``, default none)
+``wall_colour``     the colour the wall is painted already: when a paint of the plan matches it, that paint's
+                    ground coats are not bought; #rrggbb, or CIELAB L,a,b (``--wall-colour``, default not
+                    known)
+``panels``          split the design into numbered panels or cloth strips of this size, painted off the wall:
+                    panels.html gives each its sheet and a key map; W,H with a unit: 1.5,1.2m (``--panels``,
+                    default none (painted on the wall))
+``panel_overlap``   overlap of neighbouring panels, to glue or trim; a length with a unit: 50cm, 2ft, 1/2m
+                    (plain numbers are mm) (``--panel-overlap``, default 5cm)
+``surface``         a named sheet or board instead of a wall size, turned to follow the photo: small brushes,
+                    the classroom paint set and amounts in mL follow; a4 or a3 or a2 or letter or tabloid or
+                    board-8x10in or board-9x12in or board-11x14in or board-24x30cm or board-30x40cm
+                    (``--surface``, default none (the wall size))
+``students``        students painting the plan, one sheet each: the plan adds a preparation sheet, one step
+                    sheet per layer and a teacher's sheet; whole number from 1 to 500 (``--students``, default
+                    no class)
+``spares``          spare sheets on top of one per student, for do-overs and latecomers; 0.15 or 15% (a
+                    fraction or a percentage) (``--spares``, default 10%)
+``period_minutes``  length of a class period; the teacher's sheet splits the layers into periods; from 10 to
+                    240 min (``--period-minutes``, default 45)
+``paint_set``       the built-in set to mix from when no inventory is given: classroom is a primary triad with
+                    black and white; basic or classroom (``--paint-set``, default classroom on a sheet or
+                    board, else basic)
+``simple_mixes``    plan only with stock paints and two-paint mixes students can make (at most 4 parts); on or
+                    off (``--simple-mixes``, default off)
+``value_study``     paint in this many greys mixed from the set's black and white, evenly spaced in lightness,
+                    with a value scale to paint first; 0 for colour; whole number from 0 to 10
+                    (``--value-study``, default 0)
 <!-- end of options table -->
 
 Errors are ``{"error": "<message>"}`` with 400, 403, 404, 405, 413, 415, 429 (too many plans

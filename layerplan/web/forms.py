@@ -22,7 +22,8 @@ from layerplan.load import ACCEPTED_FORMATS, DEFAULT_MAX_PIXELS, ImageError, loa
 from layerplan.options import OPTIONS, OptionError
 # the start page reads these limits from here (layerplan/web/pages.py)
 from layerplan.options import MAX_MIX_PAINTS, MAX_PARTS, MAX_SEED, MAX_TOLERANCE_DE  # noqa: F401
-from layerplan.settings import DEFAULT_BRUSHES_MM, Settings
+from layerplan.settings import DEFAULT_BRUSHES_MM, DEFAULT_WALL_WIDTH_MM, Settings
+from layerplan.surfaces import SURFACES
 
 #: brush kits offered on the start page: our own names, widths in mm, widest first.
 #: Widths follow common flat-brush sizes for wall work (4", 2", 1", 1/2" ≈ 100, 50, 25, 12 mm;
@@ -45,6 +46,15 @@ LABELS: dict[str, str] = {
 }
 #: form field -> the export option it sets (layerplan.export.write_outputs)
 OUTPUT_FIELDS = {o.field: o.setting for o in options.form_options("output")}
+#: the classroom options the start page offers with the surface (made from the option spec), their
+#: defaults as the form holds them, and our labels for their choices
+CLASSROOM_OPTIONS = tuple(o for o in options.form_options() if o.name in (
+    "surface", "students", "spares", "period_minutes", "paint_set", "simple_mixes", "value_study"))
+CLASSROOM_DEFAULTS = {o.field: options.form_defaults()[o.field] for o in CLASSROOM_OPTIONS}
+CHOICE_LABELS: dict[str, str] = {
+    **{key: s.label for key, s in SURFACES.items()},
+    "basic": "Basic acrylic set", "classroom": "Classroom set (red, yellow, blue, black, white)",
+}
 
 
 def size_text(n_bytes: int) -> str:
@@ -370,6 +380,8 @@ def _wall(form) -> tuple[float, float | None, str]:
         raise RequestError(f"Unit must be one of {', '.join(UNIT_CHOICES)}, got {unit!r}", field="unit")
     unit = units.UNIT_ALIASES[unit.lower()]
     width_text = _text(form, "wall_width")
+    if not width_text and _text(form, "surface"):  # a named sheet or board gives the size itself
+        return DEFAULT_WALL_WIDTH_MM, None, unit
     if not width_text:
         raise RequestError("give the Width of the surface (field 'wall_width')", field="wall_width")
     width = _side("width", width_text, unit)

@@ -36,7 +36,8 @@ OPTION_DEFAULTS = {k: v for k, v in options.form_defaults().items()
 FORM_DEFAULTS = {"wall_width": "3", "wall_height": "", "unit": "m", "paints": "8", "kit": forms.DEFAULT_KIT,
                  "brushes": "", "fit": "cover", "seed": "0", "pixel_mm": "", "inventory": "default",
                  "inventory_text": "", "free_palette": "", "openings": "", "wall_colour": "",
-                 "panels": "", "panel_overlap": "5cm", **OPTION_DEFAULTS}
+                 "panels": "", "panel_overlap": "5cm", **OPTION_DEFAULTS,
+                 **forms.CLASSROOM_DEFAULTS}
 #: a typed value longer than this (characters) is not put back into the re-shown form
 MAX_REFILL = 1000
 #: mimetypes of the photo formats we accept, by Pillow format id
@@ -62,7 +63,8 @@ def _start_page(values: dict[str, str] | None = None, error: str | None = None, 
                            more_open=changed or error_field in OPTION_DEFAULTS, recent=recent,
                            admin=owners.visitor().admin,
                            kits=forms.BRUSH_KITS, labels=forms.LABELS, limits=_limits(),
-                           units=forms.UNIT_CHOICES, max_size=max_size, inventory=_inventory_view()), status
+                           units=forms.UNIT_CHOICES, max_size=max_size, inventory=_inventory_view(),
+                           classroom=forms.CLASSROOM_OPTIONS, choice_labels=forms.CHOICE_LABELS), status
 
 
 def _limits() -> dict[str, Any]:
@@ -404,6 +406,7 @@ def _summary(settings: dict[str, Any]) -> dict[str, Any]:
         value, default = settings.get(key), getattr(_S, key)
         if isinstance(value, (int, float)) and value != default:
             facts.append((label, _fmt(fmt, value)))
+    facts += _classroom_facts(settings)
     output = web.get("output") or {}
     shown = {"coverage_m2_per_litre": ("Coverage", "{:g} m²/L", quantities.COVERAGE_M2_PER_L),
              "ground_coats": ("Ground coats", "{:g}", quantities.GROUND_COATS),
@@ -415,6 +418,22 @@ def _summary(settings: dict[str, Any]) -> dict[str, Any]:
             facts.append((label, _fmt(fmt, value, scale=100 if key == "waste" else 0.1 if key == "grid_mm" else 1)))
     return {"surface": surface, "paints": settings.get("paints"), "brushes": brushes_text,
             "brush_count": len(brushes), "seed": settings.get("seed", 0), "facts": facts}
+
+
+def _classroom_facts(settings: dict[str, Any]) -> list[tuple[str, str]]:
+    """A classroom plan's sheet or board, class, value study and simple mixes, labelled as the start page labels them."""
+    facts = []
+    key = settings.get("surface")
+    if isinstance(key, str) and key in forms.CHOICE_LABELS:
+        facts.append((forms.LABELS["surface"], forms.CHOICE_LABELS[key]))
+    # a stored record may hold anything: _said cuts huge numbers and long texts, as elsewhere on the page
+    if settings.get("students"):
+        facts.append((forms.LABELS["students"], _said(settings["students"])))
+    if settings.get("value_study"):
+        facts.append((forms.LABELS["value_study"], _said(settings["value_study"])))
+    if settings.get("simple_mixes"):
+        facts.append((forms.LABELS["simple_mixes"], "yes"))
+    return facts
 
 
 def _width_text(width_mm, unit: str) -> str:
