@@ -27,6 +27,7 @@ from typing import Any, Callable
 
 import numpy as np
 
+from .options import MAX_STROKE_COST as OPTION_MAX_STROKE_COST
 from .plan import Plan
 from .settings import Settings
 
@@ -34,8 +35,9 @@ from .settings import Settings
 TOLERANCE = 0.02
 #: most plans made while fitting (each is a whole plan)
 MAX_PLANS = 12
-#: the stroke costs searched (ΔE00 per brush-width square): from nearly every stroke to next to none
-MIN_STROKE_COST, MAX_STROKE_COST = 0.05, 2000.0
+#: the stroke costs searched (ΔE00 per brush-width square): from nearly every stroke to the highest the
+#: option takes (:data:`layerplan.options.MAX_STROKE_COST`, where next to no stroke is worth painting)
+MIN_STROKE_COST, MAX_STROKE_COST = 0.05, OPTION_MAX_STROKE_COST
 #: the bracket grows or shrinks by this factor a step
 _STEP = 4.0
 
