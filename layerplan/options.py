@@ -51,6 +51,9 @@ PAPERS, DEFAULT_PAPER = ("a4", "letter", "a3", "tabloid"), "a4"
 #: sheets.MAX_ENLARGEMENTS_PER_LAYER: most enlargement sheets of one layer by default; and the most we
 #: allow (about 30 KB of plan.html each: 400 is some 12 MB a layer)
 ENLARGEMENTS_PER_LAYER, MAX_ENLARGEMENTS_PER_LAYER = 24, 400
+#: --detail's words and the stroke cost each stands for (ΔE00 per brush-width square), chosen from
+#: the bench's sweep of stroke costs (bench/results.md): medium is the default stroke cost
+DETAIL_STROKE_COST = {"broad": 12.0, "medium": 5.5, "fine": 1.0}
 #: upper bound on a seed, so it stays an ordinary integer everywhere
 MAX_SEED = 2**32 - 1
 
@@ -301,12 +304,20 @@ def _check_file(opt: "Option", value) -> str:
     return value
 
 
+def _read_detail(opt: "Option", text: str) -> float:
+    word = text.strip().lower()
+    if word not in DETAIL_STROKE_COST:
+        raise OptionError(opt.name, f"{{name}} must be one of {', '.join(DETAIL_STROKE_COST)}, got {_show(text)}")
+    return DETAIL_STROKE_COST[word]
+
+
 #: kind -> (reader of typed text, checker of a value already typed)
 _KINDS: dict[str, tuple[Callable, Callable]] = {
     "whole": (_read_whole, _check_whole), "number": (_read_number, _check_number),
     "fraction": (_read_fraction, _check_fraction), "length": (_read_length, _check_length),
     "choice": (_read_choice, _check_choice), "switch": (_read_switch, _check_switch),
     "wall": (_read_wall, None), "brushes": (_read_brushes, _check_brushes), "file": (_read_file, _check_file),
+    "detail": (_read_detail, _check_number),
 }
 #: widest brush we accept, mm (a 1 m squeegee or roller is already more than any brush)
 MAX_BRUSH_MM = 1000.0
@@ -409,6 +420,7 @@ class Option:
             "wall": "WxH with a unit (m, cm, mm, ft, in): 4x2.5m, 12x8ft; or the width alone",
             "brushes": f"widths in mm, comma-separated, or with units (4in, 2in); at most {MAX_BRUSHES}",
             "file": "a TOML inventory file",
+            "detail": " or ".join(f"{w} ({c:g})" for w, c in DETAIL_STROKE_COST.items()),
         }[self.kind]
 
     def default_words(self) -> str:
@@ -496,6 +508,11 @@ OPTIONS: dict[str, Option] = {o.name: o for o in (
            "plan (the squares with the most areas are kept); 0 for none", "--enlargements",
            "Enlargements per layer", "enlargements per layer", "enlargements_per_layer", "quantities", _OUT,
            target="output", minimum=0, maximum=MAX_ENLARGEMENTS_PER_LAYER, metavar="N"),
+    # --- detail: the stroke cost in a painter's words (read into a stroke cost; given, it sets --stroke-cost)
+    Option("detail", "detail", None, "how much detail to paint: broad for a quick, loose wall with few strokes, "
+           "fine for faces and lettering at many more strokes; sets the stroke cost (in brackets) for you",
+           "--detail", "Detail", "detail", "stroke_cost", "planning", minimum=0.0, metavar="LEVEL",
+           default_text="as the stroke cost says", form=False),
 )}
 
 GROUP_TITLES = {"planning": "planning", "mixing": "paints and mix recipes", "quantities": "quantities and printing"}
@@ -745,7 +762,8 @@ def options_table() -> str:
             "| --- | --- | --- | --- | --- |"]
     for o in OPTIONS.values():
         commands = "" if o.commands == ("plan",) else f" ({', '.join(o.commands)})"
-        fieldname = f"`{o.field}` ({o.label})" if o.form else "upload or edit on the start page"
+        fieldname = (f"`{o.field}` ({o.label})" if o.form else "upload or edit on the start page"
+                     if o.kind == "file" else "command line only (the start page has Stroke cost)")
         if o.name == "wall":
             fieldname = "`wall_width`, `wall_height`, `unit`, or `wall` (Surface)"
         if o.name == "brushes":
