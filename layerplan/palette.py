@@ -277,8 +277,9 @@ def palette_from_mixes(target_lab: np.ndarray, inside: np.ndarray, k: int, mixes
     Minimises the photo's CIEDE2000 floor (each pixel its nearest paint) over a weighted pixel
     sample (:func:`weighted_sample`), choosing every paint from ``mixes_lab``: greedy seeding,
     best-improvement swaps over a thinned candidate set (one mix per CIELAB cube of
-    :data:`CANDIDATE_LAB`, the simplest by ``rank``), then the same swaps over every mix within
-    :data:`REFINE_LAB` of each paint (one per cube of :data:`REFINE_STEP`). No two paints end up closer than ``min_separation_de``.
+    :data:`CANDIDATE_LAB`, the simplest by ``rank``), then the same swaps over the mixes within
+    :data:`REFINE_LAB` of each paint (one per cube of :data:`REFINE_STEP`). No two paints end up
+    closer than ``min_separation_de``.
 
     Parameters
     ----------
