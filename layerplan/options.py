@@ -53,7 +53,7 @@ PAPERS, DEFAULT_PAPER = ("a4", "letter", "a3", "tabloid"), "a4"
 ENLARGEMENTS_PER_LAYER, MAX_ENLARGEMENTS_PER_LAYER = 24, 400
 #: --detail's words and the stroke cost each stands for (ΔE00 per brush-width square), chosen from
 #: the bench's sweep of stroke costs (bench/results.md): medium is the default stroke cost
-DETAIL_STROKE_COST = {"broad": 12.0, "medium": 5.5, "fine": 1.0}
+DETAIL_STROKE_COST = {"broad": 8.0, "medium": 5.5, "fine": 1.0}
 #: upper bound on a seed, so it stays an ordinary integer everywhere
 MAX_SEED = 2**32 - 1
 
