@@ -77,7 +77,7 @@ def test_render_rebuilds_with_new_options_and_keeps_strokes(planned):
         if "recipe" in p:
             assert sum(b["litres"] for b in p["recipe"]["batch"]) == pytest.approx(litres[p["id"]], abs=1e-9)
     ground = next(p for p in new["paint_use"]["paints"] if p["paint"] == new["ground"]["paint"])
-    assert ground["litres"] == pytest.approx((0.48 * 1 + ground["stroke_area_m2"]) / 16, abs=1e-3)
+    assert ground["litres"] == pytest.approx((0.48 * 1 + ground["stroke_coat_area_m2"]) / 16, abs=1e-3)
     assert _ground_litres(new) < _ground_litres(old)
     assert (again / "plan.html").exists() and (again / "final.png").read_bytes() == (out / "final.png").read_bytes()
 
