@@ -60,6 +60,10 @@ def _parser() -> argparse.ArgumentParser:
     render.add_argument("--out", required=True, help="folder to write the outputs into")
     options.add_cli_options(render, "render")
     render.set_defaults(func=cmd_render)
+    warm = sub.add_parser("warm", help="prepare the planner once after installing (a few minutes)",
+                          description="Compile the planner's fast code once, so that every plan after it "
+                                      "starts within seconds (run it after installing or upgrading).")
+    warm.set_defaults(func=lambda args: __import__("layerplan.warm", fromlist=["main"]).main())
     from . import cli_paints  # its commands import their own heavy parts when run
 
     cli_paints.register(sub)

@@ -56,6 +56,9 @@ ENLARGEMENTS_PER_LAYER, MAX_ENLARGEMENTS_PER_LAYER = 24, 400
 #: overlap of neighbouring panels by default, mm: a band to glue or trim (our choice, from memory of cloth
 #: and board murals: a few centimetres)
 PANEL_OVERLAP_MM = 50.0
+#: --detail's words and the stroke cost each stands for (ΔE00 per brush-width square), chosen from
+#: the bench's sweep of stroke costs (bench/results.md): medium is the default stroke cost
+DETAIL_STROKE_COST = {"broad": 8.0, "medium": 5.5, "fine": 1.0}
 #: upper bound on a seed, so it stays an ordinary integer everywhere
 MAX_SEED = 2**32 - 1
 #: most coats of the ground or of any stroke: two or three is the rule, a deep red on black may take
@@ -538,6 +541,11 @@ def _check_panel_size(opt: "Option", value) -> tuple[float, float]:
     if not (math.isfinite(w) and math.isfinite(h) and w > 0 and h > 0):
         raise OptionError(opt.name, f"{{name}} must have a width and height > 0, got {value!r}")
     return w, h
+def _read_detail(opt: "Option", text: str) -> float:
+    word = text.strip().lower()
+    if word not in DETAIL_STROKE_COST:
+        raise OptionError(opt.name, f"{{name}} must be one of {', '.join(DETAIL_STROKE_COST)}, got {_show(text)}")
+    return DETAIL_STROKE_COST[word]
 
 
 #: kind -> (reader of typed text, checker of a value already typed)
@@ -549,6 +557,7 @@ _KINDS: dict[str, tuple[Callable, Callable]] = {
     "openings": (_read_openings, _check_openings), "colour": (_read_colour, _check_colour),
     "photo": (_read_photo, _check_photo), "corners": (_read_corners, _check_corners),
     "panel_size": (_read_panel_size, _check_panel_size),
+    "detail": (_read_detail, _check_number),
 }
 #: widest brush we accept, mm (a 1 m squeegee or roller is already more than any brush)
 MAX_BRUSH_MM = 1000.0
@@ -669,6 +678,7 @@ class Option:
             "photo": "a JPEG, PNG, WebP or TIFF file",
             "corners": "x1,y1,x2,y2,x3,y3,x4,y4 in photo pixels: top-left, top-right, bottom-right, bottom-left",
             "panel_size": "W,H with a unit: 1.5,1.2m",
+            "detail": " or ".join(f"{w} ({c:g})" for w, c in DETAIL_STROKE_COST.items()),
         }[self.kind]
 
     def default_words(self) -> str:
@@ -831,6 +841,11 @@ OPTIONS: dict[str, Option] = {o.name: o for o in (
            "white, evenly spaced in lightness, with a value scale to paint first; 0 for colour",
            "--value-study", "Value study (greys)", "value study", "value_study", "planning", minimum=0,
            maximum=MAX_VALUE_STEPS, metavar="N"),
+    # --- detail: the stroke cost in a painter's words (read into a stroke cost; given, it sets --stroke-cost)
+    Option("detail", "detail", None, "how much detail to paint: broad for a quick, loose wall with few strokes, "
+           "fine for faces and lettering at many more strokes; sets the stroke cost (in brackets) for you",
+           "--detail", "Detail", "detail", "stroke_cost", "planning", minimum=0.0, metavar="LEVEL",
+           default_text="as the stroke cost says", form=False),
 )}
 
 GROUP_TITLES = {"planning": "planning", "mixing": "paints and mix recipes", "quantities": "quantities and printing"}
@@ -1104,8 +1119,9 @@ def options_table() -> str:
             "| --- | --- | --- | --- | --- |"]
     for o in OPTIONS.values():
         commands = "" if o.commands == ("plan",) else f" ({', '.join(o.commands)})"
-        fieldname = f"`{o.field}` ({o.label})" if o.form else (
-            "command line only" if o.target == "budget" else "upload or edit on the start page")
+        fieldname = (f"`{o.field}` ({o.label})" if o.form else "upload or edit on the start page"
+                     if o.kind == "file" else "command line only (the start page has Stroke cost)"
+                     if o.name == "detail" else "command line only")
         if o.name == "wall":
             fieldname = "`wall_width`, `wall_height`, `unit`, or `wall` (Surface)"
         if o.name == "brushes":

@@ -15,7 +15,7 @@ from .ground import choose_ground
 from .openings import as_openings, colour_lab, opening_mask, wall_ground
 from .layers import DEFAULT_PAINT_RUNS, PAINT_RUNS, layer_specs, paint_runs
 from .order import painting_order, short_travel
-from .palette import lightest_first, palette_from_image
+from .palette import lightest_first, palette_from_image, palette_from_mixes
 from .placer import orientation_field, painting_keys, place_layer, prune_strokes, relax_strokes
 from .plan import Layer, Paint, Plan, Stroke, rgb_to_hex
 from .raster import render_steps
@@ -30,28 +30,30 @@ def _noop(fraction: float, message: str) -> None:
     pass
 
 
-def mix_palette(pal_rgb: np.ndarray, pal_lab: np.ndarray, settings: Settings):
-    """Mix recipes for the palette from the painter's paints, and snap the palette to them.
+def choose_palette(target_lab: np.ndarray, inside: np.ndarray, settings: Settings):
+    """The plan's paints and their mix recipes from the painter's paints.
 
     Parameters
     ----------
-    pal_rgb : (K, 3) uint8 array
-    pal_lab : (K, 3) float array
-        The k-means palette (its CIELAB).
+    target_lab : (H, W, 3) float array
+        The photo on the raster, CIELAB.
+    inside : (H, W) bool array
+        Pixels that belong to the photo.
     settings : Settings
-        ``inventory`` (file path or None for the default set), ``free_palette``,
-        ``mix_paints``, ``max_parts``, ``tolerance_de``.
+        ``paints``, ``seed``, ``inventory`` (file path or None for the default set),
+        ``free_palette``, ``mix_paints``, ``max_parts``, ``tolerance_de``.
 
     Returns
     -------
     rgb : (K', 3) uint8 array
     lab : (K', 3) float array
-        The palette to plan with: unless ``free_palette``, each paint becomes the colour its
-        recipe is predicted to mix to (so the preview shows what the painter will get), paints
-        that snap to the same colour are merged (the first, lightest, keeps its recipe) and the
-        result is ordered lightest first again. With ``free_palette`` the input, unchanged.
+        The palette to plan with, lightest first. By default the paints are chosen among the
+        colours the inventory mixes (:func:`layerplan.palette.palette_from_mixes`), so the
+        preview shows what the painter will get. With ``free_palette``, the k-means colours
+        as they fall (:func:`layerplan.palette.palette_from_image`), each with the nearest mix
+        reported beside it.
     recipes : list of dict
-        One recipe (:meth:`layerplan.recipes.Recipe.to_dict` form) per returned paint; ``target`` is the k-means colour.
+        One recipe (:meth:`layerplan.recipes.Recipe.to_dict` form) per returned paint.
     inventory : list of dict
         The stock paints, ``{"name", "srgb", "tinting_strength", "containers_l"}``, for plan.json; a paint
         with priced containers also has ``"container_prices"`` (per size, None where unpriced) and ``"currency"``.
@@ -64,29 +66,35 @@ def mix_palette(pal_rgb: np.ndarray, pal_lab: np.ndarray, settings: Settings):
     References
     ----------
     Kubelka & Munk (1931); Berns & Mohammadi (2007); Mallett & Yuksel (2019) — see
-    :mod:`layerplan.mixing`.
+    :mod:`layerplan.mixing`; Kaufman & Rousseeuw (1990) for the choice among mixes.
     """
     from .inventory import default_inventory, load_inventory
-    from .plan import hex_to_rgb
-    from .recipes import solve_recipes
+    from .recipes import MAX_PARTS_LIMIT, build_mix_table, recipes_of_rows, solve_recipes
 
     inv = default_inventory() if settings.inventory is None else load_inventory(settings.inventory)
-    found = solve_recipes(pal_lab, inv, max_paints=settings.mix_paints, max_parts=settings.max_parts,
-                          tolerance=settings.tolerance_de, targets_srgb=[rgb_to_hex(c) for c in pal_rgb])
     # prices travel with their sizes (and their currency), only where the inventory gives them
     stock = [{"name": p.name, "srgb": p.srgb, "tinting_strength": p.tinting_strength,
               "containers_l": list(p.containers_l),
               **({"container_prices": list(p.prices), "currency": inv.currency} if p.prices else {})}
              for p in inv.paints]
     if settings.free_palette:
-        return pal_rgb, pal_lab, [r.to_dict() for r in found], stock
-    keep: dict[str, int] = {}
-    for i, r in enumerate(found):
-        keep.setdefault(r.predicted_srgb, i)
-    chosen = list(keep.values())
-    rgb = np.array([hex_to_rgb(found[i].predicted_srgb) for i in chosen], dtype=np.uint8).reshape(-1, 3)
+        rgb, lab = palette_from_image(target_lab, inside, settings.paints, seed=settings.seed)
+        found = solve_recipes(lab, inv, max_paints=settings.mix_paints, max_parts=settings.max_parts,
+                              tolerance=settings.tolerance_de, targets_srgb=[rgb_to_hex(c) for c in rgb])
+        return rgb, lab, [r.to_dict() for r in found], stock
+    table = build_mix_table(inv, max_paints=settings.mix_paints, max_parts=settings.max_parts)
+    # one row per colour shown (8-bit sRGB), the simplest mix of it: fewest paints, then fewest parts
+    rank = table.n_paints.astype(np.int64) * (MAX_PARTS_LIMIT + 1) + table.total_parts
+    by_rank = np.argsort(rank, kind="stable")
+    _, first = np.unique(table.rgb[by_rank], axis=0, return_index=True)
+    rows = by_rank[np.sort(first)]
+    mixes_lab = srgb_to_lab(np.asarray(table.rgb[rows]))
+    chosen = rows[palette_from_mixes(target_lab, inside, settings.paints, mixes_lab, seed=settings.seed,
+                                     rank=rank[rows])]
+    rgb = np.asarray(table.rgb[chosen], dtype=np.uint8).reshape(-1, 3)
     rgb, lab, order = lightest_first(rgb, srgb_to_lab(rgb))
-    return rgb, lab, [found[chosen[i]].to_dict() for i in order], stock
+    found = recipes_of_rows(table, chosen[order], tolerance=settings.tolerance_de)
+    return rgb, lab, [r.to_dict() for r in found], stock
 
 
 def make_plan(image: np.ndarray, settings: Settings, *, progress=None, runs: str | None = DEFAULT_PAINT_RUNS) -> Plan:
@@ -148,9 +156,7 @@ def make_plan(image: np.ndarray, settings: Settings, *, progress=None, runs: str
         pal_rgb, pal_lab, recipes, inventory, value_study = mix_value_palette(settings)
         target_lab[..., 1:] = 0.0
     else:
-        pal_rgb, pal_lab = palette_from_image(target_lab, voting, settings.paints, seed=settings.seed)
-        report(0.045, "mixing recipes from the paints")
-        pal_rgb, pal_lab, recipes, inventory = mix_palette(pal_rgb, pal_lab, settings)
+        pal_rgb, pal_lab, recipes, inventory = choose_palette(target_lab, voting, settings)
 
     report(0.06, "measuring colour error")
     planes = error_planes(target_lab, pal_lab)

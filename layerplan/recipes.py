@@ -41,7 +41,6 @@ from functools import lru_cache, reduce
 from typing import Any, Mapping
 
 import numpy as np
-from numba import njit
 
 from . import mixing
 from .colour import lab_to_srgb
@@ -58,6 +57,8 @@ MAX_TOLERANCE_DE = 100.0
 #: (far below the ~1 ΔE00 just-noticeable difference, common practice): a wider margin would
 #: swap an exact 3-paint mix for a near 2-paint one, and the solver must find exact mixes back
 SIMPLER_WITHIN_DE = 0.05
+#: mixes predicted at a time while building a table, and searched at a time per wanted colour
+_TABLE_BLOCK = 8192
 #: largest candidate table built (memory and time bound: ~100 MB while building)
 MAX_TABLE_MIXES = 1_500_000
 
@@ -279,8 +280,17 @@ def _cached_table(inventory: Inventory, max_paints: int, max_parts: int) -> MixT
     parts = np.concatenate(part_blocks)
     used = paint_idx >= 0
     xyz = np.empty((len(paint_idx), 3))
-    _mix_table_xyz(paint_idx, parts.astype(np.float64), optics.absorption, optics.scattering,
-                   mixing.xyz_weights(), mixing.SAUNDERSON_K1, mixing.SAUNDERSON_K2, xyz)
+    # numpy in blocks (no compiled code, so the recipe commands start at once): each block's
+    # (mixes × wavelengths) spectra stay a few megabytes even for the largest table allowed
+    rows = np.arange(len(paint_idx))
+    for start in range(0, len(paint_idx), _TABLE_BLOCK):
+        block = slice(start, start + _TABLE_BLOCK)
+        dense = np.zeros((len(rows[block]), n_inv))
+        for j in range(max_paints):
+            idx = paint_idx[block, j]
+            ok = idx >= 0
+            dense[np.flatnonzero(ok), idx[ok]] = parts[block, j][ok]
+        xyz[block] = mixing.reflectance_to_xyz(mixing.mix_reflectance(optics, dense))
     lab, rgb = mixing.xyz_to_lab(xyz), mixing.xyz_to_srgb(xyz)
     for a in (paint_idx, parts, lab, rgb):
         a.setflags(write=False)
@@ -351,11 +361,13 @@ def solve_recipes(
     table = build_mix_table(inventory, max_paints=max_paints, max_parts=max_parts)
 
     rank = table.n_paints.astype(np.float64) * (MAX_PARTS_LIMIT + 1) + table.total_parts
-    table_lab = np.ascontiguousarray(table.lab)
-    de = np.empty(len(table_lab))
+    from .colour import delta_e00
+
+    de = np.empty(len(table.lab))
     recipes: list[Recipe] = []
     for i, wanted in enumerate(lab):
-        _de00_to_table(wanted[0], wanted[1], wanted[2], table_lab, de)
+        for start in range(0, len(de), _TABLE_BLOCK):
+            de[start : start + _TABLE_BLOCK] = delta_e00(wanted[None, :], table.lab[start : start + _TABLE_BLOCK])
         best = de.min()
         # ΔE00 <= ~120, so de / 1000 < 1 only breaks ties within the same (paints, parts) rank
         key = np.where(de <= best + SIMPLER_WITHIN_DE, rank + de / 1000.0, np.inf)
@@ -363,112 +375,6 @@ def solve_recipes(
         target = targets_srgb[i] if targets_srgb is not None else rgb_to_hex(lab_to_srgb(wanted))
         recipes.append(_recipe(table, row, target, float(de[row]), tolerance))
     return recipes
-
-
-@njit(cache=True, nogil=True)
-def _mix_table_xyz(paint_idx, parts, absorption, scattering, weights, k1, k2, out):
-    """XYZ of every mix of the table: Duncan's rule, Kubelka–Munk R∞, Saunderson, CIE weights.
-
-    The same formulae as :func:`layerplan.mixing.mix_optics_colours` (the tests compare), compiled
-    so that only the few paints of each mix are read and no (mixes × wavelengths) temporaries are
-    made.
-    """
-    n_w = absorption.shape[1]
-    for m in range(paint_idx.shape[0]):
-        x = 0.0
-        y = 0.0
-        z = 0.0
-        for w in range(n_w):
-            k = 0.0
-            s = 0.0
-            for j in range(paint_idx.shape[1]):
-                i = paint_idx[m, j]
-                if i >= 0:
-                    k += parts[m, j] * absorption[i, w]
-                    s += parts[m, j] * scattering[i, w]
-            q = k / s
-            ri = 1.0 + q - math.sqrt(q * q + 2.0 * q)
-            r = (1.0 - k1) * (1.0 - k2) * ri / (1.0 - k2 * ri)
-            x += r * weights[w, 0]
-            y += r * weights[w, 1]
-            z += r * weights[w, 2]
-        out[m, 0] = x
-        out[m, 1] = y
-        out[m, 2] = z
-
-
-@njit(cache=True, nogil=True)
-def _de00_to_table(L1, a1, b1, table_lab, out):
-    """CIEDE2000 (kL = kC = kH = 1) from one colour to every row of ``table_lab``.
-
-    The formula exactly as in Sharma, Wu & Dalal (2005), eqs. (1)-(22), compiled so a
-    whole mix table is searched per target without (targets × mixes) temporaries; checked
-    against :func:`layerplan.colour.delta_e00` in the tests.
-    """
-    deg = math.pi / 180.0
-    p25_7 = 25.0**7
-    c1 = math.hypot(a1, b1)
-    for m in range(table_lab.shape[0]):
-        L2 = table_lab[m, 0]
-        a2 = table_lab[m, 1]
-        b2 = table_lab[m, 2]
-        c2 = math.hypot(a2, b2)
-        cbar = (c1 + c2) * 0.5
-        cbar7 = cbar * cbar * cbar
-        cbar7 = cbar7 * cbar7 * cbar
-        g = 0.5 * (1.0 - math.sqrt(cbar7 / (cbar7 + p25_7)))
-        a1p = (1.0 + g) * a1
-        a2p = (1.0 + g) * a2
-        c1p = math.hypot(a1p, b1)
-        c2p = math.hypot(a2p, b2)
-        h1p = math.atan2(b1, a1p) / deg  # atan2(0, 0) = 0, as the formula wants
-        if h1p < 0.0:
-            h1p += 360.0
-        h2p = math.atan2(b2, a2p) / deg
-        if h2p < 0.0:
-            h2p += 360.0
-        dl = L2 - L1
-        dc = c2p - c1p
-        cc = c1p * c2p
-        if cc == 0.0:
-            dh = 0.0
-        else:
-            dh = h2p - h1p
-            if dh > 180.0:
-                dh -= 360.0
-            elif dh < -180.0:
-                dh += 360.0
-        dH = 2.0 * math.sqrt(cc) * math.sin(dh * deg * 0.5)
-        lbar = (L1 + L2) * 0.5
-        cbarp = (c1p + c2p) * 0.5
-        if cc == 0.0:
-            hbar = h1p + h2p
-        elif abs(h1p - h2p) <= 180.0:
-            hbar = (h1p + h2p) * 0.5
-        elif h1p + h2p < 360.0:
-            hbar = (h1p + h2p + 360.0) * 0.5
-        else:
-            hbar = (h1p + h2p - 360.0) * 0.5
-        t = (
-            1.0
-            - 0.17 * math.cos((hbar - 30.0) * deg)
-            + 0.24 * math.cos(2.0 * hbar * deg)
-            + 0.32 * math.cos((3.0 * hbar + 6.0) * deg)
-            - 0.20 * math.cos((4.0 * hbar - 63.0) * deg)
-        )
-        dtheta = 30.0 * math.exp(-(((hbar - 275.0) / 25.0) ** 2))
-        cbarp7 = cbarp * cbarp * cbarp
-        cbarp7 = cbarp7 * cbarp7 * cbarp
-        rc = 2.0 * math.sqrt(cbarp7 / (cbarp7 + p25_7))
-        l50 = (lbar - 50.0) ** 2
-        sl = 1.0 + 0.015 * l50 / math.sqrt(20.0 + l50)
-        sc = 1.0 + 0.045 * cbarp
-        sh = 1.0 + 0.015 * cbarp * t
-        rt = -math.sin(2.0 * dtheta * deg) * rc
-        x = dl / sl
-        y = dc / sc
-        z = dH / sh
-        out[m] = math.sqrt(max(0.0, x * x + y * y + z * z + rt * y * z))
 
 
 def _recipe(table: MixTable, row: int, target: str, de: float, tolerance: float) -> Recipe:
@@ -485,6 +391,32 @@ def _recipe(table: MixTable, row: int, target: str, de: float, tolerance: float)
         in_gamut=bool(de <= tolerance),
         no_tint=no_tint,
     )
+
+
+def recipes_of_rows(table: MixTable, rows, *, tolerance: float = DEFAULT_TOLERANCE_DE) -> list[Recipe]:
+    """The recipes of chosen rows of a mix table, each wanting exactly the colour it mixes to.
+
+    For a palette chosen among the mixes themselves (:func:`layerplan.palette.palette_from_mixes`):
+    each recipe's ``target`` is the mix's own predicted sRGB, and ``delta_e`` the CIEDE2000
+    between that 8-bit colour and the unclipped prediction (rounding, or clipping for a mix
+    outside sRGB).
+
+    Parameters
+    ----------
+    table : MixTable
+    rows : sequence of int
+    tolerance : float, keyword-only
+
+    Returns
+    -------
+    list of Recipe
+    """
+    from .colour import delta_e00, srgb_to_lab
+
+    rows = [int(r) for r in rows]
+    shown = srgb_to_lab(np.asarray(table.rgb[rows], dtype=np.uint8).reshape(-1, 3))
+    de = np.atleast_1d(delta_e00(shown, table.lab[rows]))
+    return [_recipe(table, r, rgb_to_hex(table.rgb[r]), float(d), tolerance) for r, d in zip(rows, de)]
 
 
 def recipes_for_srgb(colours, inventory: Inventory | None = None, **options) -> list[Recipe]:

@@ -63,8 +63,8 @@ class Settings:
         Path of the painter's inventory file (TOML, see :mod:`layerplan.inventory`);
         ``None`` mixes from the default set shipped with layerplan.
     free_palette : bool
-        ``True`` keeps the raw k-means colours; by default each paint is snapped to the
-        colour its mix recipe is predicted to give (recipes are reported either way).
+        ``True`` keeps the raw k-means colours (each with its nearest recipe); by default the
+        paints are chosen among the colours the inventory mixes (recipes are reported either way).
     mix_paints : int
         At most this many inventory paints per mix recipe (1–4).
     max_parts : int

@@ -111,7 +111,7 @@ def value_scale(inventory: Inventory, steps: int) -> list[ValueStep]:
 
 
 def value_palette(inventory: Inventory, steps: int):
-    """The palette of a value study, as :func:`layerplan.pipeline.mix_palette` returns a palette.
+    """The palette of a value study, as :func:`layerplan.pipeline.choose_palette` returns a palette.
 
     Returns
     -------
@@ -144,12 +144,12 @@ def value_palette(inventory: Inventory, steps: int):
 
 
 def mix_value_palette(settings):
-    """:func:`layerplan.pipeline.mix_palette`'s four results for a value study, and plan.json's section.
+    """:func:`layerplan.pipeline.choose_palette`'s four results for a value study, and plan.json's section.
 
     Returns
     -------
     rgb, lab, recipes, inventory
-        As :func:`layerplan.pipeline.mix_palette` returns them, the greys lightest first.
+        As :func:`layerplan.pipeline.choose_palette` returns them, the greys lightest first.
     section : dict
         plan.json's ``value_study``: ``{"steps": N, "black": name, "white": name, "greys": [{"paint",
         "target_l", "l", "parts": {"black", "white"}}, ...]}``.

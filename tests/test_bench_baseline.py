@@ -156,3 +156,31 @@ def test_bad_inputs_are_named():
         run(img, min_len=5, max_len=4)
     with pytest.raises(ValueError, match="plan raster is 64x48 px"):
         hz.baseline_plan(img[:10], tiny_plan(img), BRUSHES)
+
+
+def test_threshold_is_in_cielab_units_in_lab_space():
+    # paintLayer: a grid cell gets a stroke when its mean difference to the canvas exceeds T. In
+    # "lab" space the difference is the CIELAB distance (ΔE76, CIE 15:2004): a flat picture of a
+    # colour 6 units from the ground paint is below T = 10 and above T = 5 everywhere
+    ground = _lab(PALETTE[:1])[0]
+    near = ground + np.array([-6.0, 0.0, 0.0])  # 6 ΔE76 darker than the ground paint
+    from skimage.color import lab2rgb
+
+    rgb = np.clip(np.round(lab2rgb(near.reshape(1, 1, 3)).reshape(3) * 255), 0, 255).astype(np.uint8)
+    img = np.broadcast_to(rgb, (48, 64, 3)).copy()
+    d = float(np.linalg.norm(_lab(rgb)[0] - ground))
+    assert 5.0 < d < 10.0  # rounding to 8-bit sRGB keeps it between the two thresholds
+    # the first layer covers everything (the canvas starts infinitely far); then only T decides.
+    # Its strokes take the nearest paint, the ground colour itself, so the canvas stays d away
+    above = run(img, threshold=10.0, space="lab")[0]
+    below = run(img, threshold=5.0, space="lab")[0]
+    cells = (48 // 2) * (64 // 2)  # the second layer's grid: spacing f_g·R = 2 px
+    # T = 5: every cell of the second layer is above the threshold and gets its stroke; T = 10: only
+    # the few cells at the picture's edge that the first layer's dots left unpainted
+    assert len(below[1].points_px) >= 0.9 * cells
+    assert len(above[1].points_px) <= 0.1 * cells
+
+
+def test_unknown_space_is_refused():
+    with pytest.raises(ValueError, match="space must be one of lab, rgb"):
+        run(picture(), space="hsv")

@@ -42,9 +42,10 @@ def test_plan_writes_html_svgs_and_quantities(planned):
     _, out = planned
     doc = json.loads((out / "plan.json").read_text())
     assert doc["paint_use"]["coverage_m2_per_litre"] == 8.0 and doc["paint_use"]["waste"] == 0.1
-    # area × coats ÷ spreading rate × (1 + waste), by hand (common practice): 0.48 m² × 3 coats / 8 m²/L × 1.1, plus the ground paint's own strokes
+    # area × coats ÷ spreading rate × (1 + waste), by hand (common practice): 0.48 m² × 3 coats / 8 m²/L × 1.1, plus the
+    # ground paint's own strokes, each by its coats (a light stroke over a dark area takes more than one)
     ground = next(p for p in doc["paint_use"]["paints"] if p["paint"] == doc["ground"]["paint"])
-    expect = (0.48 * 3 + ground["stroke_area_m2"] * 1) / 8 * 1.1
+    expect = (0.48 * 3 + ground["stroke_coat_area_m2"]) / 8 * 1.1
     assert ground["litres"] == pytest.approx(expect, abs=1e-3)
     html = (out / "plan.html").read_text()
     assert 'id="safety"' in html and html.count('class="sheet layer"') == len(doc["layers"])
@@ -76,7 +77,7 @@ def test_render_rebuilds_with_new_options_and_keeps_strokes(planned):
         if "recipe" in p:
             assert sum(b["litres"] for b in p["recipe"]["batch"]) == pytest.approx(litres[p["id"]], abs=1e-9)
     ground = next(p for p in new["paint_use"]["paints"] if p["paint"] == new["ground"]["paint"])
-    assert ground["litres"] == pytest.approx((0.48 * 1 + ground["stroke_area_m2"]) / 16, abs=1e-3)
+    assert ground["litres"] == pytest.approx((0.48 * 1 + ground["stroke_coat_area_m2"]) / 16, abs=1e-3)
     assert _ground_litres(new) < _ground_litres(old)
     assert (again / "plan.html").exists() and (again / "final.png").read_bytes() == (out / "final.png").read_bytes()
 

@@ -59,13 +59,39 @@ def test_paints_loads_no_compiler_clustering_web_or_colour_science(argv):
 
 def test_mix_loads_no_clustering_web_colour_science_or_planner():
     result = _run(["mix", "#6b8e23", "--json"])
-    # numba stays: the recipe search's CIEDE2000 kernel is compiled code in layerplan.recipes
-    assert sorted(set(result["loaded"]) - {"numba", "llvmlite"}) == []
+    # the recipe search is numpy: no compiled code to load
+    assert result["loaded"] == []
     assert [r["target"] for r in json.loads(result["stdout"])] == ["#6b8e23"]
 
 
 def test_mix_combine_loads_no_clustering_web_colour_science_or_planner():
     result = _run(["mix", "--combine", "White=3", "Warm red=1", "--json"])
-    # numba stays here too: predict_mix lives in layerplan.recipes beside the compiled kernel
-    assert sorted(set(result["loaded"]) - {"numba", "llvmlite"}) == []
+    assert result["loaded"] == []
     assert set(json.loads(result["stdout"])) == {"predicted_srgb", "lab"}
+
+
+def _tiny_photo(tmp_path):
+    import numpy as np
+    from PIL import Image
+
+    rng = np.random.default_rng(0)
+    img = (rng.random((24, 36, 3)) * 255).astype(np.uint8)
+    img[:12] = (200, 40, 40)
+    path = tmp_path / "tiny.png"
+    Image.fromarray(img).save(path)
+    return path
+
+
+@pytest.mark.parametrize("free", [False, True])
+def test_plan_loads_scikit_learn_only_for_kmeans_and_the_palette_search_only_without_it(tmp_path, free):
+    argv = ["plan", str(_tiny_photo(tmp_path)), "--out", str(tmp_path / "out"), "--quiet", "--wall", "36x24cm",
+            "--paints", "3", "--brushes", "60,20", "--pixel-mm", "10"] + (["--free-palette"] if free else [])
+    probe = _PROBE  # the same probe, asked about the clustering and the palette search's kernels
+    done = subprocess.run([sys.executable, "-c", probe, json.dumps(argv),
+                           json.dumps(["sklearn", "layerplan._palette_kernels"])],
+                          cwd=REPO, capture_output=True, text=True, timeout=600)
+    assert done.returncode == 0, done.stderr
+    result = json.loads(done.stdout.splitlines()[-1])
+    assert result["status"] == 0 and (tmp_path / "out" / "plan.json").exists()
+    # k-means (scikit-learn) runs only for the free palette; the search among mixes only without it
+    assert result["loaded"] == (["sklearn"] if free else ["layerplan._palette_kernels"])

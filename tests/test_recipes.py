@@ -177,6 +177,9 @@ def test_two_paint_ratios_in_lowest_terms_number_eulers_totient():
 
 
 def test_compiled_ciede2000_matches_sharma_2005_pairs_and_scikit_image():
+    # the palette search's compiled CIEDE2000 (layerplan._palette_kernels)
+    from layerplan._palette_kernels import de00_to_row
+
     # Sharma, Wu & Dalal (2005) Table 1 (tests/data/ciede2000-sharma2005.tsv)
     rows = [line.split("\t") for line in (DATA / "ciede2000-sharma2005.tsv").read_text().splitlines()
             if line.strip() and not line.startswith("#")]
@@ -187,7 +190,7 @@ def test_compiled_ciede2000_matches_sharma_2005_pairs_and_scikit_image():
     lab2 = np.ascontiguousarray(vals[:, [col["L2"], col["a2"], col["b2"]]])
     out = np.empty(1)
     for k in range(len(vals)):
-        recipes._de00_to_table(*lab1[k], lab2[k:k + 1], out)
+        de00_to_row(*lab1[k], lab2[k:k + 1], out)
         assert out[0] == pytest.approx(vals[k, col["dE00"]], abs=1e-4)
     # and against scikit-image's implementation on random colours, neutrals included
     rng = np.random.default_rng(0)
@@ -195,7 +198,7 @@ def test_compiled_ciede2000_matches_sharma_2005_pairs_and_scikit_image():
     many[:100, 1:] = 0.0
     res = np.empty(len(many))
     for t in ([50.0, 0.0, 0.0], [60.0, -30.0, 20.0], [30.0, 0.0, -5.0]):
-        recipes._de00_to_table(*t, many, res)
+        de00_to_row(*t, many, res)
         assert np.allclose(res, delta_e00(np.array(t)[None, :], many), atol=1e-9)
 
 
