@@ -851,7 +851,7 @@ def main(argv=None) -> int:
     results = checks(photos, scaling, memory, four_brush, runs_cmp, startup)
     total = time.perf_counter() - t_start
     info["palette"] = ("k-means as is (--free-palette)" if args.free_palette
-                       else "the product's default: k-means snapped to mixable recipes")
+                       else "the product's default: paints chosen among the mixable colours")
     curves_svg(photos, out_path.with_name(out_path.stem + "-curves.svg"))
     md, summary = render_md(info, photos, scaling, memory, four_brush, results, args.quick, total, runs_cmp,
                             startup)
