@@ -184,11 +184,8 @@ def delete(plan_id: str) -> bool:
     Forbidden
         The plan is someone else's.
     """
-    record = visible(plan_id)
-    if record is None:
+    if _owned(plan_id, "only the person who made this plan can delete it (from the browser it was made in)") is None:
         return False
-    if not owners.owns(record):
-        raise Forbidden("only the person who made this plan can delete it (from the browser it was made in)")
     state().runner.cancel(plan_id)
     state().data_size.forget()
     return store().delete(plan_id)
@@ -202,12 +199,18 @@ def set_private(plan_id: str, private: bool) -> bool:
     Forbidden
         The plan is someone else's.
     """
-    record = visible(plan_id)
-    if record is None:
+    if _owned(plan_id, "only the person who made this plan can change who sees it") is None:
         return False
-    if not owners.owns(record):
-        raise Forbidden("only the person who made this plan can change who sees it")
     return store().set_private(plan_id, private)
+
+
+def _owned(plan_id: str, refusal: str) -> PlanRecord | None:
+    """The plan's record if this visitor may change it, None if they cannot see it; Forbidden (``refusal``)
+    when it is someone else's plan they can see."""
+    record = visible(plan_id)
+    if record is not None and not owners.owns(record):
+        raise Forbidden(refusal)
+    return record
 
 
 def status(record: PlanRecord) -> dict[str, Any]:
